@@ -1,0 +1,1 @@
+"""Command modules of the dha CLI, one per area."""

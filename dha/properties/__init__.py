@@ -1,0 +1,1 @@
+"""Calculated properties: one module per property family."""

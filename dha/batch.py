@@ -1,0 +1,225 @@
+"""Batch processing for refinery QC: many runs in parallel, a summary table, flags, trends.
+
+``run_batch`` expands files, folders and globs into input files, processes each with
+``dha.pipeline`` in a process pool, writes one JSON (and any other format asked for) per run
+and returns one summary row per run. A run that cannot be processed becomes a summary row
+with ``status = "error"`` and its one-line message: a batch never stops for one bad file.
+
+Flags per run: every specification check that failed or is marginal
+(``benzene_vol_pct>1.0``, ``~ron<95.0`` for marginal), and ``poor-identification`` when
+the unidentified mass % exceeds ``[batch] unidentified_flag_mass_pct``.
+"""
+from __future__ import annotations
+
+import glob
+import logging
+import os
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from pathlib import Path
+from typing import Any, Callable, Iterable
+
+import pandas as pd
+
+from dha.errors import DhaError, InputError
+
+log = logging.getLogger("dha.batch")
+
+INPUT_SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xls")
+
+#: Summary columns (units in the names) in this order.
+SUMMARY_COLUMNS = [
+    "file", "injection", "sample_id", "injection_time", "status", "flags",
+    "benzene_vol_pct", "aromatics_vol_pct", "olefins_vol_pct", "oxygen_mass_pct",
+    "ethanol_vol_pct", "unidentified_mass_pct", "ron", "mon", "dvpe_kpa", "density_kg_m3",
+    "e70_vol_pct", "e100_vol_pct", "checks_failed", "checks_marginal", "output", "error",
+]
+
+
+def expand_inputs(paths: Iterable[str | Path]) -> list[Path]:
+    """Files, folders (their peak/composition files, not recursive) and glob patterns -> files.
+
+    Order is kept as given; each folder's files are sorted by name; duplicates removed.
+    """
+    out: list[Path] = []
+    for raw in paths:
+        text = str(raw)
+        p = Path(text)
+        if p.is_dir():
+            found = sorted(q for q in p.iterdir() if q.is_file() and q.suffix.lower() in INPUT_SUFFIXES)
+        elif p.is_file():
+            found = [p]
+        else:
+            found = [Path(q) for q in sorted(glob.glob(text)) if Path(q).is_file()]
+            if not found:
+                raise InputError(f"{text}: no such file, folder or matching files")
+        out.extend(found)
+    seen, unique = set(), []
+    for p in out:
+        key = p.resolve()
+        if key not in seen:
+            seen.add(key)
+            unique.append(p)
+    return unique
+
+
+def summary_row(result: dict[str, Any], library=None, unidentified_flag: float = 5.0) -> dict[str, Any]:
+    """One summary row from a result dict (see module docstring for the flags)."""
+    from dha.specs import quantities
+
+    q = quantities(result, library)
+    sample = result.get("sample") or {}
+    checks = result.get("checks") or []
+    flags = []
+    for c in checks:
+        if c["verdict"] == "fail":
+            flags.append(f"{c['property']}{'<' if c['kind'] == 'min' else '>'}{c['limit']:g}")
+        elif c["verdict"] == "marginal":
+            flags.append(f"~{c['property']}{'<' if c['kind'] == 'min' else '>'}{c['limit']:g}")
+    unid = q.get("unidentified_mass_pct", (None, None))[0]
+    if unid is not None and unid > unidentified_flag:
+        flags.append("poor-identification")
+    props = result.get("properties") or {}
+    row = {
+        "file": Path(sample.get("source_file") or "").name,
+        "injection": sample.get("injection"),
+        "sample_id": sample.get("id"),
+        "injection_time": sample.get("injection_time"),
+        "status": "ok",
+        "flags": " ".join(flags),
+        "benzene_vol_pct": q["benzene_vol_pct"][0],
+        "aromatics_vol_pct": q["aromatics_vol_pct"][0],
+        "olefins_vol_pct": q["olefins_vol_pct"][0],
+        "oxygen_mass_pct": q["oxygen_mass_pct"][0],
+        "ethanol_vol_pct": q["ethanol_vol_pct"][0],
+        "unidentified_mass_pct": unid,
+        "checks_failed": sum(c["verdict"] == "fail" for c in checks),
+        "checks_marginal": sum(c["verdict"] == "marginal" for c in checks),
+        "error": None,
+    }
+    for key in ("ron", "mon", "dvpe_kpa", "density_kg_m3", "e70_vol_pct", "e100_vol_pct"):
+        row[key] = props.get(key)
+    return row
+
+
+def _process_one(path: str, out_dir: str, formats: tuple[str, ...], spec: str | None,
+                 settings: dict, library_dir: str | None, overwrite: bool) -> list[dict]:
+    """Worker: one input file -> list of summary rows (never raises a DhaError)."""
+    from dha import pipeline
+    from dha.library import load_library
+
+    try:
+        library = load_library(library_dir)
+        results = pipeline.process_file(Path(path), settings, library, spec=spec)
+        rows = []
+        for result in results:
+            written = pipeline.write_outputs(result, Path(out_dir), formats=formats,
+                                             overwrite=overwrite)
+            row = summary_row(result, library, settings["batch"]["unidentified_flag_mass_pct"])
+            row["file"] = Path(path).name
+            row["output"] = ";".join(str(Path(w).name) for w in written)
+            rows.append(row)
+        return rows
+    except DhaError as err:
+        return [{"file": Path(path).name, "status": "error", "error": str(err)}]
+    except Exception as err:  # a bug must not stop the other runs of the batch
+        log.exception("internal error on %s", path)
+        return [{"file": Path(path).name, "status": "error",
+                 "error": f"internal error ({err.__class__.__name__}: {err}); please report it"}]
+
+
+def run_batch(files: list[Path], out_dir: Path, settings: dict, *, spec: str | None = None,
+              library_dir: str | None = None, formats: tuple[str, ...] = ("json",),
+              jobs: int = 1, overwrite: bool = False,
+              progress: Callable[[int], None] | None = None) -> pd.DataFrame:
+    """Process ``files`` into ``out_dir``; return the summary table (one row per run).
+
+    Rows keep the order of ``files`` whatever order the workers finish in.
+    """
+    out_dir.mkdir(parents=True, exist_ok=True)
+    args = [(str(f), str(out_dir), tuple(formats), spec, settings, library_dir, overwrite)
+            for f in files]
+    results: dict[int, list[dict]] = {}
+    if jobs <= 1 or len(files) <= 1:
+        for i, a in enumerate(args):
+            results[i] = _process_one(*a)
+            if progress:
+                progress(1)
+    else:
+        with ProcessPoolExecutor(max_workers=min(jobs, len(files), os.cpu_count() or 1)) as pool:
+            futures = {pool.submit(_process_one, *a): i for i, a in enumerate(args)}
+            for fut in as_completed(futures):
+                results[futures[fut]] = fut.result()
+                if progress:
+                    progress(1)
+    rows = [row for i in range(len(files)) for row in results[i]]
+    table = pd.DataFrame(rows).reindex(columns=SUMMARY_COLUMNS)
+    return table
+
+
+def write_summary(table: pd.DataFrame, out_dir: Path, profile: dict | None,
+                  trend_quantities: list[str]) -> list[Path]:
+    """summary.csv, summary.xlsx and one trend chart (PNG) per quantity present."""
+    written = []
+    csv_path = out_dir / "summary.csv"
+    table.to_csv(csv_path, index=False)
+    written.append(csv_path)
+    xlsx_path = out_dir / "summary.xlsx"
+    with pd.ExcelWriter(xlsx_path, engine="openpyxl") as xw:
+        table.to_excel(xw, sheet_name="runs", index=False)
+        flagged = table[table["flags"].fillna("").astype(str).str.len() > 0]
+        flagged.to_excel(xw, sheet_name="flagged runs", index=False)
+        for ws in xw.book.worksheets:
+            ws.freeze_panes = "A2"
+            for col in ws.columns:
+                width = max(len(str(c.value)) if c.value is not None else 0 for c in col)
+                ws.column_dimensions[col[0].column_letter].width = min(max(10, width + 2), 50)
+    written.append(xlsx_path)
+    written += write_trends(table, out_dir, profile, trend_quantities)
+    return written
+
+
+_TREND_UNITS = {"benzene_vol_pct": "benzene [% v/v]", "ron": "RON [-]", "mon": "MON [-]",
+                "aromatics_vol_pct": "aromatics [% v/v]", "olefins_vol_pct": "olefins [% v/v]",
+                "oxygen_mass_pct": "oxygen [% m/m]", "dvpe_kpa": "DVPE [kPa]",
+                "density_kg_m3": "density at 15 °C [kg/m³]", "ethanol_vol_pct": "ethanol [% v/v]"}
+
+
+def write_trends(table: pd.DataFrame, out_dir: Path, profile: dict | None,
+                 trend_quantities: list[str]) -> list[Path]:
+    """Trend charts of each quantity across the runs, in injection-time order where known."""
+    import matplotlib
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    ok = table[table["status"] == "ok"].copy()
+    if ok.empty:
+        return []
+    times = pd.to_datetime(ok["injection_time"], errors="coerce", format="mixed") \
+        if ok["injection_time"].notna().any() else pd.Series(pd.NaT, index=ok.index)
+    ok["_order"] = times
+    ok = ok.sort_values(["_order", "file"], na_position="last", kind="stable")
+    labels = ok["sample_id"].fillna(ok["file"]).astype(str).tolist()
+    written = []
+    for key in trend_quantities:
+        if key not in ok or ok[key].isna().all():
+            continue
+        fig, ax = plt.subplots(figsize=(8, 3.6))
+        ax.plot(range(len(ok)), ok[key].astype(float), marker="o", lw=1.2, color="#1f5f8b")
+        for lim in (profile or {}).get("limits", []):
+            if lim["quantity"] == key:
+                ax.axhline(lim["value"], color="#b03a2e", ls="--", lw=1)
+                ax.annotate(f"{lim['kind']} {lim['value']:g}", (0, lim["value"]),
+                            textcoords="offset points", xytext=(2, 3), fontsize=7, color="#b03a2e")
+        ax.set_ylabel(_TREND_UNITS.get(key, key))
+        ax.set_xticks(range(len(ok)))
+        ax.set_xticklabels(labels, rotation=60, ha="right", fontsize=6)
+        ax.set_title(f"{_TREND_UNITS.get(key, key)} across the batch "
+                     f"({'injection-time order' if ok['_order'].notna().any() else 'file order'})",
+                     fontsize=9)
+        ax.grid(alpha=0.3)
+        fig.tight_layout()
+        path = out_dir / f"trend_{key}.png"
+        fig.savefig(path, dpi=110)
+        plt.close(fig)
+        written.append(path)
+    return written

@@ -4,7 +4,7 @@ Unit tests run on a tiny stand-in library (``tiny_library``) whose values come f
 project: molar masses from ``chemicals`` (IUPAC atomic weights), liquid densities at 15 °C from
 ``thermo`` 0.6 (``Chemical(T=288.15).rhol``); ECNs from Sternberg's contributions (aliphatic C
 1.0, ether O −1.0, primary alcohol O −0.6, secondary −0.75; facts.md fact 3, from memory for
-−0.6). Other helpers' test modules import ``tiny_library`` from here.
+−0.6). The other quantification test modules import ``tiny_library`` from here.
 """
 from __future__ import annotations
 
@@ -67,6 +67,11 @@ class TinyLibrary:
         return None
 
 
+def _saturated(name: str) -> float:
+    import CoolProp.CoolProp as CP
+    return CP.PropsSI("D", "T", 288.15, "Q", 0, {"n-butane": "n-Butane", "1-butene": "1-Butene"}[name])
+
+
 @lru_cache(maxsize=1)
 def tiny_library() -> TinyLibrary:
     from chemicals.elements import molecular_weight, nested_formula_parser
@@ -78,8 +83,9 @@ def tiny_library() -> TinyLibrary:
             "subgroup": sub, "carbon_number": n,
             # IUPAC standard atomic weights as packaged in chemicals 1.5
             "molar_mass_g_mol": molecular_weight(nested_formula_parser(formula)),
-            # thermo 0.6.1 default liquid-density method at 288.15 K
-            "density_15c_kg_m3": Chemical(cas, T=288.15, P=101325.0).rhol,
+            # thermo 0.6.1 default liquid-density method at 288.15 K, 1 atm; the C4s boil
+            # below 15 °C: CoolProp 8 saturated-liquid density at 288.15 K for those
+            "density_15c_kg_m3": Chemical(cas, T=288.15, P=101325.0).rhol or _saturated(name),
             "ecn": np.nan if ecn is None else ecn,
         })
     return TinyLibrary(pd.DataFrame(rows).set_index("name"))

@@ -1,0 +1,604 @@
+"""Identification: peak table -> identified peak table.
+
+Three sources of identity, in this order of trust:
+
+1. names and CAS numbers in the export (``match = "name"`` / ``"cas"``), matched tolerantly
+   against the library's names, synonyms and CAS numbers (:func:`match_name`);
+2. retention indices (``match = "retention_index"``): the peak's index (from the export, or
+   computed from the run's n-alkane markers, see :mod:`dha.retention`) is aligned with the
+   library's indices by an order-preserving dynamic programme (:func:`align_indices`); peaks
+   already named anchor the alignment;
+3. everything else stays ``"unidentified"`` and gets a carbon number from its n-alkane bracket.
+
+Known co-elution pairs (``library.coelution``) are reported, and when a peak matched one member
+while the other has no peak of its own the peak is split by the pair's ``share_a``.
+
+The identified table carries the warnings of the step in ``table.attrs["warnings"]`` (a list of
+str) and the markers used in ``table.attrs["markers"]`` ({carbon number: rt [min]}).
+"""
+from __future__ import annotations
+
+import logging
+import math
+import re
+import unicodedata
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from dha.errors import SettingsError
+
+log = logging.getLogger("dha.identify")
+
+#: Columns the identified table adds to the peak table (see DEVELOPERS.md).
+IDENTIFIED_COLUMNS = ("component", "match", "retention_index", "ri_source", "ri_delta",
+                      "carbon_number", "coelution")
+
+PEAK_COLUMNS = ("row", "rt_min", "area", "height", "area_pct", "name", "cas",
+                "retention_index", "cds_mass_pct")
+
+# --------------------------------------------------------------------------------------------
+# Name and CAS matching
+# --------------------------------------------------------------------------------------------
+
+_CAS_RE = re.compile(r"^\s*(?:cas\s*(?:no\.?|number|rn)?\s*[:#]?\s*)?0*(\d{2,7})-?(\d{2})-?(\d)\s*$",
+                     re.IGNORECASE)
+_DASHES = dict.fromkeys(map(ord, "\u2010\u2011\u2012\u2013\u2014\u2212\u00ad"), "-")
+_PARENTS = ("meth", "eth", "prop", "but", "pent", "hex", "hept", "oct", "non", "dec", "undec",
+            "dodec", "tridec", "tetradec")
+# "but-2-ene" -> "2-butene", "buta-1,3-diene" -> "1,3-butadiene", "propan-2-ol" -> "2-propanol"
+_INFIX_RE = re.compile(r"((?:cyclo)?(?:" + "|".join(sorted(_PARENTS, key=len, reverse=True))
+                       + r")(?:a|an)?)-(\d+(?:,\d+)*)-(ene|diene|triene|yne|ol|diol|one)\b")
+_STEREO_RE = [
+    (re.compile(r"\((?:\d+)?e\)-?"), "trans-"),
+    (re.compile(r"\((?:\d+)?z\)-?"), "cis-"),
+    (re.compile(r"^e-(?=\d)"), "trans-"),
+    (re.compile(r"^z-(?=\d)"), "cis-"),
+]
+# Abbreviations written with locants: "2,2,4-TMP" -> "2,2,4-trimethylpentane" (common practice,
+# no source). Ambiguous ones (TMB: trimethylbutane or trimethylbenzene) try every expansion and
+# keep the one the library knows.
+_ABBREVIATIONS = {
+    "tmp": ("trimethylpentane",), "dmb": ("dimethylbutane",), "dmp": ("dimethylpentane",),
+    "dmh": ("dimethylhexane",), "tmh": ("trimethylhexane",), "mp": ("methylpentane",),
+    "mh": ("methylhexane",), "mb": ("methylbutane",),
+    "tmb": ("trimethylbenzene", "trimethylbutane"), "dmcp": ("dimethylcyclopentane",),
+    "dmch": ("dimethylcyclohexane",), "deb": ("diethylbenzene",), "et": ("ethyltoluene",),
+}
+_ABBR_RE = re.compile(r"^(\d+(?:,\d+)*)-([a-z]+)$")
+# Whole-word trade abbreviations without locants (common practice, no source).
+_SHORT_NAMES = {"mcp": "methylcyclopentane", "mch": "methylcyclohexane",
+                "ic4": "2-methylpropane", "ic5": "2-methylbutane", "neoc5": "2,2-dimethylpropane",
+                "ecp": "ethylcyclopentane", "ech": "ethylcyclohexane"}
+_NC_RE = re.compile(r"^n?-?c(\d{1,2})$")
+
+
+def _uninvert(text: str) -> str:
+    """"Benzene, methyl-" -> "methylbenzene"; "2-Butene, (E)-" -> "(E)-2-butene".
+
+    Only commas followed by a space start an inverted part: locant commas ("2,2,4-") have none.
+    """
+    parts = [p.strip() for p in re.split(r",\s+", text)]
+    if len(parts) < 2:
+        return text
+    parent, rest = parts[0], parts[1:]
+    stereo = [p for p in rest if re.fullmatch(r"\(?(?:\d*[ez]|cis|trans|[\d,]*[ez](?:,[\d,]*[ez])*)\)?-?", p)]
+    subst = [p for p in rest if p not in stereo]
+    if not all(p.endswith("-") for p in subst):
+        return text
+    return "".join(stereo) + "".join(p.rstrip("-") if i == len(subst) - 1 else p
+                                     for i, p in enumerate(subst)) + parent
+
+
+def name_key(text: str) -> str:
+    """Comparison key of a component name: case, spacing, punctuation and usual prefixes removed.
+
+    Parameters
+    ----------
+    text : str
+        A name as written in an export or a table.
+
+    Returns
+    -------
+    str
+        Lower-case letters and digits only; ``(E)``/``(Z)`` become ``trans``/``cis``, a leading
+        ``n-`` is dropped, ``but-2-ene`` becomes ``2-butene``, ``"Benzene, methyl-"`` becomes
+        ``methylbenzene``.
+
+    Examples
+    --------
+    >>> name_key("n-Heptane") == name_key("HEPTANE")
+    True
+    >>> name_key("(E)-pent-2-ene")
+    'trans2pentene'
+    >>> name_key("Pentane, 2,2,4-trimethyl-")
+    '224trimethylpentane'
+    """
+    s = unicodedata.normalize("NFKC", str(text)).translate(_DASHES).strip().lower()
+    s = s.replace("\u2032", "'").strip(" \"'")
+    s = _uninvert(s)
+    s = re.sub(r"\s+", " ", s)
+    for pattern, repl in _STEREO_RE:
+        s = pattern.sub(repl, s)
+    s = re.sub(r"\b(cis|trans)\s+", r"\1-", s)
+    s = _INFIX_RE.sub(_infix, s)
+    s = re.sub(r"^(?:n|normal)(?:-|\s+)(?=[a-z])", "", s)
+    s = re.sub(r"(?<=[\s,])n-(?=[a-z])", "", s)
+    return re.sub(r"[^a-z0-9]", "", s)
+
+
+def _infix(m: re.Match) -> str:
+    stem, locants, suffix = m.group(1), m.group(2), m.group(3)
+    if suffix in ("ol", "diol", "one") and not stem.endswith("an"):
+        stem = stem + "an" if not stem.endswith("a") else stem[:-1] + "an"
+    if suffix in ("ene", "yne") and stem.endswith("a"):
+        stem = stem[:-1]
+    return f"{locants}-{stem}{suffix}"
+
+
+def cas_key(text: Any) -> str | None:
+    """Digits of a CAS registry number if ``text`` looks like one, else None.
+
+    >>> cas_key("71-43-2"), cas_key("000071-43-2"), cas_key("71432"), cas_key("benzene")
+    ('71432', '71432', '71432', None)
+    """
+    if text is None or (isinstance(text, float) and math.isnan(text)):
+        return None
+    m = _CAS_RE.match(str(text))
+    if not m:
+        return None
+    digits = m.group(1) + m.group(2) + m.group(3)
+    # check digit: sum of digits times their position from the right (excluding the check digit)
+    body = digits[:-1][::-1]
+    if sum((i + 1) * int(d) for i, d in enumerate(body)) % 10 != int(digits[-1]):
+        return None
+    return digits
+
+
+class _NameIndex:
+    """Keys -> library name for one library, built once and cached (see :func:`_index_for`)."""
+
+    def __init__(self, library: Any) -> None:
+        comps = library.components
+        self.by_key: dict[str, str] = {}
+        self.by_cas: dict[str, str] = {}
+        self.ambiguous: set[str] = set()
+        self.n_alkanes: dict[int, str] = {}
+        for name, row in comps.iterrows():
+            keys = [name]
+            syn = row.get("synonyms")
+            if isinstance(syn, str) and syn.strip():
+                keys += [s for s in syn.split(";") if s.strip()]
+            for k in keys:
+                kk = name_key(k)
+                if not kk:
+                    continue
+                if kk in self.by_key and self.by_key[kk] != name:
+                    self.ambiguous.add(kk)
+                else:
+                    self.by_key[kk] = name
+            ck = cas_key(row.get("cas"))
+            if ck:
+                self.by_cas[ck] = name
+            if row.get("group") == "n_paraffins" and pd.notna(row.get("carbon_number")):
+                self.n_alkanes[int(row["carbon_number"])] = name
+        for kk in self.ambiguous:
+            self.by_key.pop(kk, None)
+        if self.ambiguous:
+            log.warning("library: %d names/synonyms are shared by two components and are not "
+                        "used for matching: %s", len(self.ambiguous), ", ".join(sorted(self.ambiguous)[:5]))
+
+    def match(self, text: Any) -> tuple[str | None, str | None]:
+        """(library name, "name" or "cas") or (None, None)."""
+        if text is None or (isinstance(text, float) and math.isnan(text)):
+            return None, None
+        text = str(text).strip()
+        if not text:
+            return None, None
+        ck = cas_key(text)
+        if ck is not None:
+            return self.by_cas.get(ck), ("cas" if ck in self.by_cas else None)
+        key = name_key(text)
+        hit = self.by_key.get(key)
+        if hit is not None:
+            return hit, "name"
+        low = re.sub(r"\s+", "", unicodedata.normalize("NFKC", text).translate(_DASHES).lower())
+        m = _NC_RE.match(low)
+        if m and int(m.group(1)) in self.n_alkanes:
+            return self.n_alkanes[int(m.group(1))], "name"
+        short = re.sub(r"[^a-z0-9]", "", low)
+        if short in _SHORT_NAMES:
+            hit = self.by_key.get(name_key(_SHORT_NAMES[short]))
+            if hit is not None:
+                return hit, "name"
+        m = _ABBR_RE.match(low)
+        if m and m.group(2) in _ABBREVIATIONS:
+            hits = {self.by_key.get(name_key(f"{m.group(1)}-{full}"))
+                    for full in _ABBREVIATIONS[m.group(2)]} - {None}
+            if len(hits) == 1:
+                return hits.pop(), "name"
+        return None, None
+
+
+_INDEX_CACHE: dict[int, tuple[Any, str | None, _NameIndex]] = {}
+
+
+def _index_for(library: Any) -> _NameIndex:
+    key = id(library)
+    sha = getattr(library, "sha256", None)
+    hit = _INDEX_CACHE.get(key)
+    if hit is not None and hit[0] is library and hit[1] == sha:
+        return hit[2]
+    index = _NameIndex(library)
+    if len(_INDEX_CACHE) > 8:
+        _INDEX_CACHE.clear()
+    _INDEX_CACHE[key] = (library, sha, index)   # keeps the library alive so its id stays unique
+    return index
+
+
+def match_name(text: Any, library: Any) -> str | None:
+    """Library name for a name, synonym, abbreviation or CAS number as written, or None.
+
+    Tolerant of case, spacing, punctuation, a leading ``n-``, ``(E)``/``(Z)`` for
+    ``trans``/``cis``, infix locants (``but-2-ene``), inverted index names
+    (``"Benzene, methyl-"``), ``nC7``/``n-C7``, ``iC4``/``iC5`` and locant abbreviations
+    such as ``2,2,4-TMP``. A CAS number (with or without hyphens, check digit verified) matches
+    the library's CAS column only.
+
+    Parameters
+    ----------
+    text : str
+        The name, synonym or CAS number.
+    library : dha.library.Library
+        The component library (``components`` indexed by name with ``synonyms``, ``cas``).
+
+    Returns
+    -------
+    str or None
+        The library's canonical name.
+    """
+    return _index_for(library).match(text)[0]
+
+
+def match_names(peaks: pd.DataFrame, library: Any, use_names: bool = True) -> pd.DataFrame:
+    """Name/CAS step alone: columns ``component`` and ``match`` ("name", "cas" or None).
+
+    The CAS column is tried first (it is unambiguous), then the name column, which may itself
+    hold a CAS number.
+    """
+    index = _index_for(library)
+    comp: list[str | None] = []
+    how: list[str | None] = []
+    names = peaks["name"] if "name" in peaks else pd.Series([None] * len(peaks), index=peaks.index)
+    cas = peaks["cas"] if "cas" in peaks else pd.Series([None] * len(peaks), index=peaks.index)
+    for nm, cs in zip(names.tolist(), cas.tolist()):
+        hit, kind = (None, None)
+        if use_names:
+            hit, kind = index.match(cs)
+            if hit is None:
+                hit, kind = index.match(nm)
+        comp.append(hit)
+        how.append(kind)
+    return pd.DataFrame({"component": comp, "match": how}, index=peaks.index)
+
+
+# --------------------------------------------------------------------------------------------
+# The identification step
+# --------------------------------------------------------------------------------------------
+
+def _library_indices(library: Any) -> pd.DataFrame:
+    """Components with a finite index: name, retention_index, source kind, sorted by index."""
+    comps = library.components
+    ri = pd.to_numeric(comps.get("retention_index"), errors="coerce")
+    src = comps.get("retention_index_source")
+    if src is None:
+        src = pd.Series("", index=comps.index)
+    kind = np.where(src.fillna("").astype(str).str.startswith("learnt"), "learnt", "estimated")
+    out = pd.DataFrame({"name": comps.index, "retention_index": ri.to_numpy(),
+                        "ri_kind": kind}).dropna(subset=["retention_index"])
+    return out.sort_values(["retention_index", "name"], kind="stable").reset_index(drop=True)
+
+
+def _section(settings: Any) -> dict[str, Any]:
+    if settings is None:
+        from dha.settings import default_settings
+        settings = default_settings()
+    s = settings.get("identify", settings)
+    tol = s.get("ri_tolerance", 3.0)
+    if not isinstance(tol, (int, float)) or tol <= 0:
+        raise SettingsError(f"identify.ri_tolerance = {tol!r}: give a positive number of index units")
+    return s
+
+
+def _check_peaks(peaks: pd.DataFrame) -> pd.DataFrame:
+    from dha.errors import InputError
+    for col in ("rt_min", "area"):
+        if col not in peaks.columns:
+            raise InputError(f"peak table: column '{col}' is missing; found "
+                             f"{', '.join(map(str, peaks.columns))}")
+    out = peaks.copy()
+    for col in PEAK_COLUMNS:
+        if col not in out.columns:
+            out[col] = np.nan if col not in ("name", "cas") else None
+    if "row" in peaks.columns and peaks["row"].isna().any():
+        raise InputError("peak table: column 'row' has blank values; the reader numbers every row")
+    if out["row"].isna().all():
+        out["row"] = np.arange(1, len(out) + 1)
+    return out.sort_values("rt_min", kind="stable").reset_index(drop=True)
+
+
+def _consistent_anchors(rt: np.ndarray, lib_ri: np.ndarray) -> np.ndarray:
+    """Positions (into the arrays) of the longest chain whose library indices rise with rt."""
+    n = len(rt)
+    if n == 0:
+        return np.array([], dtype=int)
+    order = np.argsort(rt, kind="stable")
+    vals = lib_ri[order]
+    # longest strictly increasing subsequence, O(n log n)
+    tails: list[float] = []
+    tails_idx: list[int] = []
+    prev = np.full(n, -1, dtype=int)
+    import bisect
+    for i, v in enumerate(vals):
+        k = bisect.bisect_left(tails, v)
+        if k == len(tails):
+            tails.append(v)
+            tails_idx.append(i)
+        else:
+            tails[k] = v
+            tails_idx[k] = i
+        prev[i] = tails_idx[k - 1] if k > 0 else -1
+    chain = []
+    i = tails_idx[-1] if tails_idx else -1
+    while i >= 0:
+        chain.append(i)
+        i = prev[i]
+    return np.sort(order[np.array(chain[::-1], dtype=int)])
+
+
+def _peak_size(table: pd.DataFrame) -> np.ndarray:
+    area = pd.to_numeric(table["area"], errors="coerce").to_numpy(dtype=float)
+    return np.where(np.isfinite(area) & (area > 0), area, 0.0)
+
+
+def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.DataFrame:
+    """Identify the peaks of one run.
+
+    Parameters
+    ----------
+    peaks : DataFrame
+        Peak table (DEVELOPERS.md "Peak table"): ``row, rt_min, area, height, area_pct, name,
+        cas, retention_index, cds_mass_pct``; only ``rt_min`` and ``area`` are required.
+    library : dha.library.Library
+        Component library (``components`` indexed by name, ``coelution``).
+    settings : dict, optional
+        Full settings (the ``[identify]`` section is read) or that section alone; default:
+        the shipped defaults.
+
+    Returns
+    -------
+    DataFrame
+        The peak table plus ``component, match, retention_index, ri_source, ri_delta,
+        carbon_number, coelution`` (DEVELOPERS.md "Identified peak table"), sorted by
+        ``rt_min``. A peak split by a co-elution rule gives two rows with the same ``row`` and
+        ``rt_min``. ``attrs["warnings"]``: list of str; ``attrs["markers"]``: {carbon number:
+        rt [min]} used for the indices; ``attrs["unknown_names"]``: export names not in the
+        library.
+
+    Notes
+    -----
+    Order of evidence: CAS number, then name (:func:`match_name`); then retention index
+    (:func:`dha.retention.align_indices` within ``identify.ri_tolerance``) for the peaks left,
+    anchored by the named ones; unknown peaks get ``ceil(I / 100)`` as carbon number (a peak
+    between n-C6 and n-C7 is a C7 unknown; common practice, no source).
+    """
+    from dha import retention as rx
+
+    s = _section(settings)
+    tol = float(s.get("ri_tolerance", 3.0))
+    table = _check_peaks(peaks)
+    warnings: list[str] = []
+    nm = match_names(table, library, use_names=bool(s.get("use_names", True)))
+    table["component"] = nm["component"].astype(object)
+    table["match"] = nm["match"].astype(object)
+
+    # export names the library does not know: kept, listed
+    unknown_names: list[str] = []
+    if s.get("use_names", True):
+        has_name = table["name"].notna() & (table["name"].astype(str).str.strip() != "")
+        for i in np.flatnonzero(has_name.to_numpy() & table["component"].isna().to_numpy()):
+            unknown_names.append(str(table.at[i, "name"]))
+        if unknown_names:
+            uniq = sorted(set(unknown_names))
+            warnings.append(f"{len(unknown_names)} peak name(s) not in the library, kept as "
+                            f"unidentified: {', '.join(uniq[:20])}" + (" ..." if len(uniq) > 20 else ""))
+    # the same component named twice: keep the larger peak, report
+    named = table["component"].notna()
+    dup = table.loc[named].assign(_a=_peak_size(table)[named.to_numpy()])
+    dup = dup[dup.duplicated("component", keep=False)]
+    if len(dup):
+        keep = dup.sort_values("_a", ascending=False).drop_duplicates("component").index
+        drop = dup.index.difference(keep)
+        warnings.append("component named on more than one peak, smaller peaks left "
+                        "unidentified: " + ", ".join(
+                            f"{table.at[i, 'component']} (row {table.at[i, 'row']})" for i in drop))
+        table.loc[drop, ["component", "match"]] = None
+
+    lib = _library_indices(library)
+    lib_pos = dict(zip(lib["name"], range(len(lib))))
+    lib_ri = lib["retention_index"].to_numpy(dtype=float)
+    lib_kind = lib["ri_kind"].to_numpy()
+    rt = table["rt_min"].to_numpy(dtype=float)
+    size = _peak_size(table)
+
+    # 1. peak indices: the export's, or from markers
+    export_ri = pd.to_numeric(table["retention_index"], errors="coerce").to_numpy(dtype=float)
+    from_export = np.isfinite(export_ri)
+    peak_ri = export_ri.copy()
+    markers: dict[int, float] = {}
+    need = ~from_export
+    if need.any():
+        scale, how = _find_scale(table, library, s, lib, size, warnings)
+        if scale is not None:
+            markers = scale.markers
+            peak_ri = np.where(from_export, export_ri, scale.index(rt))
+            log.info("retention indices from %d n-alkane markers (%s)", len(markers), how)
+        elif not table["component"].notna().all():
+            warnings.append("no retention indices: the export has none and no n-alkane markers "
+                            "were found; peaks without a known name stay unidentified")
+
+    # 2. alignment of the peaks left
+    comp = table["component"].to_numpy(dtype=object)
+    used = {c for c in comp if c is not None}
+    pool_mask = np.array([n not in used for n in lib["name"]], dtype=bool)
+    pool = np.flatnonzero(pool_mask)
+    todo = np.flatnonzero((table["component"].isna().to_numpy()) & np.isfinite(peak_ri))
+    if len(todo) and len(pool):
+        anchor_rows = np.array([i for i in range(len(table))
+                                if comp[i] is not None and comp[i] in lib_pos], dtype=int)
+        lo = np.zeros(len(todo), dtype=int)
+        hi = np.full(len(todo), len(pool), dtype=int)
+        if len(anchor_rows):
+            a_ri = lib_ri[[lib_pos[comp[i]] for i in anchor_rows]]
+            keep = _consistent_anchors(rt[anchor_rows], a_ri)
+            a_rt, a_ri = rt[anchor_rows[keep]], a_ri[keep]
+            pool_ri = lib_ri[pool]
+            k = np.searchsorted(a_rt, rt[todo], side="right")       # anchors before: k
+            lo_ri = np.where(k > 0, a_ri[np.maximum(k - 1, 0)], -np.inf)
+            hi_ri = np.where(k < len(a_rt), a_ri[np.minimum(k, len(a_rt) - 1)], np.inf)
+            lo = np.searchsorted(pool_ri, lo_ri, side="right")
+            hi = np.searchsorted(pool_ri, hi_ri, side="left")
+        assign, _ = rx.align_indices(peak_ri[todo], lib_ri[pool], tol, lo=lo, hi=hi)
+        for p, j in zip(todo, assign):
+            if j >= 0:
+                comp[p] = lib["name"].iat[pool[j]]
+                table.at[p, "match"] = "retention_index"
+        table["component"] = comp
+    table["match"] = table["match"].where(table["component"].notna(), "unidentified")
+
+    # 3. index columns
+    table["retention_index"] = peak_ri
+    ri_src: list[str | None] = []
+    delta = np.full(len(table), np.nan)
+    for i, c in enumerate(comp):
+        j = lib_pos.get(c) if c is not None else None
+        if j is not None and np.isfinite(peak_ri[i]):
+            delta[i] = peak_ri[i] - lib_ri[j]
+            ri_src.append("export" if from_export[i] else str(lib_kind[j]))
+        else:
+            ri_src.append(None)
+    table["ri_source"] = pd.Series(ri_src, dtype=object)
+    table["ri_delta"] = delta
+    cn_lib = pd.to_numeric(library.components.get("carbon_number"), errors="coerce")
+    cn = np.array([cn_lib.get(c, np.nan) if c is not None else np.nan for c in comp], dtype=float)
+    bracket = np.ceil(peak_ri / 100.0 - 1e-9)
+    cn = np.where(np.isnan(cn), bracket, cn)
+    table["carbon_number"] = pd.array(np.where(np.isfinite(cn), cn, np.nan), dtype="Float64").astype("Int64")
+    table["coelution"] = pd.Series([None] * len(table), dtype=object)
+
+    n_ri = int((table["match"] == "retention_index").sum())
+    if n_ri and tol > 0:
+        far = table.loc[(table["match"] == "retention_index") & (table["ri_delta"].abs() > 0.8 * tol)]
+        if len(far):
+            log.info("%d retention-index matches lie near the edge of the window", len(far))
+
+    table = _apply_coelution(table, library, warnings)
+    unid = table["match"] == "unidentified"
+    if unid.any():
+        share = 100.0 * _peak_size(table)[unid.to_numpy()].sum() / max(_peak_size(table).sum(), 1e-300)
+        warnings.append(f"{int(unid.sum())} peak(s) unidentified ({share:.2f} % of the area)")
+    for w in warnings:
+        log.warning(w)
+    table.attrs = {"warnings": warnings, "markers": markers, "unknown_names": unknown_names}
+    return table
+
+
+def _find_scale(table: pd.DataFrame, library: Any, s: dict[str, Any], lib: pd.DataFrame,
+                size: np.ndarray, warnings: list[str]):
+    """The rt -> index scale: user markers, named n-alkanes, or the automatic search."""
+    from dha import retention as rx
+
+    rt = table["rt_min"].to_numpy(dtype=float)
+    first = float(np.nanmin(rt)) if len(rt) else None
+    user = rx.parse_markers(s.get("markers"))
+    if len(user) >= 2:
+        return rx.make_scale(user, s, first), "identify.markers"
+    index = _index_for(library)
+    alk = {v: k for k, v in index.n_alkanes.items()}
+    named = {}
+    for c, t in zip(table["component"], rt):
+        if c in alk:
+            named[alk[c]] = float(t)
+    if len(named) >= 2:
+        items = sorted(named.items())
+        # drop named alkanes out of order (a mis-named peak)
+        keep = [items[0]]
+        for c, t in items[1:]:
+            if t > keep[-1][1]:
+                keep.append((c, t))
+            else:
+                warnings.append(f"n-alkane C{c} named at {t:g} min is out of order; not used as marker")
+        if len(keep) >= 2:
+            return rx.make_scale(dict(keep), s, first), "named n-alkanes"
+    found = rx.find_markers(rt, size, lib["retention_index"].to_numpy(dtype=float),
+                            float(s.get("ri_tolerance", 3.0)), s,
+                            alkane_carbons=sorted(index.n_alkanes))
+    if found is None:
+        return None, ""
+    warnings.append("n-alkane markers found automatically: " + ", ".join(
+        f"C{c} {t:.2f} min" for c, t in sorted(found.markers.items())) + "; check them")
+    return found, "automatic search"
+
+
+def _apply_coelution(table: pd.DataFrame, library: Any, warnings: list[str]) -> pd.DataFrame:
+    """Note known co-elution pairs; split a peak whose partner has no peak of its own."""
+    co = getattr(library, "coelution", None)
+    if co is None or len(co) == 0:
+        return table
+    present = set(table["component"].dropna())
+    pos = {c: i for i, c in zip(table.index, table["component"]) if c is not None}
+    new_rows = []
+    for r in co.itertuples(index=False):
+        a, b = getattr(r, "name_a"), getattr(r, "name_b")
+        share = float(getattr(r, "share_a"))
+        if a in present and b in present:
+            for x, y in ((a, b), (b, a)):
+                table.at[pos[x], "coelution"] = f"known co-elution with {y}; resolved here"
+            continue
+        if (a in present) == (b in present):
+            continue
+        hit, other = (a, b) if a in present else (b, a)
+        if other not in library.components.index:
+            continue
+        i = pos[hit]
+        if table.at[i, "coelution"] is not None:
+            continue                       # one split per peak
+        share_hit = share if hit == a else 1.0 - share
+        row = table.loc[i].copy()
+        for col in ("area", "area_pct", "cds_mass_pct", "height"):
+            v = table.at[i, col]
+            if pd.notna(v):
+                table.at[i, col] = v * share_hit
+                row[col] = v * (1.0 - share_hit)
+        note = (f"co-elutes with {other}: peak area split {share_hit:.2f}/{1 - share_hit:.2f} "
+                f"(coelution.csv share_a = {share:g})")
+        table.at[i, "coelution"] = note
+        row["component"] = other
+        row["coelution"] = f"co-elutes with {hit}: share {1 - share_hit:.2f} of the peak"
+        cn = pd.to_numeric(library.components.at[other, "carbon_number"], errors="coerce")
+        row["carbon_number"] = int(cn) if pd.notna(cn) else row["carbon_number"]
+        lr = pd.to_numeric(library.components.at[other, "retention_index"], errors="coerce")
+        row["ri_delta"] = row["retention_index"] - lr if pd.notna(lr) else np.nan
+        new_rows.append((i, row))
+        present.add(other)
+        warnings.append(f"peak row {table.at[i, 'row']} ({table.at[i, 'rt_min']:.3f} min): "
+                        f"{hit} and {other} co-elute; area split {share_hit:.2f}/{1 - share_hit:.2f}")
+    if not new_rows:
+        return table
+    extra = pd.DataFrame([r for _, r in new_rows])
+    extra["_order"] = [i + 0.5 for i, _ in new_rows]
+    out = pd.concat([table.assign(_order=table.index.astype(float)), extra])
+    out = out.sort_values("_order", kind="stable").drop(columns="_order").reset_index(drop=True)
+    out["carbon_number"] = out["carbon_number"].astype("Int64")
+    return out

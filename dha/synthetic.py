@@ -1,0 +1,341 @@
+"""Synthetic runs: a composition -> a realistic peak table, with the truth kept apart.
+
+Used by the tests, the demo and the benchmarks. Everything here is a model, not a measurement:
+
+* Retention times. n-Alkane retention times come from a simple solvation model of a
+  temperature-programmed run: the retention factor of n-C_n is
+  ``ln k_n(T) = ln k_5(T_0) + (n - 5) ln(beta) + (h_0 + h_1 n)(1/T - 1/T_0)`` (a constant
+  ``ln(beta)`` per CH2 group and a van 't Hoff temperature dependence), and the solute moves
+  through the column at ``dz/dt = 1 / (t_M (1 + k(T(t))))``, integrated until it leaves. The
+  parameters are chosen (invented, plausible) so that a 100 m column with t_M = 4 min and
+  35 degC hold 15 min, then 2 degC/min elutes n-C5 near 8 min and n-C12 near 110 min. Other
+  components are placed by their library retention index between the n-alkanes with the same
+  forms :mod:`dha.retention` uses (logarithmic on adjusted times within the hold, linear after),
+  so the library indices are the truth.
+* Noise: Gaussian noise on each non-alkane index (``index_noise_sd``), a slow drift of all
+  times (``drift_pct``: times grow by up to ``drift_pct`` % towards the end of the run,
+  ``t (1 + d t / t_end)``, n-alkanes included), multiplicative area noise.
+* FID areas: mass / RRF with the theoretical relative response factors of :mod:`dha.quantify`
+  (``RRF = M 0.7487 / (12.011 n_C)``, ECN for oxygenates).
+* Known co-elution pairs of the library elute as one peak; trace components below
+  ``missing_trace_below_pct`` are dropped; ``extra_unknowns`` small peaks of no library
+  component are added.
+
+The example petrol compositions (:func:`example_composition`) are invented for tests and the
+demo: group and carbon-number profiles typical of the stream (common practice, no source),
+spread over the library's components with fixed pseudo-random weights.
+"""
+from __future__ import annotations
+
+from typing import Any, Mapping
+
+import numpy as np
+import pandas as pd
+
+from dha.errors import InputError
+from dha.retention import IndexScale
+
+#: Default temperature programme (invented, typical of a petrol DHA run).
+DEFAULT_PROGRAMME = {"initial_c": 35.0, "hold_min": 15.0, "rate_c_min": 2.0, "final_c": 250.0,
+                     "holdup_min": 4.0}
+
+
+def alkane_retention_times(programme: Mapping[str, float] | None = None,
+                           carbons: range = range(1, 17)) -> dict[int, float]:
+    """Retention times [min] of n-alkanes under a temperature programme (model, see module).
+
+    >>> t = alkane_retention_times()
+    >>> 6 < t[5] < 10 and t[5] < t[6] < t[7]
+    True
+    """
+    p = {**DEFAULT_PROGRAMME, **(programme or {})}
+    t0 = 308.15                                  # reference temperature [K]
+    beta = 2.75                                  # factor per CH2 at T0 (invented, plausible)
+    ln_k5 = np.log(0.75)
+    n = np.array(list(carbons), dtype=float)
+    h = 900.0 + 520.0 * n                        # van 't Hoff slope [K] (invented, plausible)
+    ln_k0 = ln_k5 + (n - 5) * np.log(beta)
+    tm = float(p["holdup_min"])
+    dt = 0.01
+    z = np.zeros_like(n)
+    out = np.full_like(n, np.nan)
+    t = 0.0
+    t_end = p["hold_min"] + (p["final_c"] - p["initial_c"]) / p["rate_c_min"] + 200.0
+    while t < t_end and np.isnan(out).any():
+        temp_c = p["initial_c"] + max(0.0, t - p["hold_min"]) * p["rate_c_min"]
+        temp = min(temp_c, p["final_c"]) + 273.15
+        k = np.exp(ln_k0 + h * (1.0 / temp - 1.0 / t0))
+        z += dt / (tm * (1.0 + k))
+        t += dt
+        done = (z >= 1.0) & np.isnan(out)
+        # linear interpolation of the exit time inside the step
+        if done.any():
+            over = (z[done] - 1.0) / (dt / (tm * (1.0 + k[done])))
+            out[done] = t - over * dt
+    return {int(c): float(x) for c, x in zip(n, out) if np.isfinite(x)}
+
+
+def _rrf(names: list[str], library: Any) -> np.ndarray:
+    from dha.quantify import library_rrf
+    from dha.settings import default_settings
+    return library_rrf(names, library, default_settings()).reindex(names).to_numpy(dtype=float)
+
+
+def synthetic_run(composition: Mapping[str, float] | pd.DataFrame, library: Any, *,
+                  seed: int = 0, index_noise_sd: float = 0.5, drift_pct: float = 0.0,
+                  names: bool | float = False, missing_trace_below_pct: float = 0.0,
+                  extra_unknowns: int = 0, programme: Mapping[str, float] | None = None,
+                  area_noise_pct: float = 1.0, total_area: float = 1.0e6,
+                  coelute: bool = True) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """A synthetic peak table for a composition.
+
+    Parameters
+    ----------
+    composition : dict or DataFrame
+        Library name -> mass %, or a table with columns ``component`` and ``mass_pct``.
+    library : dha.library.Library
+        Source of indices, molar masses, carbon numbers, ECNs and co-elution pairs.
+    seed : int
+        Seed of the random generator.
+    index_noise_sd : float
+        Standard deviation of the Gaussian noise on each non-alkane index [index units].
+    drift_pct : float
+        Slow drift of the retention times: ``t (1 + drift_pct/100 * t / t_end)`` [%].
+    names : bool or float
+        Write library names in the ``name`` column: all (True), none (False) or this
+        fraction of the peaks, chosen at random.
+    missing_trace_below_pct : float
+        Components below this mass % give no peak [%].
+    extra_unknowns : int
+        Number of small peaks of no library component, at random indices.
+    programme : dict, optional
+        Temperature programme, keys of :data:`DEFAULT_PROGRAMME`.
+    area_noise_pct : float
+        Relative standard deviation of the areas [%].
+    total_area : float
+        Sum of the areas before noise [counts].
+    coelute : bool
+        Merge the library's known co-elution pairs into one peak.
+
+    Returns
+    -------
+    peaks : DataFrame
+        Peak table (``row, rt_min, area, height, area_pct, name, cas, retention_index,
+        cds_mass_pct``), sorted by ``rt_min``.
+    truth : DataFrame
+        One row per component of the composition and per extra unknown: ``component`` (None
+        for an extra unknown), ``mass_pct``, ``row`` (peak row, <NA> if missing),
+        ``true_index`` (the index after noise), ``rt_min``.
+    """
+    rng = np.random.default_rng(seed)
+    if isinstance(composition, pd.DataFrame):
+        comp = dict(zip(composition["component"], composition["mass_pct"]))
+    else:
+        comp = dict(composition)
+    comps = library.components
+    missing = [c for c in comp if c not in comps.index]
+    if missing:
+        raise InputError(f"synthetic run: not library names: {', '.join(missing[:5])}")
+    names_list = [c for c, m in comp.items() if m > 0]
+    mass = np.array([comp[c] for c in names_list], dtype=float)
+    mass_pct = 100.0 * mass / mass.sum()
+    lib_ri = pd.to_numeric(comps.loc[names_list, "retention_index"], errors="coerce").to_numpy(float)
+    if np.isnan(lib_ri).any():
+        bad = [c for c, r in zip(names_list, lib_ri) if np.isnan(r)]
+        raise InputError(f"synthetic run: no retention index for {', '.join(bad[:5])}")
+    is_alkane = (comps.loc[names_list, "group"] == "n_paraffins").to_numpy()
+    true_ri = lib_ri + np.where(is_alkane, 0.0, rng.normal(0.0, index_noise_sd, len(lib_ri)))
+
+    prog = {**DEFAULT_PROGRAMME, **(programme or {})}
+    alk = alkane_retention_times(prog)
+    scale = IndexScale(np.array(sorted(alk)), np.array([alk[c] for c in sorted(alk)]),
+                       isothermal_until_min=float(prog["hold_min"]),
+                       holdup_time_min=float(prog["holdup_min"]))
+    rt = scale.rt(true_ri)
+    t_end = max(rt.max(), 1e-9)
+    rt = rt * (1.0 + drift_pct / 100.0 * rt / t_end)
+
+    rrf = _rrf(names_list, library)
+    area = mass_pct / rrf
+    area = area / area.sum() * total_area
+    present = mass_pct >= missing_trace_below_pct
+
+    # peaks: one per present component; known co-elution pairs merged
+    peak_of = np.arange(len(names_list))
+    if coelute and getattr(library, "coelution", None) is not None:
+        pos = {c: i for i, c in enumerate(names_list)}
+        for r in library.coelution.itertuples(index=False):
+            a, b = pos.get(r.name_a), pos.get(r.name_b)
+            if a is not None and b is not None and present[a] and present[b]:
+                big, small = (a, b) if area[a] >= area[b] else (b, a)
+                peak_of[small] = peak_of[big]
+    p_rt: dict[int, float] = {}
+    p_area: dict[int, float] = {}
+    for i in np.flatnonzero(present):
+        k = peak_of[i]
+        p_area[k] = p_area.get(k, 0.0) + area[i]
+        p_rt.setdefault(k, rt[k])
+    keys = sorted(p_rt)
+    peaks = pd.DataFrame({"_key": keys, "rt_min": [p_rt[k] for k in keys],
+                          "area": [p_area[k] for k in keys]})
+    n_extra = int(extra_unknowns)
+    if n_extra:
+        lo, hi = np.nanmin(lib_ri), np.nanmax(lib_ri)
+        x_ri = rng.uniform(lo, hi, n_extra)
+        x_rt = scale.rt(x_ri)
+        x_rt = x_rt * (1.0 + drift_pct / 100.0 * x_rt / t_end)
+        x_area = total_area * rng.uniform(1e-5, 5e-4, n_extra)
+        peaks = pd.concat([peaks, pd.DataFrame({"_key": -1 - np.arange(n_extra), "rt_min": x_rt,
+                                                "area": x_area})], ignore_index=True)
+    peaks["area"] = peaks["area"] * np.exp(rng.normal(0.0, area_noise_pct / 100.0, len(peaks)))
+    peaks = peaks.sort_values("rt_min", kind="stable").reset_index(drop=True)
+    peaks["row"] = np.arange(1, len(peaks) + 1)
+    width_min = 0.02 + 0.0015 * peaks["rt_min"]                # Gaussian sigma [min], invented
+    peaks["height"] = peaks["area"] / (width_min * 60.0 * np.sqrt(2 * np.pi))
+    peaks["area_pct"] = 100.0 * peaks["area"] / peaks["area"].sum()
+    row_of = dict(zip(peaks["_key"], peaks["row"]))
+    label = [names_list[k] if k >= 0 else None for k in peaks["_key"]]
+    if names is True:
+        show = np.ones(len(peaks), dtype=bool)
+    elif names is False or names is None:
+        show = np.zeros(len(peaks), dtype=bool)
+    else:
+        show = rng.random(len(peaks)) < float(names)
+    peaks["name"] = [lab if s else None for lab, s in zip(label, show)]
+    peaks["cas"] = None
+    peaks["retention_index"] = np.nan
+    peaks["cds_mass_pct"] = np.nan
+    peaks = peaks[["row", "rt_min", "area", "height", "area_pct", "name", "cas",
+                   "retention_index", "cds_mass_pct"]]
+    truth = pd.DataFrame({
+        "component": names_list,
+        "mass_pct": mass_pct,
+        "row": pd.array([row_of[peak_of[i]] if present[i] else pd.NA
+                         for i in range(len(names_list))], dtype="Int64"),
+        "true_index": true_ri,
+        "rt_min": rt,
+    })
+    if n_extra:
+        truth = pd.concat([truth, pd.DataFrame({
+            "component": [None] * n_extra, "mass_pct": np.nan,
+            "row": pd.array([row_of[-1 - j] for j in range(n_extra)], dtype="Int64"),
+            "true_index": x_ri, "rt_min": x_rt})], ignore_index=True)
+    return peaks, truth
+
+
+def identification_accuracy(identified: pd.DataFrame, truth: pd.DataFrame) -> float:
+    """Mass fraction of the truth whose peak carries its component in the identified table [-].
+
+    A component without a peak (a missing trace) counts as not identified. A split co-elution
+    peak counts for both members when both rows name them.
+    """
+    t = truth.dropna(subset=["component"])
+    t = t[t["row"].notna()]
+    got = set(zip(identified["row"].astype(int), identified["component"].astype(object)))
+    ok = np.array([(int(r), c) in got for r, c in zip(t["row"], t["component"])])
+    total = truth["mass_pct"].sum()
+    return float(t["mass_pct"].to_numpy()[ok].sum() / total) if total > 0 else float("nan")
+
+
+# --------------------------------------------------------------------------------------------
+# Example compositions (invented)
+# --------------------------------------------------------------------------------------------
+
+#: Group totals [mass %] and carbon-number profiles (relative weights) of the three example
+#: petrols; invented, shaped like common streams (common practice, no source).
+_PROFILES: dict[str, dict[str, Any]] = {
+    "reformate": {
+        "groups": {"aromatics": 42.0, "isoparaffins": 27.0, "n_paraffins": 12.0,
+                   "naphthenes": 6.0, "olefins": 11.0, "oxygenates": 2.0},
+        "carbon": {"aromatics": {6: 2, 7: 30, 8: 35, 9: 25, 10: 8, 11: 2},
+                   "isoparaffins": {4: 4, 5: 25, 6: 30, 7: 25, 8: 10, 9: 4, 10: 2},
+                   "n_paraffins": {3: 1, 4: 10, 5: 25, 6: 25, 7: 20, 8: 10, 9: 5, 10: 3, 11: 1},
+                   "naphthenes": {5: 15, 6: 40, 7: 30, 8: 15},
+                   "olefins": {4: 20, 5: 35, 6: 30, 7: 15},
+                   "oxygenates": {5: 1}},
+        "fixed": {"benzene": 0.8},
+    },
+    "alkylate": {
+        "groups": {"isoparaffins": 58.0, "aromatics": 20.0, "n_paraffins": 7.0,
+                   "naphthenes": 5.0, "olefins": 5.0, "oxygenates": 5.0},
+        "carbon": {"isoparaffins": {4: 3, 5: 18, 6: 14, 7: 12, 8: 40, 9: 10, 10: 3},
+                   "aromatics": {6: 2, 7: 35, 8: 40, 9: 18, 10: 5},
+                   "n_paraffins": {4: 15, 5: 30, 6: 25, 7: 15, 8: 10, 9: 5},
+                   "naphthenes": {5: 20, 6: 45, 7: 25, 8: 10},
+                   "olefins": {4: 25, 5: 40, 6: 25, 7: 10},
+                   "oxygenates": {6: 1}},
+        "fixed": {"2,2,4-trimethylpentane": 14.0, "benzene": 0.5},
+    },
+    "e10": {
+        "groups": {"aromatics": 28.0, "isoparaffins": 32.0, "n_paraffins": 10.0,
+                   "naphthenes": 7.0, "olefins": 12.0, "oxygenates": 11.0},
+        "carbon": {"aromatics": {6: 3, 7: 30, 8: 35, 9: 25, 10: 7},
+                   "isoparaffins": {4: 4, 5: 25, 6: 25, 7: 20, 8: 18, 9: 6, 10: 2},
+                   "n_paraffins": {3: 1, 4: 12, 5: 25, 6: 22, 7: 18, 8: 12, 9: 6, 10: 3, 11: 1},
+                   "naphthenes": {5: 15, 6: 40, 7: 30, 8: 15},
+                   "olefins": {4: 20, 5: 35, 6: 30, 7: 15},
+                   "oxygenates": {2: 1}},
+        "fixed": {"ethanol": 10.0, "benzene": 0.7},
+    },
+}
+
+EXAMPLE_KINDS = tuple(_PROFILES)
+
+
+def example_composition(kind: str, library: Any = None, *, seed: int = 7) -> dict[str, float]:
+    """An invented petrol composition built from library components [mass %].
+
+    Parameters
+    ----------
+    kind : {"reformate", "alkylate", "e10"}
+        Reformate-rich petrol, alkylate-rich petrol, or an E10 blend (10 mass % ethanol).
+    library : dha.library.Library, optional
+        Default: the shipped library.
+    seed : int
+        Seed of the within-cell weights.
+
+    Returns
+    -------
+    dict
+        Library name -> mass %, summing to 100.
+
+    Notes
+    -----
+    Group totals and carbon-number profiles are invented (``_PROFILES``); within each
+    (group, carbon number) cell the mass is spread over the library's components with
+    log-normal weights (sigma = 1.2), so a few components dominate each cell and many are
+    traces, as in real petrol. Named components (``fixed``) take their mass first.
+    For tests and the demo only: not a real sample.
+    """
+    if kind not in _PROFILES:
+        raise InputError(f"example composition: unknown kind {kind!r}; use one of "
+                         f"{', '.join(EXAMPLE_KINDS)}")
+    if library is None:
+        from dha.library import load_library
+        library = load_library()
+    prof = _PROFILES[kind]
+    comps = library.components
+    rng = np.random.default_rng(seed + sum(map(ord, kind)))
+    out: dict[str, float] = {}
+    fixed = {k: v for k, v in prof["fixed"].items() if k in comps.index}
+    for name, pct in fixed.items():
+        out[name] = pct
+    ri = pd.to_numeric(comps["retention_index"], errors="coerce")
+    usable = comps[ri.notna()]
+    for group, total in prof["groups"].items():
+        remaining = total - sum(v for k, v in fixed.items() if comps.at[k, "group"] == group)
+        profile = prof["carbon"][group]
+        in_group = usable[usable["group"] == group]
+        cells = {c: in_group[in_group["carbon_number"] == c].index.difference(list(fixed))
+                 for c in profile}
+        cells = {c: idx for c, idx in cells.items() if len(idx)}
+        if not cells:
+            continue
+        wsum = sum(profile[c] for c in cells)
+        for c, idx in sorted(cells.items()):
+            cell_mass = remaining * profile[c] / wsum
+            w = np.exp(rng.normal(0.0, 1.2, len(idx)))
+            for name, share in zip(sorted(idx), w / w.sum()):
+                out[name] = out.get(name, 0.0) + cell_mass * share
+    total = sum(out.values())
+    return {k: 100.0 * v / total for k, v in sorted(out.items())}

@@ -1,0 +1,266 @@
+"""Report writers: a result dict (``schema: dha-result/1``) -> Excel workbook or PDF draft.
+
+Both writers take the JSON result dict only (CONTRACT.md) and never recompute science: what
+they show is what the result holds. This module keeps what both share: the words a person
+reads (labels, units, the responsibility text), number formatting and the settings digest.
+
+    write_xlsx(result, path) -> Path      (dha.report.excel)
+    write_pdf(result, path) -> Path       (dha.report.pdf)
+
+``WRITERS`` maps a format name to its writer, for the pipeline's dict of writers.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from typing import Any
+
+#: Group keys of the result, in the order reports show them (CONTRACT.md spellings).
+GROUP_KEYS = (
+    "n_paraffins", "isoparaffins", "olefins", "naphthenes", "aromatics", "oxygenates",
+    "unidentified",
+)
+
+#: Human labels of the group keys.
+GROUP_LABELS = {
+    "n_paraffins": "n-paraffins",
+    "isoparaffins": "isoparaffins",
+    "olefins": "olefins",
+    "naphthenes": "naphthenes",
+    "aromatics": "aromatics",
+    "oxygenates": "oxygenates",
+    "unidentified": "unidentified",
+}
+
+#: Basis key -> unit text shown in headers.
+BASIS_UNITS = {"mass_pct": "mass %", "vol_pct": "% v/v", "mol_pct": "mol %"}
+
+#: Property key -> (label, unit, decimals). Keys not listed get a unit from their suffix.
+PROPERTY_INFO: dict[str, tuple[str, str, int]] = {
+    "ron": ("RON (research octane number)", "-", 1),
+    "mon": ("MON (motor octane number)", "-", 1),
+    "aki": ("AKI = (RON + MON)/2", "-", 1),
+    "sensitivity": ("sensitivity = RON - MON", "-", 1),
+    "dvpe_kpa": ("DVPE at 37.8 °C", "kPa", 1),
+    "density_kg_m3": ("density at reference temperature", "kg/m³", 1),
+    "e70_vol_pct": ("E70, evaporated at 70 °C", "% v/v", 1),
+    "e100_vol_pct": ("E100, evaporated at 100 °C", "% v/v", 1),
+    "e150_vol_pct": ("E150, evaporated at 150 °C", "% v/v", 1),
+    "t10_c": ("T10, 10 % v/v evaporated", "°C", 1),
+    "t50_c": ("T50, 50 % v/v evaporated", "°C", 1),
+    "t90_c": ("T90, 90 % v/v evaporated", "°C", 1),
+    "fbp_c": ("final boiling point", "°C", 1),
+    "net_heat_mj_kg": ("net heat of combustion", "MJ/kg", 2),
+    "mean_molar_mass_g_mol": ("mean molar mass", "g/mol", 2),
+    "h_to_c_molar": ("H/C atomic ratio", "mol/mol", 3),
+    "benzene_vol_pct": ("benzene", "% v/v", 2),
+    "benzene_mass_pct": ("benzene", "mass %", 2),
+    "aromatics_vol_pct": ("aromatics", "% v/v", 1),
+    "olefins_vol_pct": ("olefins", "% v/v", 1),
+    "oxygen_mass_pct": ("oxygen", "mass %", 2),
+    "ethanol_vol_pct": ("ethanol", "% v/v", 1),
+    "methanol_vol_pct": ("methanol", "% v/v", 1),
+    "ethers_c5plus_vol_pct": ("ethers with 5 or more carbon atoms", "% v/v", 1),
+}
+
+#: Key suffix -> unit, for keys not in PROPERTY_INFO (longest suffixes first).
+_SUFFIX_UNITS = (
+    ("_mass_pct", "mass %"), ("_vol_pct", "% v/v"), ("_mol_pct", "mol %"),
+    ("_kg_m3", "kg/m³"), ("_mj_kg", "MJ/kg"), ("_g_mol", "g/mol"), ("_kpa", "kPa"),
+    ("_psi", "psi"), ("_min", "min"), ("_c", "°C"), ("_k", "K"), ("_pct", "%"),
+)
+
+#: What the reports say where a person reads them (DOMAIN.md §8). One paragraph per item.
+RESPONSIBILITY_TEXT = (
+    "This is a DRAFT, not a certificate. It becomes one only when an authorised person has "
+    "reviewed and released it under the laboratory's own accredited procedures.",
+    "Calculated properties (octane numbers, DVPE, density, distillation points, heat of "
+    "combustion) are estimates from the composition. They are not results of the standard "
+    "engine, vapour-pressure, distillation or density test methods and do not replace them.",
+    "Local regulations and the applicable product specification rule. The specification "
+    "limits shown come from the profile named above; check them against the current edition.",
+    "Safety: petrol is highly flammable and its vapour can form explosive mixtures with air. "
+    "Benzene is a human carcinogen (IARC group 1). Handle samples cold, closed and with "
+    "ventilation.",
+)
+
+#: Text shown for a value that is null; the reason is in the result's warnings.
+NULL_TEXT = "—"
+
+#: Verdict key -> words shown to the reader.
+VERDICT_WORDS = {
+    "pass": "pass",
+    "fail": "FAIL",
+    "marginal": "within uncertainty of the limit",
+    None: "not checked",
+}
+
+
+def property_label(key: str) -> str:
+    """Human label of a property key, e.g. ``"dvpe_kpa"`` -> ``"DVPE at 37.8 °C"``.
+
+    >>> property_label("t50_c")
+    'T50, 50 % v/v evaporated'
+    >>> property_label("toluene_vol_pct")
+    'toluene'
+    """
+    if key in PROPERTY_INFO:
+        return PROPERTY_INFO[key][0]
+    base = key
+    for suffix, _unit in _SUFFIX_UNITS:
+        if key.endswith(suffix):
+            base = key[: -len(suffix)]
+            break
+    return base.replace("_", " ")
+
+
+def unit_of(key: str) -> str:
+    """Unit text of a result key, from the table or from the key's unit suffix.
+
+    ``"-"`` means dimensionless; ``""`` means the key names no unit.
+
+    >>> unit_of("dvpe_kpa"), unit_of("ethers_c5plus_vol_pct"), unit_of("ron")
+    ('kPa', '% v/v', '-')
+    """
+    if key in PROPERTY_INFO:
+        return PROPERTY_INFO[key][1]
+    for suffix, unit in _SUFFIX_UNITS:
+        if key.endswith(suffix):
+            return unit
+    return ""
+
+
+def decimals_of(key: str) -> int:
+    """Decimals shown for a property key (2 when the key is not in the table).
+
+    >>> decimals_of("h_to_c_molar")
+    3
+    """
+    return PROPERTY_INFO.get(key, ("", "", 2))[2]
+
+
+def is_number(value: Any) -> bool:
+    """True for a finite int/float that is not a bool.
+
+    >>> is_number(1.5), is_number(None), is_number(float("nan")), is_number(True)
+    (True, False, False, False)
+    """
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return False
+    return math.isfinite(value)
+
+
+def fmt_number(value: Any, decimals: int = 2) -> str:
+    """Text of a number with fixed decimals; ``NULL_TEXT`` for null/NaN; other values as str.
+
+    >>> fmt_number(3.14159, 2), fmt_number(None), fmt_number("13+")
+    ('3.14', '—', '13+')
+    """
+    if value is None:
+        return NULL_TEXT
+    if is_number(value):
+        return f"{value:.{decimals}f}"
+    if isinstance(value, float):  # NaN or inf
+        return NULL_TEXT
+    return str(value)
+
+
+def canonical_json(obj: Any) -> str:
+    """JSON text with sorted keys and no spaces: the same dict always gives the same text."""
+    return json.dumps(obj, sort_keys=True, separators=(",", ":"), ensure_ascii=False, default=str)
+
+
+def settings_digest(settings: dict | None) -> str:
+    """SHA-256 (hex) of the settings' canonical JSON, to tell two runs' settings apart.
+
+    Notes
+    -----
+    digest = sha256(UTF-8 of ``json.dumps(settings, sort_keys=True, separators=(",", ":"))``).
+
+    >>> settings_digest({"b": 1, "a": 2}) == settings_digest({"a": 2, "b": 1})
+    True
+    """
+    return hashlib.sha256(canonical_json(settings or {}).encode("utf-8")).hexdigest()
+
+
+def flatten_settings(settings: dict | None, prefix: str = "") -> list[tuple[str, str]]:
+    """Settings as ``("section.key", value text)`` rows, sorted; lists/dicts as compact JSON.
+
+    >>> flatten_settings({"identify": {"ri_tolerance": 3.0, "markers": {}}})
+    [('identify.markers', '{}'), ('identify.ri_tolerance', '3.0')]
+    """
+    rows: list[tuple[str, str]] = []
+    for key in sorted(settings or {}, key=str):
+        value = settings[key]
+        name = f"{prefix}{key}"
+        if isinstance(value, dict) and value:
+            rows.extend(flatten_settings(value, prefix=name + "."))
+        elif isinstance(value, (dict, list)):
+            rows.append((name, canonical_json(value)))
+        else:
+            rows.append((name, json.dumps(value) if isinstance(value, (bool, str)) or value is None
+                         else str(value)))
+    return rows
+
+
+def carbon_number_sort_key(value: Any) -> tuple[int, str]:
+    """Sort key for carbon numbers that may be ints or a bucket text such as ``"13+"``.
+
+    >>> sorted([10, "13+", 3, None], key=carbon_number_sort_key)
+    [3, 10, '13+', None]
+    """
+    if is_number(value):
+        return (int(value), "")
+    text = "" if value is None else str(value)
+    digits = "".join(ch for ch in text if ch.isdigit())
+    return (int(digits) if digits else 10**6, text)
+
+
+def headline_rows(result: dict) -> list[tuple[str, str, Any, str]]:
+    """The headline composition values: ``(key, label, value, unit)`` rows, value may be None."""
+    totals = result.get("totals") or {}
+    vol = totals.get("vol_pct") or {}
+    mass = totals.get("mass_pct") or {}
+    benzene = result.get("benzene") or {}
+    return [
+        ("benzene_vol_pct", "benzene", benzene.get("vol_pct"), "% v/v"),
+        ("benzene_mass_pct", "benzene", benzene.get("mass_pct"), "mass %"),
+        ("aromatics_vol_pct", "aromatics", vol.get("aromatics"), "% v/v"),
+        ("olefins_vol_pct", "olefins", vol.get("olefins"), "% v/v"),
+        ("oxygenates_vol_pct", "oxygenates", vol.get("oxygenates"), "% v/v"),
+        ("oxygen_mass_pct", "oxygen", result.get("oxygen_mass_pct"), "mass %"),
+        ("unidentified_mass_pct", "unidentified", mass.get("unidentified"), "mass %"),
+    ]
+
+
+def property_keys(result: dict) -> list[str]:
+    """Property keys in report order: the contract's order, then any extra keys sorted."""
+    from dha.properties import PROPERTY_KEYS
+
+    props = result.get("properties") or {}
+    extra = sorted(k for k in props if k not in PROPERTY_KEYS)
+    return list(PROPERTY_KEYS) + extra
+
+
+def _write_xlsx(result: dict, path):
+    from dha.report.excel import write_xlsx
+
+    return write_xlsx(result, path)
+
+
+def _write_pdf(result: dict, path):
+    from dha.report.pdf import write_pdf
+
+    return write_pdf(result, path)
+
+
+#: Format name -> writer(result, path) -> Path. Imports are lazy (matplotlib is slow to load).
+WRITERS = {"xlsx": _write_xlsx, "pdf": _write_pdf}
+
+__all__ = [
+    "GROUP_KEYS", "GROUP_LABELS", "BASIS_UNITS", "PROPERTY_INFO", "RESPONSIBILITY_TEXT",
+    "NULL_TEXT", "VERDICT_WORDS", "WRITERS", "property_label", "unit_of", "decimals_of",
+    "is_number", "fmt_number", "canonical_json", "settings_digest", "flatten_settings",
+    "carbon_number_sort_key", "headline_rows", "property_keys",
+]

@@ -1,0 +1,380 @@
+"""Excel workbook of one result: ``write_xlsx(result, path) -> Path``.
+
+Sheets (plain names of our own), each a table with one bold, frozen header row unless said:
+
+- ``Summary``: key/value rows (sample, library, settings digest, headline values, mass
+  balance) then the specification checks; header rows of each block in bold.
+- ``Groups``: group totals in mass %, % v/v and mol %, and a total row.
+- ``Carbon number mass`` / ``Carbon number volume``: carbon number x group matrices.
+- ``Components``: every component row of the result.
+- ``Oxygenates``, ``Properties`` (value, standard uncertainty, unit), ``Import log``,
+  ``Warnings``, ``Settings`` (flattened ``section.key``), ``Notes`` (responsibility text).
+
+Numbers are stored as numbers (null -> empty cell, reason in ``Warnings``), each numeric header
+carries its unit, and the content depends only on the result dict.
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import logging
+from pathlib import Path
+from typing import Any, Iterable, Sequence
+
+from openpyxl import Workbook
+from openpyxl.styles import Alignment, Font, PatternFill
+from openpyxl.utils import get_column_letter
+
+from dha.errors import InputError
+from dha.report import (
+    BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, RESPONSIBILITY_TEXT, VERDICT_WORDS,
+    carbon_number_sort_key, decimals_of, flatten_settings, headline_rows, is_number,
+    property_keys, property_label, settings_digest, unit_of,
+)
+
+log = logging.getLogger("dha.report.excel")
+
+_BOLD = Font(bold=True)
+_HEADER_FILL = PatternFill("solid", fgColor="DCE3EA")  # pale slate, our own choice
+_TITLE_FONT = Font(bold=True, size=13)
+_WARN_FONT = Font(bold=True, color="9C2A00")
+_MAX_WIDTH = 70
+
+#: Number formats by kind of column.
+FMT_PCT = "0.0000"
+FMT_RT = "0.000"
+FMT_RI = "0.0"
+FMT_AREA = "#,##0.0"
+FMT_INT = "0"
+
+#: Sheet names (our own).
+SHEETS = (
+    "Summary", "Groups", "Carbon number mass", "Carbon number volume", "Components",
+    "Oxygenates", "Properties", "Import log", "Warnings", "Settings", "Notes",
+)
+
+#: Component fields of the contract -> (header, number format or None).
+COMPONENT_COLUMNS: dict[str, tuple[str, str | None]] = {
+    "name": ("name", None),
+    "cas": ("CAS number", None),
+    "group": ("group", None),
+    "carbon_number": ("carbon number", FMT_INT),
+    "rt_min": ("retention time [min]", FMT_RT),
+    "retention_index": ("retention index [-]", FMT_RI),
+    "area": ("area [CDS units]", FMT_AREA),
+    "mass_pct": ("mass %", FMT_PCT),
+    "vol_pct": ("% v/v", FMT_PCT),
+    "mol_pct": ("mol %", FMT_PCT),
+    "match": ("match", None),
+    "ri_source": ("retention index source", None),
+}
+
+
+def _cell_value(value: Any) -> Any:
+    """A value openpyxl stores faithfully: numbers stay numbers, null/NaN -> empty."""
+    if value is None:
+        return None
+    if isinstance(value, bool):
+        return value
+    if isinstance(value, (int, float)):
+        return value if is_number(value) else None
+    if isinstance(value, (dict, list, tuple)):
+        from dha.report import canonical_json
+
+        return canonical_json(value)
+    return str(value)
+
+
+def _table(ws, header: Sequence[str], rows: Iterable[Sequence[Any]],
+           formats: Sequence[str | None] | None = None, start_row: int = 1,
+           freeze: bool = True) -> int:
+    """Write a header and rows from ``start_row``; return the next free row number."""
+    for j, text in enumerate(header, start=1):
+        cell = ws.cell(row=start_row, column=j, value=text)
+        cell.font = _BOLD
+        cell.fill = _HEADER_FILL
+        cell.alignment = Alignment(vertical="top", wrap_text=False)
+    r = start_row
+    for r, row in enumerate(rows, start=start_row + 1):
+        for j, value in enumerate(row, start=1):
+            cell = ws.cell(row=r, column=j, value=_cell_value(value))
+            if formats and j - 1 < len(formats) and formats[j - 1] and is_number(value):
+                cell.number_format = formats[j - 1]
+    if freeze:
+        ws.freeze_panes = ws.cell(row=start_row + 1, column=1)
+    return r + 1
+
+
+def _autowidth(ws, minimum: int = 8, maximum: int = _MAX_WIDTH) -> None:
+    """Set each column's width from its longest text (numbers counted as 10 characters)."""
+    widths: dict[int, int] = {}
+    for row in ws.iter_rows():
+        for cell in row:
+            if cell.value is None:
+                continue
+            n = 10 if is_number(cell.value) else max(len(s) for s in str(cell.value).split("\n"))
+            widths[cell.column] = max(widths.get(cell.column, 0), n)
+    for col, n in widths.items():
+        ws.column_dimensions[get_column_letter(col)].width = max(minimum, min(maximum, n + 2))
+
+
+def _summary(ws, result: dict) -> None:
+    sample = result.get("sample") or {}
+    library = result.get("library") or {}
+    tool = result.get("tool") or {}
+    ws.cell(row=1, column=1, value="DRAFT - not released: calculated from a DHA run").font = _TITLE_FONT
+    r = 3
+    blocks: list[tuple[str, list[tuple[str, Any, str]]]] = []
+    ident = [("sample id", sample.get("id"), ""), ("source file", sample.get("source_file"), "")]
+    for key in sorted(k for k in sample if k not in ("id", "source_file")):
+        ident.append((key.replace("_", " "), sample[key], ""))
+    blocks.append(("Sample", ident))
+    blocks.append(("Run", [
+        ("schema", result.get("schema"), ""),
+        ("tool version", tool.get("version"), ""),
+        ("generated at", result.get("generated_at"), ""),
+        ("library version", library.get("version"), ""),
+        ("library sha256", library.get("sha256"), ""),
+        ("settings sha256", settings_digest(result.get("settings")), ""),
+        ("specification profile", _spec_names(result), ""),
+    ]))
+    blocks.append(("Headline values", [
+        (f"{label} [{unit}]", value, unit) for _key, label, value, unit in headline_rows(result)
+    ] + [
+        (f"{property_label(k)} [{unit_of(k)}]", (result.get("properties") or {}).get(k), unit_of(k))
+        for k in ("ron", "mon", "dvpe_kpa", "density_kg_m3")
+    ]))
+    balance = result.get("mass_balance")
+    if isinstance(balance, dict) and balance:
+        blocks.append(("Mass balance", [
+            (key.replace("_", " ") + (f" [{unit_of(key)}]" if unit_of(key) else ""),
+             balance[key], unit_of(key)) for key in balance
+        ]))
+    for title, rows in blocks:
+        r = _table(ws, [title, "value", "unit"], rows, formats=[None, "0.0###", None],
+                   start_row=r, freeze=False)
+        r += 1
+    ws.cell(row=r, column=1, value="Specification checks").font = _TITLE_FONT
+    r += 1
+    check_rows = []
+    for chk in result.get("checks") or []:
+        prop = chk.get("property", "")
+        check_rows.append([
+            chk.get("spec"), prop, property_label(prop), unit_of(prop), chk.get("kind"),
+            chk.get("limit"), chk.get("value"), _uncertainty_for(result, chk),
+            VERDICT_WORDS.get(chk.get("verdict"), str(chk.get("verdict"))),
+        ])
+    end = _table(ws, ["spec", "property", "description", "unit", "kind", "limit [unit]",
+                      "value [unit]", "standard uncertainty [unit]", "verdict"],
+                 check_rows, formats=[None] * 5 + ["0.0##"] * 3 + [None],
+                 start_row=r, freeze=False)
+    for row in ws.iter_rows(min_row=r + 1, max_row=end - 1, min_col=9, max_col=9):
+        for cell in row:
+            if cell.value in ("FAIL", VERDICT_WORDS["marginal"]):
+                cell.font = _WARN_FONT
+    ws.freeze_panes = "A2"
+    _autowidth(ws)
+    ws.column_dimensions["A"].width = 34
+
+
+def _uncertainty_for(result: dict, check: dict) -> Any:
+    if "uncertainty" in check:
+        return check.get("uncertainty")
+    return (result.get("uncertainty") or {}).get(check.get("property"))
+
+
+def _spec_names(result: dict) -> str | None:
+    names = sorted({str(c.get("spec")) for c in result.get("checks") or [] if c.get("spec")})
+    if names:
+        return ", ".join(names)
+    return ((result.get("settings") or {}).get("report") or {}).get("spec")
+
+
+def _groups(ws, result: dict) -> None:
+    totals = result.get("totals") or {}
+    bases = list(BASIS_UNITS)
+    rows = []
+    sums = {b: 0.0 for b in bases}
+    for g in GROUP_KEYS:
+        row = [g, GROUP_LABELS[g]]
+        for b in bases:
+            v = (totals.get(b) or {}).get(g)
+            row.append(v)
+            if is_number(v):
+                sums[b] += v
+        rows.append(row)
+    rows.append(["total", "sum of the groups"] + [sums[b] for b in bases])
+    _table(ws, ["group", "description"] + [BASIS_UNITS[b] for b in bases], rows,
+           formats=[None, None] + [FMT_PCT] * 3)
+    last = len(rows) + 1
+    for cell in ws[last]:
+        cell.font = _BOLD
+    _autowidth(ws)
+
+
+def carbon_number_matrix(result: dict, basis: str) -> tuple[list[Any], dict[Any, dict[str, float]]]:
+    """Carbon number x group values of ``by_carbon_number`` for one basis.
+
+    Returns the sorted carbon numbers and ``{carbon_number: {group: value}}``; a missing
+    (carbon number, group) pair is absent, not zero. Null values are left out.
+    """
+    cells: dict[Any, dict[str, float]] = {}
+    for entry in result.get("by_carbon_number") or []:
+        cn = entry.get("carbon_number")
+        value = entry.get(basis)
+        cells.setdefault(cn, {})
+        if is_number(value):
+            g = entry.get("group")
+            cells[cn][g] = cells[cn].get(g, 0.0) + value
+    return sorted(cells, key=carbon_number_sort_key), cells
+
+
+def _matrix(ws, result: dict, basis: str) -> None:
+    unit = BASIS_UNITS[basis]
+    order, cells = carbon_number_matrix(result, basis)
+    present = [g for g in GROUP_KEYS if any(g in cells[cn] for cn in order)]
+    extra = sorted({g for cn in order for g in cells[cn] if g not in GROUP_KEYS}, key=str)
+    groups = present + extra
+    rows = []
+    for cn in order:
+        vals = [cells[cn].get(g) for g in groups]
+        rows.append([cn] + vals + [sum(v for v in vals if v is not None)])
+    col_totals = [sum(cells[cn].get(g, 0.0) for cn in order) for g in groups]
+    rows.append(["total"] + col_totals + [sum(col_totals)])
+    header = ["carbon number"] + [f"{GROUP_LABELS.get(g, g)} [{unit}]" for g in groups] + [f"total [{unit}]"]
+    _table(ws, header, rows, formats=[FMT_INT] + [FMT_PCT] * (len(groups) + 1))
+    for cell in ws[len(rows) + 1]:
+        cell.font = _BOLD
+    _autowidth(ws)
+
+
+def _components(ws, result: dict) -> None:
+    comps = result.get("components") or []
+    keys = list(COMPONENT_COLUMNS)
+    extra = sorted({k for c in comps for k in c if k not in COMPONENT_COLUMNS}, key=str)
+    header = ["#"] + [COMPONENT_COLUMNS[k][0] for k in keys] + [
+        k.replace("_", " ") + (f" [{unit_of(k)}]" if unit_of(k) else "") for k in extra
+    ]
+    formats = [FMT_INT] + [COMPONENT_COLUMNS[k][1] for k in keys] + [None] * len(extra)
+    rows = ([i] + [c.get(k) for k in keys] + [c.get(k) for k in extra]
+            for i, c in enumerate(comps, start=1))
+    _table(ws, header, rows, formats=formats)
+    _autowidth(ws, maximum=45)
+
+
+def _oxygenates(ws, result: dict) -> None:
+    rows = [[o.get("name"), o.get("cas"), o.get("mass_pct"), o.get("vol_pct")]
+            for o in result.get("oxygenates") or []]
+    r = _table(ws, ["name", "CAS number", "mass %", "% v/v"], rows,
+               formats=[None, None, FMT_PCT, FMT_PCT])
+    ws.cell(row=r + 1, column=1, value="oxygen [mass %]").font = _BOLD
+    cell = ws.cell(row=r + 1, column=3, value=_cell_value(result.get("oxygen_mass_pct")))
+    cell.number_format = FMT_PCT
+    _autowidth(ws)
+
+
+def _properties(ws, result: dict) -> None:
+    props = result.get("properties") or {}
+    unc = result.get("uncertainty") or {}
+    rows = []
+    formats_per_row = []
+    for key in property_keys(result):
+        value = props.get(key)
+        note = "" if is_number(value) else "not computed: see Warnings"
+        rows.append([key, property_label(key), unit_of(key), value, unc.get(key), note])
+        d = decimals_of(key)
+        formats_per_row.append("0" + ("." + "0" * d if d else ""))
+    _table(ws, ["property", "description", "unit", "value [unit]",
+                "standard uncertainty [unit]", "note"], rows)
+    for i, fmt in enumerate(formats_per_row, start=2):
+        for col in (4, 5):
+            if is_number(ws.cell(row=i, column=col).value):
+                ws.cell(row=i, column=col).number_format = fmt
+    _autowidth(ws)
+
+
+def _import_log(ws, result: dict) -> None:
+    rows = [[e.get("row"), e.get("action"), e.get("reason")] for e in result.get("import_log") or []]
+    _table(ws, ["row in input", "action", "reason"], rows, formats=[FMT_INT, None, None])
+    _autowidth(ws, maximum=100)
+
+
+def _warnings(ws, result: dict) -> None:
+    rows = [[i, str(w)] for i, w in enumerate(result.get("warnings") or [], start=1)]
+    _table(ws, ["#", "warning"], rows, formats=[FMT_INT, None])
+    _autowidth(ws, maximum=120)
+
+
+def _settings(ws, result: dict) -> None:
+    rows = flatten_settings(result.get("settings"))
+    _table(ws, ["setting", "value"], rows)
+    _autowidth(ws)
+
+
+def _notes(ws, result: dict) -> None:
+    _table(ws, ["read before use"], [[p] for p in RESPONSIBILITY_TEXT])
+    ws.column_dimensions["A"].width = 110
+    for row in ws.iter_rows(min_row=2):
+        for cell in row:
+            cell.alignment = Alignment(wrap_text=True, vertical="top")
+    for r in range(2, len(RESPONSIBILITY_TEXT) + 2):
+        ws.row_dimensions[r].height = 32
+
+
+def _fixed_time(result: dict) -> _dt.datetime:
+    """Workbook created/modified time: the result's generated_at, else a fixed epoch."""
+    text = result.get("generated_at")
+    if isinstance(text, str):
+        try:
+            t = _dt.datetime.fromisoformat(text.replace("Z", "+00:00"))
+            return t.astimezone(_dt.timezone.utc).replace(tzinfo=None)
+        except ValueError:
+            log.debug("generated_at %r is not ISO 8601; workbook time set to 2000-01-01", text)
+    return _dt.datetime(2000, 1, 1)
+
+
+def write_xlsx(result: dict, path) -> Path:
+    """Write the result as an Excel workbook and return its path.
+
+    Parameters
+    ----------
+    result : dict
+        A result dict of schema ``dha-result/1`` (CONTRACT.md). Missing keys give empty
+        sheets; null values give empty cells (reason in the ``Warnings`` sheet).
+    path : str or Path
+        File to write (parent folders are created); overwritten if it exists.
+
+    Returns
+    -------
+    Path
+        ``path`` as a Path.
+    """
+    if not isinstance(result, dict):
+        raise InputError(f"write_xlsx: result must be a dict (dha-result/1), got {type(result).__name__}")
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    wb = Workbook()
+    wb.remove(wb.active)
+    builders = {
+        "Summary": _summary,
+        "Groups": _groups,
+        "Carbon number mass": lambda ws, res: _matrix(ws, res, "mass_pct"),
+        "Carbon number volume": lambda ws, res: _matrix(ws, res, "vol_pct"),
+        "Components": _components,
+        "Oxygenates": _oxygenates,
+        "Properties": _properties,
+        "Import log": _import_log,
+        "Warnings": _warnings,
+        "Settings": _settings,
+        "Notes": _notes,
+    }
+    for name in SHEETS:
+        builders[name](wb.create_sheet(name), result)
+    sample_id = str((result.get("sample") or {}).get("id") or "")
+    wb.properties.title = f"dha result {sample_id}".strip()
+    wb.properties.creator = "dha"
+    stamp = _fixed_time(result)
+    wb.properties.created = stamp
+    wb.properties.modified = stamp
+    wb.save(path)
+    log.info("wrote %s", path)
+    return path

@@ -1,0 +1,169 @@
+"""The pipeline: one input file -> one result per run -> files on disk.
+
+``process_file`` runs reader -> identify (peak runs) -> quantify -> groups -> every property
+model of ``dha.properties.MODELS`` -> specification checks -> result. ``write_outputs`` writes a
+result in the formats asked for; a writer is one function per format in ``WRITERS`` (the report
+package adds ``xlsx`` and ``pdf`` there).
+"""
+from __future__ import annotations
+
+import importlib
+import logging
+import re
+from pathlib import Path
+from typing import Any, Callable
+
+from dha.errors import InputError, SettingsError
+from dha.groups import group_totals
+from dha.properties import MODELS
+from dha.quantify import quantify_run
+from dha.result import build_result, write_json
+
+log = logging.getLogger("dha.pipeline")
+
+FORMATS = ("json", "xlsx", "pdf")
+
+
+def _optional_writer(module: str, function: str) -> Callable[[dict, Path], Any] | None:
+    try:
+        mod = importlib.import_module(module)
+    except ImportError:
+        return None
+    return getattr(mod, function, None)
+
+
+def writers() -> dict[str, Callable[[dict, Path], Any] | None]:
+    """Writer per format: ``writer(result, path)``; None where no writer exists yet."""
+    return {
+        "json": write_json,
+        "xlsx": _optional_writer("dha.report.excel", "write_xlsx"),
+        "pdf": _optional_writer("dha.report.pdf", "write_pdf"),
+    }
+
+
+def run_stem(run, n_runs: int) -> str:
+    """Output stem: the input's stem, plus ``__<sheet>`` for a workbook with several runs.
+
+    >>> from types import SimpleNamespace as NS
+    >>> run_stem(NS(source_file="a/tank 7.xlsx", injection="Inj 2"), 3)
+    'tank 7__Inj_2'
+    """
+    stem = Path(str(run.source_file)).stem
+    injection = getattr(run, "injection", None)
+    if injection and n_runs > 1:
+        stem += "__" + re.sub(r"[^\w.-]+", "_", str(injection)).strip("_")
+    return stem
+
+
+def run_properties(comp, library, settings) -> list[tuple[str, Any]]:
+    """(module name, PropertyResult) for every module in ``dha.properties.MODELS``."""
+    out = []
+    for name in MODELS:
+        module = importlib.import_module(name)
+        out.append((name.rsplit(".", 1)[-1], module.compute(comp, library, settings)))
+    return out
+
+
+def process_run(run, settings: dict, library, spec: str | None = None,
+                generated_at: str | None = None) -> dict[str, Any]:
+    """The result of one ``Run`` (see ``process_file``)."""
+    identified = None
+    if run.kind == "peaks":
+        from dha.identify import identify
+        identified = identify(run.table, library, settings)
+    quant = quantify_run(run, identified, library, settings)
+    groups = group_totals(quant.table, library, settings)
+    properties = run_properties(quant.table, library, settings)
+    result = build_result(run, quant, groups, properties, library, settings,
+                          generated_at=generated_at)
+    if spec is None:
+        spec = settings.get("report", {}).get("spec", "")
+    if spec:
+        from dha import specs
+        profile = specs.load_profile(spec)
+        checks, spec_warnings = specs.check(result, profile, library)
+        result = build_result(run, quant, groups, properties, library, settings,
+                              checks=checks, extra_warnings=spec_warnings,
+                              generated_at=result["generated_at"])
+    return result
+
+
+def process_file(path: str | Path, settings: dict, library, spec: str | None = None) -> list[dict]:
+    """One result per run of the input file.
+
+    Parameters
+    ----------
+    path : peak table or composition table (CSV, TSV, TXT, XLSX)
+    settings : full settings (``dha.settings.load_settings``)
+    library : ``dha.library.Library``
+    spec : specification profile name or path; None = ``[report] spec``; "" = no checks
+
+    Returns
+    -------
+    list of result dicts (CONTRACT.md), in the file's run order; ``process_file_stems`` gives
+    each with its output stem
+    """
+    return [r for _, r in process_file_stems(path, settings, library, spec)]
+
+
+def process_file_stems(path: str | Path, settings: dict, library,
+                       spec: str | None = None) -> list[tuple[str, dict]]:
+    """As ``process_file``, with each result's output stem."""
+    path = Path(path)
+    if not path.is_file():
+        raise InputError(f"{path}: file not found")
+    from dha.reader import read_input
+    runs = read_input(path, settings)
+    if not runs:
+        raise InputError(f"{path.name}: no peak or composition table found")
+    out = []
+    for run in runs:
+        stem = run_stem(run, len(runs))
+        result = process_run(run, settings, library, spec)
+        result["sample"]["output_stem"] = stem
+        out.append((stem, result))
+    return out
+
+
+def output_paths(out_dir: str | Path, stem: str, formats) -> dict[str, Path]:
+    """Target path per format."""
+    return {fmt: Path(out_dir) / f"{stem}.{fmt}" for fmt in formats}
+
+
+def write_outputs(result: dict, out_dir: str | Path, stem: str | None = None,
+                  formats=("json",), overwrite: bool = False) -> list[Path]:
+    """Write ``result`` as ``<out_dir>/<stem>.<fmt>`` for each format; returns paths written.
+
+    ``stem`` defaults to the one ``process_file`` stored in ``result["sample"]["output_stem"]``.
+
+    An existing file is an error unless ``overwrite``. A format whose writer does not exist yet
+    is not written; a warning in the result (and the JSON, if asked for) says so.
+    """
+    if stem is None:
+        stem = (result.get("sample") or {}).get("output_stem") or "result"
+    formats = list(dict.fromkeys(formats))
+    unknown = [f for f in formats if f not in FORMATS]
+    if unknown:
+        raise SettingsError(f"unknown output format(s) {', '.join(unknown)}; "
+                            f"use {', '.join(FORMATS)}")
+    out_dir = Path(out_dir)
+    targets = output_paths(out_dir, stem, formats)
+    table = writers()
+    missing = [f for f in formats if table.get(f) is None]
+    for fmt in missing:
+        msg = f"{fmt} output not written: no {fmt} writer in this version"
+        if msg not in result["warnings"]:
+            result["warnings"].append(msg)
+        log.warning("%s: %s", stem, msg)
+    todo = {f: p for f, p in targets.items() if f not in missing}
+    if not overwrite:
+        for p in todo.values():
+            if p.exists():
+                raise InputError(f"{p} exists; use --overwrite to replace it")
+    out_dir.mkdir(parents=True, exist_ok=True)
+    written = []
+    # JSON last, so that it carries every warning the other writers added
+    for fmt in sorted(todo, key=lambda f: f == "json"):
+        table[fmt](result, todo[fmt])
+        written.append(todo[fmt])
+    return written

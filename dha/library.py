@@ -21,7 +21,9 @@ Merging rule of an overlay folder (any subset of the shipped file names):
 * ``library.toml``: may give the overlay's own ``name`` and ``version``; the merged version reads
   ``<shipped version>+<overlay name>/<overlay version>``.
 
-The same checks run on the merged library as on the shipped one.
+The same checks run on the merged library as on the shipped one. A folder that cannot be read
+(missing file or column, a cell that is not a number) raises ``LibraryError``; other problems
+are logged and kept in ``Library.problems`` (``dha library check`` fails on them).
 
 Text columns hold ``""`` where blank; numeric columns are float (``NaN`` where blank), except
 ``carbon_number`` which is int.
@@ -37,7 +39,7 @@ import math
 import re
 import tomllib
 from collections.abc import Iterable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cached_property, lru_cache
 from pathlib import Path
 from typing import Any
@@ -422,6 +424,9 @@ class Library:
         Checksum over the library files (shipped, then overlay), see :func:`library_sha256`.
     folders : tuple of Path
         The folders read, shipped first.
+    problems : tuple of Problem
+        What :func:`check_library` found when loaded through :func:`load_library` (empty for a
+        sound library; :func:`read_library` does not check).
     """
 
     components: pd.DataFrame
@@ -435,6 +440,7 @@ class Library:
     sha256: str
     folders: tuple[Path, ...]
     description: str = ""
+    problems: tuple = ()
     _tables: dict = field(default_factory=dict, repr=False)
     _meta: dict = field(default_factory=dict, repr=False)
 
@@ -894,11 +900,13 @@ def _stamp(folders: tuple[Path, ...]) -> tuple:
 @lru_cache(maxsize=16)
 def _load_checked(folders: tuple[Path, ...], stamp: tuple) -> Library:
     lib = read_library(folders)
-    problems = check_library(lib)
+    problems = tuple(check_library(lib))
     if problems:
-        raise _error(problems)
+        command = "dha library check" + (f" --library {folders[-1]}" if len(folders) > 1 else "")
+        log.warning("component library %s has %d problem(s), first: %s; run `%s`",
+                    lib.version, len(problems), problems[0], command)
     log.debug("library %s %s loaded from %s", lib.name, lib.version, folders)
-    return lib
+    return replace(lib, problems=problems)
 
 
 def load_library(overlay: str | Path | None = None) -> Library:
@@ -913,12 +921,14 @@ def load_library(overlay: str | Path | None = None) -> Library:
     -------
     Library
         Cached per resolved folder (and file size/time, so edited files are read again).
+        ``Library.problems`` holds what :func:`check_library` found (logged as a warning;
+        a run may put them into its warnings); empty for a sound library.
 
     Raises
     ------
     LibraryError
-        A file, column or number cannot be read, or :func:`check_library` finds a problem
-        (the message names the first; ``err.problems`` holds all of them).
+        A file or column is missing or a number cannot be read (the message names the first
+        file:row:column; ``err.problems`` holds all of them).
     """
     folders = _folders(overlay)
     return _load_checked(folders, _stamp(folders))

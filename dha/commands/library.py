@@ -51,13 +51,33 @@ def check_command(library_dir: Path | None) -> None:
         click.echo(f"vapour-pressure correlations: {len(lib.vapour_pressure)}; co-elution "
                    f"pairs: {len(lib.coelution)}; references: {len(lib.references)}; UNIFAC "
                    f"subgroups: {len(lib.unifac_subgroups)}")
-    for problem in problems:
-        click.echo(str(problem))
+    for line in _problem_lines(problems):
+        click.echo(line)
     if problems:
         where = "the files read" if lib is None else "the rows listed above"
         raise LibraryError(f"component library is not sound: {len(problems)} problem"
                            f"{'s' if len(problems) != 1 else ''}; fix {where} and run again")
     click.echo("sound: no problems found")
+
+
+#: The same problem (file, column, message) is printed for this many rows, then counted.
+_REPEAT = 3
+
+
+def _problem_lines(problems) -> list[str]:
+    """One line per problem; a problem repeated on many rows is shown 3 times, then counted."""
+    seen: dict[tuple, int] = {}
+    lines: list[str] = []
+    for problem in problems:
+        key = (problem.file, problem.column, problem.message)
+        seen[key] = seen.get(key, 0) + 1
+        if seen[key] <= _REPEAT:
+            lines.append(str(problem))
+    for (file, column, message), count in seen.items():
+        if count > _REPEAT:
+            lines.append(f"{file}:-:{column or '-'}: the same problem on {count - _REPEAT} more "
+                         f"rows: {message}")
+    return lines
 
 
 def _format(value) -> str:

@@ -24,21 +24,19 @@ log = logging.getLogger("dha.pipeline")
 FORMATS = ("json", "xlsx", "pdf")
 
 
-def _optional_writer(module: str, function: str) -> Callable[[dict, Path], Any] | None:
-    try:
-        mod = importlib.import_module(module)
-    except ImportError:
-        return None
-    return getattr(mod, function, None)
-
-
 def writers() -> dict[str, Callable[[dict, Path], Any] | None]:
-    """Writer per format: ``writer(result, path)``; None where no writer exists yet."""
-    return {
-        "json": write_json,
-        "xlsx": _optional_writer("dha.report.excel", "write_xlsx"),
-        "pdf": _optional_writer("dha.report.pdf", "write_pdf"),
-    }
+    """Writer per format: ``writer(result, path)``; None where no writer exists.
+
+    JSON is written here; the others come from ``dha.report.WRITERS``.
+    """
+    table: dict[str, Callable[[dict, Path], Any] | None] = {f: None for f in FORMATS}
+    table["json"] = write_json
+    try:
+        from dha.report import WRITERS as report_writers
+    except ImportError:
+        report_writers = {}
+    table.update({f: w for f, w in report_writers.items() if f in table and f != "json"})
+    return table
 
 
 def run_stem(run, n_runs: int) -> str:

@@ -1,0 +1,710 @@
+r"""Volatility from a composition: DVPE, RVP, VLI and an estimated distillation curve.
+
+Phase model (both calculations): modified Raoult's law with an ideal gas,
+
+.. math:: y_i P = x_i \gamma_i(x, T) P^{sat}_i(T)
+
+γ from original UNIFAC (:mod:`dha.properties.unifac`; setting ``volatility.activity =
+"unifac"``) or γ = 1 (``"ideal"``), P^sat from the library's correlations.
+
+DVPE (ASTM D5191; EN 13016-1 the same, from memory): an isothermal flash of the liquid at
+37.8 °C (310.93 K) in a closed chamber whose vapour volume is 4 times the equilibrium liquid
+volume. The flash gives the total pressure P_tot; then DVPE = 0.965·P_tot − 3.78 kPa
+(facts.md fact 1). Dissolved air is not modelled: the sample is taken as air-free, so P_tot is
+the pure vapour pressure of the petrol at V/L = 4 (the air a real air-saturated sample adds is
+one reason the standard's correlation has its constants). Liquid molar volumes are those at
+15 °C (M/ρ15); thermal expansion to 37.8 °C (about 3 %) is ignored — it changes the vapour
+volume and so P_tot by far less than 0.1 kPa.
+
+Distillation: a differential (Rayleigh) batch distillation at 101.325 kPa. The liquid is
+always at its bubble point; the vapour in equilibrium with it is removed. Volumes are liquid
+volumes at 15 °C. Setting ``volatility.distillation_curve`` chooses what is reported:
+
+- ``"equilibrium"`` (default): the Rayleigh curve itself (bubble temperature of the liquid
+  against volume % evaporated). A D86 flask is close to such a one-stage still.
+- ``"riazi-daubert"``: the Rayleigh curve taken as TBP-like and converted to D86-like
+  temperatures with the Riazi–Daubert (1986) correlation in its reverse, **kelvin** form
+  (facts.md fact 6, Wauquier Table 4.16a): T_D86 = a·T_TBP^b at 0, 10, 30, 50, 70, 90 and
+  95 % evaporated; in between the D86 − TBP shift is interpolated linearly in volume % and
+  added to the curve (exact at the seven points; beyond 95 % the 95 % shift holds).
+  Not the default: the Rayleigh curve is already an equilibrium (one-stage) curve, far flatter
+  than a TBP at its front, and the correlation adds about 20 °C at 0–10 %; for the invented
+  base petrol of the tests it gives IBP 86 °C, T10 88 °C and E70 = 0 % (T50 110 °C).
+- ``"boiling-order"``: the simple route of DOMAIN.md §6, an ideal TBP (components in
+  boiling-point order) converted by the same Riazi–Daubert coefficients; no activity model,
+  so no ethanol effect.
+
+The reported curve's uncertainty uses the difference between the chosen curve and another
+route (see :func:`compute`). E70, E100, E150 are read from the curve. FBP is the temperature
+at 98 % evaporated (a D86 end point is reached with about 2 % v/v left as residue and loss;
+EN 228 caps residue at 2 % v/v — common practice, no source).
+"""
+from __future__ import annotations
+
+import logging
+import weakref
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from dha.errors import LibraryError, SettingsError
+from dha.properties import PropertyResult
+from dha.properties.unifac import UnifacModel, build_model, parameters_from_library
+
+log = logging.getLogger("dha.volatility")
+
+#: DVPE test temperature, 37.8 °C = 100 °F [K] (ASTM D5191).
+T_DVPE_K = 310.93
+#: Vapour/liquid volume ratio of the DVPE chamber [-] (ASTM D5191).
+VL_RATIO = 4.0
+#: Distillation pressure [kPa].
+P_ATM_KPA = 101.325
+#: Molar gas constant [J/(mol K)] (CODATA 2018, exact).
+R_J_MOL_K = 8.314462618
+#: kPa per psi (1 psi = 6.894757 kPa).
+KPA_PER_PSI = 6.894757
+
+#: Riazi–Daubert (1986) TBP -> D86, kelvin set: T_D86 = a·T_TBP^b (Wauquier, Petroleum
+#: Refining vol. 1, Table 4.16a; facts.md fact 6). Rows: volume % evaporated, a, b.
+RIAZI_DAUBERT_TBP_TO_D86_K = np.array([
+    [0.0, 1.08947, 0.99810],
+    [10.0, 1.71243, 0.91743],
+    [30.0, 1.29838, 0.95923],
+    [50.0, 1.10755, 0.98270],
+    [70.0, 1.13047, 0.97790],
+    [90.0, 1.04643, 0.98912],
+    [95.0, 1.21455, 0.96572],
+])
+#: Extra points of the distillation near its end [% evaporated].
+TAIL_VOL_PCT = np.array([95.0, 96.0, 97.0, 98.0, 98.5, 99.0, 99.5])
+#: Volume % evaporated at which the D86-like FBP is read (see module notes).
+FBP_EVAPORATED_PCT = 98.0
+
+#: Standard uncertainty of P_tot from the activity model, relative [-]. Basis: original and
+#: Dortmund UNIFAC differ by 6 % (hydrocarbon blend) and 7 % (E10) in P at V/L = 4
+#: (shared/data/reference-libraries/REPORT.md §4); half that spread, rounded up, is taken as
+#: one standard uncertainty. No comparison with measured DVPE of petrols was available.
+U_PTOT_REL = 0.04
+#: Average error of the Riazi–Daubert TBP/D86 conversion [°C] (facts.md fact 6).
+U_RIAZI_DAUBERT_C = 5.0
+#: Extra standard uncertainty of the FBP rule [°C] (judgement, no source).
+U_FBP_RULE_C = 10.0
+
+
+# -- vapour pressures on a temperature grid ------------------------------------------------------
+
+#: Temperature nodes [K] for ln P^sat interpolation (2 K apart, with 310.93 K exactly).
+T_GRID_K = np.unique(np.concatenate([np.arange(200.0, 700.0 + 1e-9, 2.0), [T_DVPE_K]]))
+
+
+@dataclass(frozen=True)
+class PsatGrid:
+    """ln P^sat of N components on a grid of temperatures, interpolated linearly in 1/T.
+
+    t_k : (G,) nodes [K], increasing; ln_p_kpa : (N, G)
+    """
+
+    t_k: np.ndarray
+    ln_p_kpa: np.ndarray
+
+    def ln_psat(self, t_k: float) -> np.ndarray:
+        """ln(P^sat/kPa) at ``t_k`` [K], shape (N,); linear in 1/T, extrapolated at the ends."""
+        inv = 1.0 / self.t_k
+        j = int(np.clip(np.searchsorted(self.t_k, t_k) - 1, 0, len(self.t_k) - 2))
+        w = (1.0 / t_k - inv[j]) / (inv[j + 1] - inv[j])
+        return self.ln_p_kpa[:, j] * (1.0 - w) + self.ln_p_kpa[:, j + 1] * w
+
+    def psat_kpa(self, t_k: float) -> np.ndarray:
+        return np.exp(self.ln_psat(t_k))
+
+    def take(self, rows) -> "PsatGrid":
+        return PsatGrid(self.t_k, self.ln_p_kpa[rows])
+
+
+def _fill_outside(ln_p: np.ndarray, valid: np.ndarray, t_grid_k: np.ndarray) -> np.ndarray:
+    """Replace ln P where ``valid`` is False by a straight line in 1/T through the two valid
+    nodes nearest each end of the valid run (Clausius–Clapeyron extension). Rows with fewer
+    than two valid nodes are left as they are."""
+    ln_p = ln_p.copy()
+    inv = 1.0 / t_grid_k
+    idx = np.arange(len(t_grid_k))
+    for i in np.flatnonzero(~valid.all(axis=1)):
+        good = np.flatnonzero(valid[i])
+        if len(good) < 2:
+            continue
+        for sel, (j0, j1) in ((idx < good[0], good[:2]), (idx > good[-1], good[-2:])):
+            slope = (ln_p[i, j1] - ln_p[i, j0]) / (inv[j1] - inv[j0])
+            ln_p[i, sel] = ln_p[i, j0] + slope * (inv[sel] - inv[j0])
+        inner = ~valid[i] & (idx > good[0]) & (idx < good[-1])
+        if inner.any():
+            ln_p[i, inner] = np.interp(inv[inner], inv[good][::-1], ln_p[i, good][::-1])
+    return ln_p
+
+
+def psat_grid(psat_kpa_at, n: int, t_grid_k: np.ndarray = T_GRID_K) -> PsatGrid:
+    """Tabulate ln P^sat from ``psat_kpa_at(t_k) -> (n,) array [kPa]`` on ``t_grid_k``.
+
+    Values that are not finite or not positive are replaced as in :func:`_fill_outside`.
+    """
+    table = np.empty((n, len(t_grid_k)))
+    for g, t in enumerate(t_grid_k):
+        table[:, g] = np.asarray(psat_kpa_at(float(t)), dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ln_p = np.log(np.where(table > 0, table, np.nan))
+    return PsatGrid(np.asarray(t_grid_k, float), _fill_outside(ln_p, np.isfinite(ln_p),
+                                                                 np.asarray(t_grid_k, float)))
+
+
+def correlation_psat_grid(table: pd.DataFrame, t_grid_k: np.ndarray = T_GRID_K) -> PsatGrid:
+    """ln P^sat on ``t_grid_k`` for the rows of a ``vapour_pressure.csv``-shaped table.
+
+    Each correlation is used inside its validity range [``tmin_k``, ``tmax_k``] (and below
+    ``tc_k`` for the Wagner form); outside it ln P is extended linearly in 1/T from the range
+    ends (Clausius–Clapeyron), never the correlation's own extrapolation.
+    """
+    from dha.vapour_pressure import psat_kpa
+
+    n, g = len(table), len(t_grid_k)
+    tmin = pd.to_numeric(table.get("tmin_k"), errors="coerce") if "tmin_k" in table else None
+    lo = np.full(n, -np.inf) if tmin is None else np.nan_to_num(tmin.to_numpy(float), nan=-np.inf)
+    hi = (np.full(n, np.inf) if "tmax_k" not in table else
+          np.nan_to_num(pd.to_numeric(table["tmax_k"], errors="coerce").to_numpy(float),
+                        nan=np.inf))
+    if "tc_k" in table:
+        tc = pd.to_numeric(table["tc_k"], errors="coerce").to_numpy(float)
+        wagner = table["equation"].astype(str).str.strip().str.lower().to_numpy() == "wagner25"
+        hi = np.where(wagner & np.isfinite(tc), np.minimum(hi, tc - 0.5), hi)
+    t = np.broadcast_to(t_grid_k, (n, g))
+    valid = (t >= lo[:, None]) & (t <= hi[:, None])
+    enough = valid.sum(axis=1) >= 2
+    valid[~enough] = True                        # too narrow a range: use the correlation as is
+    clipped = np.where(valid, t, np.clip(t, lo[:, None], hi[:, None]))
+    rows = table.reset_index(drop=True).iloc[np.repeat(np.arange(n), g)].reset_index(drop=True)
+    values = np.asarray(psat_kpa(rows, clipped.ravel()), dtype=float).reshape(n, g)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ln_p = np.log(np.where(values > 0, values, np.nan))
+    valid &= np.isfinite(ln_p)
+    return PsatGrid(np.asarray(t_grid_k, float), _fill_outside(ln_p, valid, np.asarray(t_grid_k)))
+
+
+_LIBRARY_GRIDS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+
+
+def library_psat_grid(library) -> tuple[PsatGrid, pd.Index]:
+    """ln P^sat of every library component on :data:`T_GRID_K` (cached per library object).
+
+    Uses ``library.vapour_pressure`` through :func:`correlation_psat_grid` when the library
+    has that table, else ``library.psat_kpa(t_k)`` at each node.
+    """
+    try:
+        cached = _LIBRARY_GRIDS.get(library)
+    except TypeError:
+        cached = None
+    if cached is not None:
+        return cached
+    table = getattr(library, "vapour_pressure", None)
+    if isinstance(table, pd.DataFrame) and len(table):
+        names = pd.Index(table.index if table.index.name == "name" or "name" not in table
+                         else table["name"])
+        grid = correlation_psat_grid(table)
+    else:
+        names = library.psat_kpa(T_DVPE_K).index
+        grid = psat_grid(lambda t: library.psat_kpa(t).reindex(names).to_numpy(float),
+                         len(names))
+    try:
+        _LIBRARY_GRIDS[library] = (grid, names)
+    except TypeError:
+        pass
+    return grid, names
+
+
+# -- the mixture ------------------------------------------------------------------------------------
+
+@dataclass
+class Mixture:
+    """A liquid feed for the phase calculations.
+
+    names : component names; z : mole fractions [-]; molar_volume_m3_mol : liquid molar
+    volume at 15 °C [m³/mol]; psat : :class:`PsatGrid`; unifac : model or None (ideal);
+    boiling_point_k : normal boiling points [K] (optional, for the boiling-order curve).
+    """
+
+    names: list[str]
+    z: np.ndarray
+    molar_volume_m3_mol: np.ndarray
+    psat: PsatGrid
+    unifac: UnifacModel | None = None
+    warnings: list[str] = field(default_factory=list)
+    boiling_point_k: np.ndarray | None = None
+
+    def ln_gamma(self, x: np.ndarray, t_k: float) -> np.ndarray:
+        if self.unifac is None:
+            return np.zeros_like(x)
+        return self.unifac.ln_gamma(x, t_k)
+
+
+def mixture_from_composition(composition: pd.DataFrame, library, activity: str = "unifac"
+                             ) -> Mixture:
+    """Build a :class:`Mixture` from a composition table (rows merged by ``model_component``).
+
+    Parameters
+    ----------
+    composition : DataFrame
+        The composition table (DEVELOPERS.md): ``model_component`` and ``mol_pct`` are used.
+    library : Library
+        ``components`` (``molar_mass_g_mol``, ``density_15c_kg_m3``), ``psat_kpa(t_k)`` and
+        ``unifac_groups``.
+    activity : {"unifac", "ideal"}
+
+    Raises
+    ------
+    SettingsError
+        Unknown ``activity``.
+    LibraryError
+        A model component is not in the library or lacks a molar mass, density or vapour
+        pressure.
+    """
+    if activity not in ("unifac", "ideal"):
+        raise SettingsError(f"[volatility] activity = {activity!r}; use \"unifac\" or \"ideal\"")
+    for col in ("model_component", "mol_pct"):
+        if col not in composition.columns:
+            raise LibraryError(f"composition table: column {col!r} missing (quantify stage)")
+    moles = composition.groupby("model_component", sort=True)["mol_pct"].sum()
+    moles = moles[moles > 0]
+    names = [str(n) for n in moles.index]
+    comps = library.components
+    absent = [n for n in names if n not in comps.index]
+    if absent:
+        raise LibraryError(f"library: model component(s) {', '.join(absent[:5])} not in "
+                           "components.csv; check the composition's model_component column")
+    sub = comps.loc[names]
+    mm = sub["molar_mass_g_mol"].to_numpy(float)
+    rho = sub["density_15c_kg_m3"].to_numpy(float)
+    grid, grid_names = library_psat_grid(library)
+    pos = grid_names.get_indexer(names)
+    bad = [n for n, m, r, p in zip(names, mm, rho, pos)
+           if not (m > 0 and r > 0) or p < 0 or not np.isfinite(grid.ln_p_kpa[p]).all()]
+    if bad:
+        raise LibraryError(f"library: {', '.join(bad[:5])} lack(s) a molar mass, density at "
+                           "15 °C or vapour-pressure correlation needed for volatility")
+    warnings: list[str] = []
+    model = None
+    if activity == "unifac":
+        groups_all = library.unifac_groups
+        groups = [groups_all.get(n) or {} for n in names]
+        no_groups = [n for n, g in zip(names, groups) if not g]
+        if no_groups:
+            warnings.append("volatility: no UNIFAC groups for " + ", ".join(no_groups[:5])
+                            + "; ideal solution (gamma = 1) used instead of UNIFAC")
+        else:
+            model = build_model(groups, parameters_from_library(library), names)
+            if model.missing_pairs:
+                warnings.append("volatility: UNIFAC interaction parameters missing for "
+                                f"main-group pairs {list(model.missing_pairs)}; taken as 0")
+    z = moles.to_numpy(float)
+    tb = (sub["boiling_point_c"].to_numpy(float) + 273.15 if "boiling_point_c" in sub.columns
+          else None)
+    return Mixture(names, z / z.sum(), mm / rho * 1e-6, grid.take(pos), model, warnings, tb)
+
+
+# -- phase calculations -------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class FlashResult:
+    """Isothermal flash at a fixed vapour/liquid volume ratio.
+
+    p_kpa : total pressure [kPa]; vapour_mol_frac : vapour share of the moles [-];
+    x, y : liquid and vapour mole fractions [-]; iterations : solver iterations.
+    """
+
+    p_kpa: float
+    vapour_mol_frac: float
+    x: np.ndarray
+    y: np.ndarray
+    iterations: int
+
+
+def bubble_pressure_kpa(mixture: Mixture, x: np.ndarray, t_k: float) -> float:
+    """Bubble-point pressure Σ x_i γ_i P^sat_i [kPa] of liquid ``x`` at ``t_k`` [K]."""
+    x = np.asarray(x, float)
+    return float(np.sum(x * np.exp(mixture.ln_gamma(x, t_k) + mixture.psat.ln_psat(t_k))))
+
+
+def flash_volume_ratio(mixture: Mixture, t_k: float = T_DVPE_K, vl_ratio: float = VL_RATIO,
+                       tol: float = 1e-12, max_iter: int = 200) -> FlashResult:
+    r"""Isothermal flash in a closed chamber with V_vapour = ``vl_ratio`` · V_liquid.
+
+    Notes
+    -----
+    Unknowns P, vapour mole share β and liquid x; successive substitution of
+
+    .. math:: P = \sum_i x_i\gamma_i P^{sat}_i,\quad K_i = \gamma_i P^{sat}_i/P,\quad
+              \frac{\beta}{1-\beta} = \frac{r\,v_L(x)\,P}{RT},\quad
+              x_i = \frac{z_i}{1 + \beta(K_i - 1)}
+
+    (v_L the liquid molar volume, r the volume ratio). β is about 1 % for petrol, so the
+    iteration contracts fast. For a pure component P = P^sat exactly.
+    """
+    z = mixture.z
+    ln_ps = mixture.psat.ln_psat(t_k)
+    x = z.copy()
+    p = beta = 0.0
+    k = np.ones_like(z)
+    for it in range(1, max_iter + 1):
+        gp = np.exp(mixture.ln_gamma(x, t_k) + ln_ps)
+        p = float(np.sum(x * gp))
+        k = gp / p
+        vl = float(x @ mixture.molar_volume_m3_mol)
+        c = vl_ratio * vl * p * 1e3 / (R_J_MOL_K * t_k)
+        beta = c / (1.0 + c)
+        x_new = z / (1.0 + beta * (k - 1.0))
+        x_new /= x_new.sum()
+        if np.max(np.abs(x_new - x)) < tol:
+            x = x_new
+            break
+        x = x_new
+    return FlashResult(p, beta, x, k * x, it)
+
+
+def total_vapour_pressure_kpa(mixture: Mixture, t_k: float = T_DVPE_K,
+                              vl_ratio: float = VL_RATIO) -> float:
+    """Total pressure [kPa] of the liquid at ``t_k`` [K] in a chamber with vapour/liquid
+    volume ratio ``vl_ratio`` (0 gives the bubble-point pressure)."""
+    if vl_ratio == 0:
+        return bubble_pressure_kpa(mixture, mixture.z, t_k)
+    return flash_volume_ratio(mixture, t_k, vl_ratio).p_kpa
+
+
+def dvpe_kpa_from_total(p_tot_kpa: float) -> float:
+    """DVPE [kPa] from the total pressure at 37.8 °C and V/L = 4 (ASTM D5191).
+
+    .. math:: DVPE = 0.965\\,P_{tot} - 3.78
+
+    >>> round(dvpe_kpa_from_total(65.0), 3)
+    58.945
+    """
+    return 0.965 * p_tot_kpa - 3.78
+
+
+def rvp_psi(dvpe_kpa: float) -> float:
+    """DVPE expressed in psi (1 psi = 6.894757 kPa).
+
+    >>> round(rvp_psi(68.94757), 4)
+    10.0
+    """
+    return dvpe_kpa / KPA_PER_PSI
+
+
+def vapour_lock_index(dvpe_kpa: float, e70_vol_pct: float) -> float:
+    """Vapour lock index VLI = 10·DVPE [kPa] + 7·E70 [% v/v] (EN 228; facts.md fact 4).
+
+    >>> vapour_lock_index(60.0, 30.0)
+    810.0
+    """
+    return 10.0 * dvpe_kpa + 7.0 * e70_vol_pct
+
+
+def bubble_temperature_k(mixture: Mixture, x: np.ndarray, p_kpa: float = P_ATM_KPA,
+                         t_guess_k: float = 350.0, tol: float = 1e-9) -> float:
+    """Bubble-point temperature [K] of liquid ``x`` at ``p_kpa``.
+
+    Solves ln Σ x_i γ_i P^sat_i(T) = ln P by a safeguarded secant in 1/T (the sum is close
+    to linear in 1/T, so 3–5 evaluations suffice).
+    """
+    x = np.asarray(x, float)
+    ln_p = np.log(p_kpa)
+
+    def f(t):
+        return np.log(np.sum(x * np.exp(mixture.ln_gamma(x, t) + mixture.psat.ln_psat(t)))) - ln_p
+
+    u0, u1 = 1.0 / t_guess_k, 1.0 / (t_guess_k + 2.0)
+    f0, f1 = f(1.0 / u0), f(1.0 / u1)
+    u_low = u_high = None               # root lies in (u_low, u_high); f falls as u rises
+    for u, fu in ((u0, f0), (u1, f1)):
+        if fu > 0:
+            u_low = u if u_low is None else max(u_low, u)
+        else:
+            u_high = u if u_high is None else min(u_high, u)
+    for _ in range(100):
+        if abs(f1) < tol:
+            return 1.0 / u1
+        u2 = u1 - f1 * (u1 - u0) / (f1 - f0) if f1 != f0 else u1 * 1.001
+        if u_low is not None and u_high is not None and not u_low < u2 < u_high:
+            u2 = 0.5 * (u_low + u_high)
+        u2 = min(max(u2, 1.0 / 1500.0), 1.0 / 100.0)
+        u0, f0 = u1, f1
+        u1, f1 = u2, f(1.0 / u2)
+        if f1 > 0:
+            u_low = u1 if u_low is None else max(u_low, u1)
+        else:
+            u_high = u1 if u_high is None else min(u_high, u1)
+    log.warning("bubble temperature did not converge (residual %.2e)", f1)
+    return 1.0 / u1
+
+
+def _step_rayleigh(n: np.ndarray, k: np.ndarray, vm: np.ndarray, v_goal: float) -> np.ndarray:
+    """Remove vapour from liquid moles ``n`` with equilibrium ratios ``k`` held constant until
+    the liquid volume is ``v_goal``: n_i -> n_i·s^{K_i} (the exact Rayleigh solution for
+    constant K), s found by Newton on the volume (convex, increasing in ln s)."""
+    w = vm * n
+    u = 0.0
+    for _ in range(60):
+        e = np.exp(k * u)
+        g = float(w @ e) - v_goal
+        if abs(g) <= 1e-13 * v_goal:
+            break
+        u -= g / float((w * k) @ e)
+    return n * np.exp(k * u)
+
+
+def rayleigh_distillation(mixture: Mixture, p_kpa: float = P_ATM_KPA,
+                          step_vol_pct: float = 2.0) -> pd.DataFrame:
+    r"""Differential (Rayleigh) batch distillation of the mixture at ``p_kpa``.
+
+    Returns
+    -------
+    DataFrame with ``evaporated_vol_pct`` (liquid volume at 15 °C distilled, % of the
+    charge) and ``t_k`` (bubble temperature of the liquid left, [K]); first row 0 %.
+
+    Notes
+    -----
+    Rayleigh: dn_i = y_i dN with y_i = K_i x_i and K_i = γ_i P^sat_i/P at the bubble point.
+    Over one step K is taken at the step's midpoint (predictor–corrector: a first step with
+    the K of the start, then the step again with the mean of ln K at start and predicted end),
+    and n_i ∝ s^{K_i} solves dn_i/n_i = K_i dN/N exactly for constant K.
+    """
+    vm = mixture.molar_volume_m3_mol
+    n = mixture.z.copy()
+    v0 = float(n @ vm)
+    ln_p = np.log(p_kpa)
+
+    def ln_k(x, t):
+        return mixture.ln_gamma(x, t) + mixture.psat.ln_psat(t) - ln_p
+
+    x = n / n.sum()
+    t = bubble_temperature_k(mixture, x, p_kpa)
+    targets = np.unique(np.concatenate([np.arange(step_vol_pct, 95.0, step_vol_pct),
+                                        TAIL_VOL_PCT]))
+    pct = [0.0]
+    temps = [t]
+    for target in targets:
+        v_goal = v0 * (1.0 - target / 100.0)
+        lk0 = ln_k(x, t)
+        n_pred = _step_rayleigh(n, np.exp(lk0), vm, v_goal)
+        x_pred = n_pred / n_pred.sum()
+        t_pred = bubble_temperature_k(mixture, x_pred, p_kpa, t)
+        lk1 = ln_k(x_pred, t_pred)
+        n = _step_rayleigh(n, np.exp(0.5 * (lk0 + lk1)), vm, v_goal)
+        x = n / n.sum()
+        t = bubble_temperature_k(mixture, x, p_kpa, t_pred)
+        pct.append(float(target))
+        temps.append(t)
+    return pd.DataFrame({"evaporated_vol_pct": pct, "t_k": temps})
+
+
+def tbp_to_d86_k(evaporated_vol_pct, t_tbp_k) -> np.ndarray:
+    r"""Convert a TBP(-like) curve to D86-like temperatures [K] (Riazi–Daubert 1986, K set).
+
+    At 0/10/30/50/70/90/95 % evaporated, T_D86 = a·T_TBP^b with the kelvin coefficients of
+    :data:`RIAZI_DAUBERT_TBP_TO_D86_K`; in between, the shift T_D86 − T_TBP is interpolated
+    linearly in volume % and added to the curve (held constant beyond 95 %). The result is
+    made non-decreasing.
+
+    >>> round(float(tbp_to_d86_k([50.0], [373.15])[0]), 2)   # 1.10755·373.15^0.98270
+    373.04
+    """
+    pct = np.asarray(evaporated_vol_pct, float)
+    t = np.asarray(t_tbp_k, float)
+    nodes, a, b = RIAZI_DAUBERT_TBP_TO_D86_K.T
+    order = np.argsort(pct, kind="stable")
+    t_nodes = np.interp(nodes, pct[order], t[order])
+    shift_nodes = a * t_nodes ** b - t_nodes
+    d86 = t + np.interp(pct, nodes, shift_nodes)
+    return np.maximum.accumulate(d86) if len(d86) and np.all(np.diff(pct) >= 0) else d86
+
+
+def distillation_points(evaporated_vol_pct, t_c) -> dict[str, float]:
+    """E70, E100, E150 [% v/v] and T10, T50, T90, FBP [°C] from a D86-like curve."""
+    pct = np.asarray(evaporated_vol_pct, float)
+    t = np.maximum.accumulate(np.asarray(t_c, float))
+    out = {}
+    for key, temp in (("e70_vol_pct", 70.0), ("e100_vol_pct", 100.0), ("e150_vol_pct", 150.0)):
+        out[key] = float(np.interp(temp, t, pct, left=0.0, right=100.0))
+    for key, p in (("t10_c", 10.0), ("t50_c", 50.0), ("t90_c", 90.0),
+                   ("fbp_c", FBP_EVAPORATED_PCT)):
+        out[key] = float(np.interp(p, pct, t))
+    return out
+
+
+# -- the property model ---------------------------------------------------------------------------
+
+def _unidentified_psat_spread_kpa(composition: pd.DataFrame, library) -> float:
+    """Standard uncertainty [kPa] of Σ x_i P^sat_i from unidentified rows: each row's P^sat
+    at 37.8 °C taken as uniform over the range of the library's components of its carbon
+    number (range/√12), added linearly over the rows (judgement, no source)."""
+    if "group" not in composition.columns or "carbon_number" not in composition.columns:
+        return 0.0
+    unid = composition[composition["group"] == "unidentified"]
+    if unid.empty:
+        return 0.0
+    ps = library.psat_kpa(T_DVPE_K)
+    cn = library.components["carbon_number"].reindex(ps.index)
+    total = 0.0
+    for _, row in unid.iterrows():
+        values = ps[(cn == row["carbon_number"]).to_numpy()].dropna()
+        if len(values) >= 2:
+            total += row["mol_pct"] / 100.0 * (values.max() - values.min()) / np.sqrt(12.0)
+    return float(total)
+
+
+def boiling_order_curve(mixture: Mixture, evaporated_vol_pct) -> np.ndarray:
+    """A TBP curve [K] of a perfect fractionation: components in order of normal boiling
+    point, each taking its share of the liquid volume at 15 °C (ideal, no azeotropes).
+
+    The temperature at a volume % is interpolated between the mid-points of the components'
+    volume slices.
+    """
+    if mixture.boiling_point_k is None or not np.isfinite(mixture.boiling_point_k).all():
+        raise LibraryError("library: boiling_point_c missing for a component; the "
+                           "boiling-order curve needs every normal boiling point")
+    order = np.argsort(mixture.boiling_point_k, kind="stable")
+    vol = (mixture.z * mixture.molar_volume_m3_mol)[order]
+    share = vol / vol.sum() * 100.0
+    mid = np.cumsum(share) - share / 2.0
+    return np.interp(np.asarray(evaporated_vol_pct, float), mid, mixture.boiling_point_k[order])
+
+
+#: Allowed values of the ``[volatility] distillation_curve`` setting.
+DISTILLATION_CURVES = ("equilibrium", "riazi-daubert", "boiling-order")
+
+
+def distillation_curve_c(mixture: Mixture, kind: str = "equilibrium",
+                         p_kpa: float = P_ATM_KPA, step_vol_pct: float = 2.0) -> pd.DataFrame:
+    """The D86-like distillation estimate [°C] against volume % evaporated.
+
+    Parameters
+    ----------
+    kind : {"equilibrium", "riazi-daubert", "boiling-order"}
+        ``equilibrium``: the Rayleigh distillation's bubble temperature as it is (an
+        equilibrium still, as a D86 flask roughly is). ``riazi-daubert``: that curve taken as
+        TBP-like and converted by :func:`tbp_to_d86_k`. ``boiling-order``: the ideal
+        boiling-point-ordered TBP (:func:`boiling_order_curve`) converted by
+        :func:`tbp_to_d86_k` (no activity model, so no ethanol effect).
+
+    Returns
+    -------
+    DataFrame with ``evaporated_vol_pct``, ``t_c`` and, except for ``boiling-order``, the
+    unconverted Rayleigh temperature ``t_equilibrium_c``.
+    """
+    if kind not in DISTILLATION_CURVES:
+        raise SettingsError(f"[volatility] distillation_curve = {kind!r}; use one of "
+                            f"{', '.join(DISTILLATION_CURVES)}")
+    if kind == "boiling-order":
+        pct = np.concatenate([np.arange(0.0, 95.0, step_vol_pct), TAIL_VOL_PCT])
+        t_k = tbp_to_d86_k(pct, boiling_order_curve(mixture, pct))
+        return pd.DataFrame({"evaporated_vol_pct": pct, "t_c": t_k - 273.15})
+    curve = rayleigh_distillation(mixture, p_kpa, step_vol_pct)
+    pct = curve["evaporated_vol_pct"].to_numpy()
+    t_eq = curve["t_k"].to_numpy()
+    t_k = tbp_to_d86_k(pct, t_eq) if kind == "riazi-daubert" else t_eq
+    return pd.DataFrame({"evaporated_vol_pct": pct, "t_c": t_k - 273.15,
+                         "t_equilibrium_c": t_eq - 273.15})
+
+
+def compute(composition: pd.DataFrame, library, settings: dict) -> PropertyResult:
+    """DVPE, RVP, VLI and the distillation estimate of a composition table.
+
+    Parameters
+    ----------
+    composition : DataFrame
+        Composition table (``model_component``, ``mol_pct``; ``group``, ``carbon_number`` for
+        the unidentified-share uncertainty).
+    library : Library
+    settings : dict
+        Run settings; reads the ``[volatility]`` section (``activity``,
+        ``distillation_curve``, ``distillation_step_vol_pct``).
+
+    Returns
+    -------
+    PropertyResult with ``dvpe_kpa``, ``e70_vol_pct``, ``e100_vol_pct``, ``e150_vol_pct``,
+    ``t10_c``, ``t50_c``, ``t90_c``, ``fbp_c`` and their standard uncertainties; details hold
+    ``rvp_psi``, ``vli``, ``total_pressure_kpa``, the bubble pressure, the curve and the model.
+
+    Notes
+    -----
+    Uncertainty of the distillation temperatures: the Riazi–Daubert average error of 5 °C
+    (facts.md fact 6) combined with the difference, at that point, between the chosen curve and
+    the other route DOMAIN.md names (the boiling-order TBP converted by Riazi–Daubert; when
+    that is the chosen curve, the equilibrium curve). E values take the temperature
+    uncertainty through the curve's slope. FBP adds :data:`U_FBP_RULE_C` for its rule.
+    """
+    cfg = dict(settings.get("volatility", {})) if settings else {}
+    activity = cfg.get("activity", "unifac")
+    kind = cfg.get("distillation_curve", "equilibrium")
+    step = float(cfg.get("distillation_step_vol_pct", 2.0))
+    if not 0.1 <= step <= 5.0:
+        raise SettingsError(f"[volatility] distillation_step_vol_pct = {step}; use 0.1 to 5")
+    result = PropertyResult()
+    mix = mixture_from_composition(composition, library, activity)
+    result.warnings.extend(mix.warnings)
+    activity_used = "unifac" if mix.unifac is not None else "ideal"
+
+    flash = flash_volume_ratio(mix, T_DVPE_K, VL_RATIO)
+    dvpe = dvpe_kpa_from_total(flash.p_kpa)
+    u_p = np.hypot(U_PTOT_REL * flash.p_kpa, _unidentified_psat_spread_kpa(composition, library))
+    result.values["dvpe_kpa"] = dvpe
+    result.uncertainty["dvpe_kpa"] = float(0.965 * u_p)
+
+    curve = distillation_curve_c(mix, kind, P_ATM_KPA, step)
+    pct = curve["evaporated_vol_pct"].to_numpy()
+    t_c = curve["t_c"].to_numpy()
+    points = distillation_points(pct, t_c)
+    result.values.update(points)
+    other_kind = "equilibrium" if kind == "boiling-order" else "boiling-order"
+    try:
+        other = distillation_curve_c(mix, other_kind, P_ATM_KPA, step)
+        t_other = np.interp(pct, other["evaporated_vol_pct"], other["t_c"])
+    except LibraryError:
+        t_other = t_c
+        result.warnings.append("volatility: no boiling points for the distillation "
+                               "uncertainty; only the Riazi–Daubert 5 °C is counted")
+    u_t = np.hypot(U_RIAZI_DAUBERT_C, t_c - t_other)
+    for key, p in (("t10_c", 10.0), ("t50_c", 50.0), ("t90_c", 90.0)):
+        result.uncertainty[key] = float(np.interp(p, pct, u_t))
+    result.uncertainty["fbp_c"] = float(np.hypot(np.interp(FBP_EVAPORATED_PCT, pct, u_t),
+                                                 U_FBP_RULE_C))
+    t_mono = np.maximum.accumulate(t_c)
+    for key, temp in (("e70_vol_pct", 70.0), ("e100_vol_pct", 100.0), ("e150_vol_pct", 150.0)):
+        u_here = float(np.interp(temp, t_mono, u_t))
+        below = float(np.interp(temp - u_here, t_mono, pct, left=0.0, right=100.0))
+        above = float(np.interp(temp + u_here, t_mono, pct, left=0.0, right=100.0))
+        result.uncertainty[key] = 0.5 * (above - below)
+
+    e70 = points["e70_vol_pct"]
+    result.details.update({
+        "model": {"activity": activity_used, "psat": "library correlations",
+                  "dvpe": "flash at 37.8 °C, V/L = 4, DVPE = 0.965·P_tot − 3.78 kPa (ASTM D5191)",
+                  "distillation": {"equilibrium": "Rayleigh batch distillation at 101.325 kPa",
+                                   "riazi-daubert": "Rayleigh batch distillation, converted by "
+                                   "Riazi–Daubert (1986) TBP→D86, kelvin coefficients",
+                                   "boiling-order": "boiling-point-ordered TBP converted by "
+                                   "Riazi–Daubert (1986) TBP→D86, kelvin coefficients"}[kind],
+                  "fbp_rule": f"temperature at {FBP_EVAPORATED_PCT} % evaporated"},
+        "total_pressure_kpa": flash.p_kpa,
+        "bubble_pressure_kpa_37_8c": bubble_pressure_kpa(mix, mix.z, T_DVPE_K),
+        "vapour_mol_frac_at_vl4": flash.vapour_mol_frac,
+        "rvp_psi": rvp_psi(dvpe),
+        "vli": vapour_lock_index(dvpe, e70),
+        "initial_boiling_point_c": float(t_c[0]),
+        "curve": curve.to_dict(orient="list"),
+        "uncertainty_basis": {
+            "dvpe_kpa": "4 % of P_tot: half the original-vs-Dortmund UNIFAC spread "
+                        "(reference-libraries/REPORT.md §4), plus the unidentified share; not "
+                        "validated against measured DVPE",
+            "distillation": "Riazi–Daubert average error 5 °C (facts.md fact 6) combined with "
+                            f"the difference from the {other_kind} curve; E values through the "
+                            "curve; FBP rule +10 °C (judgement)",
+        },
+    })
+    return result

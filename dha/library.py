@@ -402,7 +402,7 @@ def _to_frame(table: _Table, floats: Iterable[str], ints: Iterable[str],
 # The Library
 
 
-@dataclass(frozen=True, eq=False)
+@dataclass(frozen=True, eq=False, repr=False)
 class Library:
     """The merged, loaded component library (see the module docstring for the merging rule).
 
@@ -443,6 +443,11 @@ class Library:
     problems: tuple = ()
     _tables: dict = field(default_factory=dict, repr=False)
     _meta: dict = field(default_factory=dict, repr=False)
+
+    def __repr__(self) -> str:
+        return (f"Library({self.name!r}, version={self.version!r}, "
+                f"components={len(self.components)}, sha256={self.sha256[:12]!r}..., "
+                f"problems={len(self.problems)})")
 
     # -- look-up ------------------------------------------------------------------------------
     @cached_property
@@ -1223,17 +1228,20 @@ def _check_vapour_pressure(lib: Library, problems: list[Problem]) -> None:
             add(name, "a", f"vapour pressure at 37.8 °C is {p!r}; check the coefficients")
     # the correlation must give 101.325 kPa at the normal boiling point (5 %: common practice,
     # no source; measured boiling points and correlations of measured data agree far better)
-    for name in good:
-        if name not in comps.index:
-            continue
-        tb_k = comps.loc[name, "boiling_point_c"] + 273.15
-        row = vp.loc[name]
-        if math.isnan(tb_k) or not row["tmin_k"] <= tb_k <= row["tmax_k"]:
-            continue
-        p_tb = float(np.asarray(psat_kpa(vp.loc[[name]], tb_k), dtype=float)[0])
-        if not abs(p_tb / 101.325 - 1) <= 0.05:
-            add(name, "source", f"the correlation gives {p_tb:.1f} kPa at the boiling point "
-                                f"{tb_k - 273.15:g} °C of components.csv (expected 101.3 kPa "
+    names = [n for n in good if n in comps.index]
+    tb_k = comps.loc[names, "boiling_point_c"].to_numpy(dtype=float) + 273.15
+    rows = vp.loc[names]
+    inside = (~np.isnan(tb_k)) & (rows["tmin_k"].to_numpy() <= tb_k) & \
+        (tb_k <= rows["tmax_k"].to_numpy())
+    if not inside.any():
+        return
+    names = [n for n, ok in zip(names, inside) if ok]
+    tb_k = tb_k[inside]
+    p_tb = np.asarray(psat_kpa(vp.loc[names], tb_k), dtype=float)
+    for name, t, p in zip(names, tb_k, p_tb):
+        if not abs(p / 101.325 - 1) <= 0.05:
+            add(name, "source", f"the correlation gives {p:.1f} kPa at the boiling point "
+                                f"{t - 273.15:g} °C of components.csv (expected 101.3 kPa "
                                 "within 5 %)")
 
 

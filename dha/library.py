@@ -537,7 +537,7 @@ class Library:
                     link = str(entry["url"])
                 elif entry.get("package"):
                     link = f"{entry['package']} {entry.get('version', '')} {entry.get('method', '')}"
-            prefix = "estimated by " if one.startswith("estimated:") else ""
+            prefix = "estimate; method: " if one.startswith("estimated:") else ""
             parts.append(f"{prefix}{text}" + (f" [{link.strip()}]" if link.strip() else "")
                          if entry else f"{one} (not in references.toml)")
         return "; ".join(parts)

@@ -66,23 +66,32 @@ def process_run(run, settings: dict, library, spec: str | None = None,
                 generated_at: str | None = None) -> dict[str, Any]:
     """The result of one ``Run`` (see ``process_file``)."""
     identified = None
+    id_warnings: list[str] = []
+    identification = None
     if run.kind == "peaks":
         from dha.identify import identify
         identified = identify(run.table, library, settings)
+        attrs = dict(getattr(identified, "attrs", {}) or {})
+        id_warnings = [str(w) for w in attrs.pop("warnings", [])]
+        identification = attrs or None
     quant = quantify_run(run, identified, library, settings)
     groups = group_totals(quant.table, library, settings)
     properties = run_properties(quant.table, library, settings)
-    result = build_result(run, quant, groups, properties, library, settings,
-                          generated_at=generated_at)
+
+    def build(checks=None, spec_warnings=()):
+        return build_result(run, quant, groups, properties, library, settings, checks=checks,
+                            extra_warnings=id_warnings + list(spec_warnings),
+                            identification=identification, generated_at=generated_at)
+
+    result = build()
     if spec is None:
         spec = settings.get("report", {}).get("spec", "")
     if spec:
         from dha import specs
         profile = specs.load_profile(spec)
+        generated_at = result["generated_at"]
         checks, spec_warnings = specs.check(result, profile, library)
-        result = build_result(run, quant, groups, properties, library, settings,
-                              checks=checks, extra_warnings=spec_warnings,
-                              generated_at=result["generated_at"])
+        result = build(checks, spec_warnings)
     return result
 
 

@@ -2,7 +2,7 @@
 
 Determinism: the same input, library and settings give byte-identical JSON apart from
 ``generated_at`` (UTC time of the run). Keys come in a fixed order (CONTRACT.md's order, then
-the extra keys ``mass_balance``, ``aromatics_detail``, ``cyclic_olefins`` (when asked for),
+the extra keys ``mass_balance``, ``aromatics_detail``, ``identification``, ``cyclic_olefins`` (when asked for),
 ``property_details``, ``generated_at``); every float is rounded to 9 significant digits (more
 than any input carries, few enough that summation-order noise in the last bits never shows);
 NaN and infinities become ``null``; numpy scalars become plain numbers; dates become ISO text.
@@ -135,6 +135,7 @@ def components_records(comp: pd.DataFrame) -> list[dict[str, Any]]:
 
 def build_result(run, composition, groups: dict, properties, library, settings: dict, *,
                  checks: list[dict] | None = None, extra_warnings: list[str] | None = None,
+                 identification: dict | None = None,
                  generated_at: str | None = None) -> dict[str, Any]:
     """Every CONTRACT.md key of one run's result, JSON-safe and in a fixed order.
 
@@ -147,7 +148,9 @@ def build_result(run, composition, groups: dict, properties, library, settings: 
     library : ``dha.library.Library`` (``version``, ``sha256``)
     settings : the full settings used (echoed)
     checks : specification checks (``dha.specs.check``); [] when none
-    extra_warnings : more warnings (pipeline, specs)
+    extra_warnings : more warnings (identification, specs)
+    identification : what the identifier reports besides warnings (markers used, names not
+        in the library); the result's ``identification`` key (null for composition input)
     generated_at : ISO time; default now (UTC)
 
     Returns
@@ -181,6 +184,7 @@ def build_result(run, composition, groups: dict, properties, library, settings: 
         "warnings": quant_warnings + prop_warnings + list(extra_warnings or []),
         "mass_balance": mass_balance,
         "aromatics_detail": groups.get("aromatics_detail"),
+        "identification": identification,
     }
     if "cyclic_olefins" in groups:
         result["cyclic_olefins"] = groups["cyclic_olefins"]

@@ -111,3 +111,102 @@ def test_nan_is_null_and_floats_rounded():
     assert r["mass_balance"] is None
     assert r["sample"]["id"] == "recipe"
     assert jsonable(1 / 3) == 0.333333333 and jsonable(math.inf) is None
+
+
+# ------------------------------------------------------------------ end to end, real modules
+
+#: Invented blend [mass %] for the hand-made export (no co-elution pair members).
+HAND_BLEND = {"n-butane": 4.0, "ethanol": 10.0, "n-pentane": 8.0, "2-methoxy-2-methylpropane": 5.0,
+              "2-methylpentane": 14.0, "1-hexene": 6.0, "benzene": 1.0, "cyclohexane": 8.0,
+              "2,2,4-trimethylpentane": 20.0, "n-heptane": 10.0, "1,2,4-trimethylbenzene": 12.0,
+              "n-decane": 2.0}
+
+
+def _rrf_by_hand(lib, name):
+    # facts.md fact 2 / DOMAIN.md §4: RRF = M·0.7487/(12.011·n_C), oxygenates with the ECN
+    row = lib.components.loc[name]
+    n = row["ecn"] if row["group"] == "oxygenates" else row["carbon_number"]
+    return row["molar_mass_g_mol"] * 0.7487 / (12.011 * n)
+
+
+def _hand_export(lib, tmp_path):
+    """Peak table by hand: area = mass/RRF, times t = I/50 min (linear index scale), names
+    given, plus one unnamed peak at I = 779 (a C8 unknown, in a gap of the library) of 30 000 counts."""
+    rows = [(lib.components.at[n, "retention_index"] / 50.0, 1.0e4 * m / _rrf_by_hand(lib, n), n)
+            for n, m in HAND_BLEND.items()]
+    rows.append((779.0 / 50.0, 3.0e4, ""))
+    table = pd.DataFrame(sorted(rows), columns=["RT [min]", "Area", "Name"])
+    path = tmp_path / "hand_blend.csv"
+    table.to_csv(path, index=False)
+    return path
+
+
+def _export_files(tmp_path):
+    """Every test export of the reader's corpus (tests/exports/), plus the hand-made one."""
+    from pathlib import Path
+
+    from dha.library import load_library
+    lib = load_library()
+    corpus = sorted(p for p in (Path(__file__).parent / "exports").glob("*")
+                    if p.suffix.lower() in (".csv", ".tsv", ".txt", ".xlsx", ".xls"))
+    return lib, [_hand_export(lib, tmp_path)] + corpus
+
+
+def test_mass_balance_closes_on_every_export(tmp_path):
+    from dha.errors import InputError
+    from dha.pipeline import process_file
+    lib, files = _export_files(tmp_path)
+    s = default_settings()
+    checked = 0
+    for path in files:
+        try:
+            results = process_file(path, s, lib, spec="")
+        except InputError:
+            continue    # exports made to be rejected by the reader (bad files) are not runs
+        for r in results:
+            checked += 1
+            mb = r["mass_balance"]
+            if mb is None:      # composition input: no peaks
+                continue
+            assert mb["closes"], (path.name, mb)
+            parts = sum(mb["area"][k] for k in ("identified", "unidentified", "excluded"))
+            assert parts == pytest.approx(mb["area"]["total"], rel=1e-12)
+            for basis in ("mass_pct", "vol_pct", "mol_pct"):
+                assert sum(r["totals"][basis].values()) == pytest.approx(100.0, abs=1e-6)
+    assert checked >= 1
+
+
+def test_hand_made_export_end_to_end(tmp_path):
+    # reader -> identify -> quantify -> groups -> result on a peak table made by hand
+    from dha.pipeline import process_file
+    lib, files = _export_files(tmp_path)
+    r = process_file(files[0], default_settings(), lib, spec="")[0]
+    got = {c["name"]: c for c in r["components"]}
+    # unknown C8: isoparaffin C8H18 factor (IUPAC weights) on 30 000 counts
+    m_unknown = 3.0e4 * (8 * 12.011 + 18 * 1.008) * 0.7487 / (12.011 * 8)
+    total = 1.0e4 * sum(HAND_BLEND.values()) + m_unknown
+    for name, mass in HAND_BLEND.items():
+        assert got[name]["mass_pct"] == pytest.approx(100 * 1.0e4 * mass / total, rel=1e-6), name
+        assert got[name]["match"] == "name"
+    unknown = [c for c in r["components"] if c["group"] == "unidentified"]
+    assert len(unknown) == 1 and unknown[0]["carbon_number"] == 8
+    assert unknown[0]["mass_pct"] == pytest.approx(100 * m_unknown / total, rel=1e-6)
+    assert r["totals"]["mass_pct"]["oxygenates"] == pytest.approx(100 * 15.0e4 / total, rel=1e-6)
+    # oxygen from stoichiometry: ethanol C2H6O and MTBE C5H12O, IUPAC weights
+    m_e, m_m = 2 * 12.011 + 6 * 1.008 + 15.999, 5 * 12.011 + 12 * 1.008 + 15.999
+    ox = 100 * 1.0e4 / total * (10.0 * 15.999 / m_e + 5.0 * 15.999 / m_m)
+    assert r["oxygen_mass_pct"] == pytest.approx(ox, rel=1e-4)
+    assert r["mass_balance"]["closes"] and r["mass_balance"]["peaks"]["total"] == 13
+
+
+def test_binary_volume_pct_real_library_vs_coolprop():
+    # CoolProp 8 saturated-liquid densities at 288.15 K; the shipped library's densities give
+    # the same volume split of a 50/50 mass blend of n-heptane and toluene within 0.2 % v/v
+    import CoolProp.CoolProp as CP
+    from dha.library import load_library
+    rho_h = CP.PropsSI("D", "T", 288.15, "Q", 0, "n-Heptane")
+    rho_t = CP.PropsSI("D", "T", 288.15, "Q", 0, "Toluene")
+    table = pd.DataFrame({"row": [1, 2], "component": ["n-heptane", "toluene"], "amount": [50.0, 50.0]})
+    t = quantify_composition(table, "mass_pct", load_library(), default_settings()).table
+    v_h = 100 * (50 / rho_h) / (50 / rho_h + 50 / rho_t)
+    assert t.set_index("name").loc["n-heptane", "vol_pct"] == pytest.approx(v_h, abs=0.2)

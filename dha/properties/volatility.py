@@ -305,7 +305,8 @@ def mixture_from_composition(composition: pd.DataFrame, library, activity: str =
     z = moles.to_numpy(float)
     tb = (sub["boiling_point_c"].to_numpy(float) + 273.15 if "boiling_point_c" in sub.columns
           else None)
-    return Mixture(names, z / z.sum(), mm / rho * 1e-6, grid.take(pos), model, warnings, tb)
+    # M [g/mol] / rho [kg/m3] = 1e-3 m3/mol
+    return Mixture(names, z / z.sum(), mm / rho * 1e-3, grid.take(pos), model, warnings, tb)
 
 
 # -- phase calculations -------------------------------------------------------------------------
@@ -509,7 +510,7 @@ def tbp_to_d86_k(evaporated_vol_pct, t_tbp_k) -> np.ndarray:
     At 0/10/30/50/70/90/95 % evaporated, T_D86 = a·T_TBP^b with the kelvin coefficients of
     :data:`RIAZI_DAUBERT_TBP_TO_D86_K`; in between, the shift T_D86 − T_TBP is interpolated
     linearly in volume % and added to the curve (held constant beyond 95 %). The result is
-    made non-decreasing.
+    made non-decreasing by a running minimum from the end.
 
     >>> round(float(tbp_to_d86_k([50.0], [373.15])[0]), 2)   # 1.10755·373.15^0.98270
     373.04
@@ -521,7 +522,11 @@ def tbp_to_d86_k(evaporated_vol_pct, t_tbp_k) -> np.ndarray:
     t_nodes = np.interp(nodes, pct[order], t[order])
     shift_nodes = a * t_nodes ** b - t_nodes
     d86 = t + np.interp(pct, nodes, shift_nodes)
-    return np.maximum.accumulate(d86) if len(d86) and np.all(np.diff(pct) >= 0) else d86
+    if len(d86) and np.all(np.diff(pct) >= 0):
+        # made non-decreasing from the back (running minimum): the point-by-point conversion
+        # can put a front point above later ones (facts.md fact 6); the later points win.
+        d86 = np.minimum.accumulate(d86[::-1])[::-1]
+    return d86
 
 
 def distillation_points(evaporated_vol_pct, t_c) -> dict[str, float]:

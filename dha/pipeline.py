@@ -15,7 +15,8 @@ from typing import Any, Callable
 
 from dha.errors import InputError, SettingsError
 from dha.groups import group_totals
-from dha.properties import MODELS
+from dha import properties as _properties
+from dha.properties import PropertyResult
 from dha.quantify import quantify_run
 from dha.result import build_result, write_json
 
@@ -56,9 +57,17 @@ def run_stem(run, n_runs: int) -> str:
 def run_properties(comp, library, settings) -> list[tuple[str, Any]]:
     """(module name, PropertyResult) for every module in ``dha.properties.MODELS``."""
     out = []
-    for name in MODELS:
-        module = importlib.import_module(name)
-        out.append((name.rsplit(".", 1)[-1], module.compute(comp, library, settings)))
+    for name in _properties.MODELS:
+        short = name.rsplit(".", 1)[-1]
+        try:
+            module = importlib.import_module(name)
+            res = module.compute(comp, library, settings)
+        except Exception as err:  # noqa: BLE001 - one model's failure must not lose the run
+            log.warning("property model %s failed", name, exc_info=True)
+            res = PropertyResult(warnings=[
+                f"property model {short} failed ({type(err).__name__}: {err}); "
+                "its properties are null"])
+        out.append((short, res))
     return out
 
 

@@ -278,7 +278,7 @@ def response_factor_overrides(settings: dict, library) -> dict[str, float]:
     """Lab-measured response factors by library name (``[quantify] response_factors``)."""
     out: dict[str, float] = {}
     for key, value in (settings.get("quantify", {}).get("response_factors") or {}).items():
-        name = library.find(str(key))
+        name = _resolve_name(str(key), library)
         if name is None:
             hint = _suggestions(key, library)
             raise SettingsError(
@@ -366,20 +366,33 @@ def _carbon_numbers(peaks: pd.DataFrame, warnings: list[str]) -> pd.Series:
     return cn.round().astype(int)
 
 
+def _name_key():
+    """The identifier's name comparison key (case, spacing, punctuation, ``n-``), if present."""
+    try:
+        from dha.identify import name_key
+        return name_key
+    except ImportError:
+        return _norm
+
+
 def _excluded_mask(peaks: pd.DataFrame, library, settings) -> pd.Series:
-    """Peaks named in ``[quantify] exclude`` (by library name/synonym/CAS or export name)."""
+    """Peaks named in ``[quantify] exclude``.
+
+    An entry matches a peak whose export name has the same comparison key as the identifier
+    uses (so "Air", "air " and "AIR" are one name), or whose identified component is the
+    library component the entry names (name, synonym or CAS).
+    """
     entries = settings.get("quantify", {}).get("exclude") or []
     mask = pd.Series(False, index=peaks.index)
     if not entries:
         return mask
-    names = {_norm(e) for e in entries}
-    resolved = {library.find(str(e)) for e in entries} - {None}
-    comp = peaks["component"] if "component" in peaks else pd.Series(None, index=peaks.index)
-    for col in ("name", "component"):
-        if col in peaks:
-            mask |= peaks[col].map(lambda v: v is not None and not (isinstance(v, float) and
-                                                                   math.isnan(v)) and _norm(v) in names)
-    mask |= comp.isin(resolved)
+    key = _name_key()
+    keys = {key(str(e)) for e in entries}
+    resolved = {_resolve_name(str(e), library) for e in entries} - {None}
+    if "name" in peaks:
+        mask |= peaks["name"].map(lambda v: _clean(v) is not None and key(str(v)) in keys)
+    if "component" in peaks:
+        mask |= peaks["component"].isin(resolved)
     return mask
 
 

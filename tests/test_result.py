@@ -210,3 +210,35 @@ def test_binary_volume_pct_real_library_vs_coolprop():
     t = quantify_composition(table, "mass_pct", load_library(), default_settings()).table
     v_h = 100 * (50 / rho_h) / (50 / rho_h + 50 / rho_t)
     assert t.set_index("name").loc["n-heptane", "vol_pct"] == pytest.approx(v_h, abs=0.2)
+
+
+def test_property_models_run_in_order_and_failures_become_warnings(monkeypatch):
+    # the interface of dha/properties/__init__.py: compute(composition, library, settings)
+    import sys
+    import types
+
+    import dha.properties
+    from dha.pipeline import run_properties
+    good = types.ModuleType("fake_bulk")
+    good.compute = lambda comp, lib, s: PropertyResult(
+        values={"mean_molar_mass_g_mol": float(100.0 / (comp["mass_pct"] / comp["molar_mass_g_mol"]).sum())})
+    bad = types.ModuleType("fake_broken")
+
+    def broken(comp, lib, s):
+        raise ZeroDivisionError("no data")
+    bad.compute = broken
+    monkeypatch.setitem(sys.modules, "fake_bulk", good)
+    monkeypatch.setitem(sys.modules, "fake_broken", bad)
+    monkeypatch.setattr(dha.properties, "MODELS", ("fake_bulk", "fake_broken"))
+    lib, s = tiny_library(), default_settings()
+    table = pd.DataFrame({"row": [1, 2], "component": ["toluene", "n-heptane"], "amount": [50.0, 50.0]})
+    q = quantify_composition(table, "mol_pct", lib, s)
+    props = run_properties(q.table, lib, s)
+    assert [name for name, _ in props] == ["fake_bulk", "fake_broken"]
+    run = Run(source_file="x.csv", injection=None, sample={}, kind="composition", table=table,
+              basis="mol_pct", import_log=[])
+    r = build_result(run, q, group_totals(q.table, lib, s), props, lib, s)
+    # equimolar blend: mean molar mass = (M_toluene + M_heptane)/2 (definition of the mean)
+    m = lib.components["molar_mass_g_mol"]
+    assert r["properties"]["mean_molar_mass_g_mol"] == pytest.approx((m["toluene"] + m["n-heptane"]) / 2)
+    assert any("fake_broken failed" in w for w in r["warnings"])

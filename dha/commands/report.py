@@ -79,7 +79,14 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
             raise InputError(f"{path}: could not be processed ({type(err).__name__}: {err}); "
                              "run with -vv for details") from err
         for stem, result in results:
-            written = write_outputs(result, out_dir, stem, formats, overwrite=overwrite)
+            try:
+                written = write_outputs(result, out_dir, stem, formats, overwrite=overwrite)
+            except DhaError:
+                raise
+            except Exception as err:  # noqa: BLE001 - the edge: one line, never a traceback
+                log.debug("unexpected error writing %s", stem, exc_info=True)
+                raise InputError(f"{stem}: output could not be written ({type(err).__name__}: "
+                                 f"{err}); run with -vv for details") from err
             failed_checks += sum(1 for c in result.get("checks", []) if c.get("verdict") == "fail")
             shown = ", ".join(str(p) for p in written) or f"{stem}: nothing written"
             click.echo(f"{shown}  {_headline(result)}")

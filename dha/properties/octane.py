@@ -1,0 +1,832 @@
+"""Octane numbers (RON, MON, AKI, sensitivity) of a petrol from its composition.
+
+Three blending models, chosen with settings ``[octane] model``:
+
+``linear_volume``
+    RON = sum of volume fraction x neat RON (the same for MON).
+``linear_mole``
+    Each hydrocarbon group (paraffins, olefins, naphthenes, aromatics) is a lump whose octane
+    number is the volume average of its members; the lumps and every oxygenate blend linearly
+    **by mole** (Anderson, Kramer, Mueller and Wallington, Energy Fuels 24 (2010) 6576 for
+    ethanol and methanol; Knop et al. found the same for toluene reference fuels). Inside the
+    paraffin lump blending is by volume, so primary reference fuels keep their definition.
+``interaction`` (default)
+    Our own model in the family of Ghosh, Hickey and Jaffe (Ind. Eng. Chem. Res. 45 (2006) 337:
+    lump octane numbers weighted by lump-specific factors, plus interaction terms) and of Twu and
+    Coon's pairwise interaction method, with oxygenates weighted by mole as in Anderson et al.
+    (2010) and an oxygenate-base interaction term as in Anderson and Wallington (Energy Fuels
+    2020, ON = (1 - x) ON_base + x ON_oxy + Z x (1 - x)). See :func:`blend` for the equations.
+    Parameters are fitted by ``scripts/fit_octane.py`` on open data and stored in
+    ``octane_params.json`` beside this module.
+
+Components without a measured neat octane number get an estimate (:func:`estimate_neat`) from
+group, carbon number and structure; the result reports the volume share resting on estimates.
+A lab calibration (``[octane] calibration``, a JSON file written by ``dha octane calibrate``)
+corrects the model with the lab's own engine results.
+
+The scale itself is defined by the primary reference fuels: RON = MON = volume % isooctane in
+n-heptane (ASTM D2699 / D2700). Every model here reproduces it exactly. A calculated octane
+number is an estimate; only an engine test certifies it.
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import io
+import json
+import logging
+import math
+import re
+from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from dha.errors import CalibrationError, LibraryError, SettingsError
+from dha.properties import PropertyResult
+
+log = logging.getLogger("dha.octane")
+
+PARAMS_FILE = Path(__file__).with_name("octane_params.json")
+MODEL_NAMES = ("linear_volume", "linear_mole", "interaction")
+PROPERTIES = ("ron", "mon")
+
+#: Blending classes ("lumps"). Paraffins (normal and iso) are one class: the reference-fuel scale.
+HYDROCARBON_CLASSES = ("paraffin", "olefin", "naphthene", "aromatic")
+OXYGENATE_CLASSES = ("alcohol", "ether")
+CLASSES = HYDROCARBON_CLASSES + OXYGENATE_CLASSES
+
+#: Partner classes of the ``interaction`` model's suppression term: a hydrocarbon with an octane
+#: deficit d_i = max(0, 100 - ON_i)/100 (1 for n-heptane, 0 for isooctane) blends higher when
+#: components of another class are present: + k_c * z_i * d_i * Z_c for every class c other
+#: than the class of i. No term within a class: paraffins among themselves stay linear by
+#: volume, which keeps the PRF scale exact.
+INTERACTION_PAIRS = tuple(("deficit", c) for c in CLASSES)
+
+#: Oxygenate-base terms (Anderson and Wallington 2020 form Z x (1 - x)): + k * Z_c (1 - Z_c).
+OXYGENATE_PAIRS = tuple((c, "rest") for c in OXYGENATE_CLASSES)
+
+#: Volume share [%] resting on estimated neat values above which a warning is given
+#: (common practice, no source).
+ESTIMATED_SHARE_WARN_PCT = 10.0
+
+#: Molar volume used as the hydrocarbon base when a sample has no hydrocarbon [cm3/mol]
+#: (only then; any value gives the same result for an oxygenate-only sample of one species).
+_DEFAULT_BASE_MOLAR_VOLUME_CM3_MOL = 130.0
+
+
+# --------------------------------------------------------------------------------------------
+# Structure from SMILES (a small reader for the organic subset; no external package needed)
+# --------------------------------------------------------------------------------------------
+
+_ATOM_RE = re.compile(r"\[[^\]]+\]|Br|Cl|[BCNOPSFI]|[bcnops]|[=#:\-/\\]|\(|\)|%\d\d|\d|\.")
+
+
+@dataclass(frozen=True)
+class Structure:
+    """Counts read from a SMILES string (heavy atoms only).
+
+    n_c, n_o : carbon and oxygen atoms
+    n_ch3 : carbons with one heavy neighbour joined by a single bond (methyl ends)
+    n_tertiary, n_quaternary : sp3 carbons with three / four carbon neighbours
+    n_double, n_double_terminal : C=C double bonds, of them with a =CH2 end
+    n_triple : C#C triple bonds
+    n_rings : ring closures
+    n_aromatic_c : aromatic carbons
+    alcohol : an O bonded to one carbon only (OH); ether : an O bonded to two carbons
+    """
+
+    n_c: int
+    n_o: int
+    n_ch3: int
+    n_tertiary: int
+    n_quaternary: int
+    n_double: int
+    n_double_terminal: int
+    n_triple: int
+    n_rings: int
+    n_aromatic_c: int
+    alcohol: bool
+    ether: bool
+
+
+@lru_cache(maxsize=4096)
+def parse_smiles(smiles: str) -> Structure:
+    """Count carbons, branching, unsaturation and oxygen functions in a SMILES string.
+
+    Parameters
+    ----------
+    smiles : str
+        SMILES of a hydrocarbon or oxygenate (organic subset, bracket atoms allowed).
+
+    Returns
+    -------
+    Structure
+
+    Examples
+    --------
+    >>> s = parse_smiles("CC(C)CC(C)(C)C")        # isooctane
+    >>> (s.n_c, s.n_ch3, s.n_tertiary, s.n_quaternary)
+    (8, 5, 1, 1)
+    >>> parse_smiles("C=CCCCC").n_double_terminal   # 1-hexene
+    1
+    >>> parse_smiles("CCO").alcohol, parse_smiles("COC(C)(C)C").ether
+    (True, True)
+    """
+    if not isinstance(smiles, str) or not smiles.strip():
+        raise LibraryError(f"empty SMILES {smiles!r}; give the component a SMILES in the library")
+    atoms: list[tuple[str, bool]] = []          # (element, aromatic)
+    bonds: list[tuple[int, int, int]] = []      # (i, j, order; 4 = aromatic)
+    stack: list[int] = []
+    rings: dict[str, tuple[int, int | None]] = {}
+    prev: int | None = None
+    pending = 0
+    n_ring_closures = 0
+    pos = 0
+    text = smiles.strip()
+    for tok in _ATOM_RE.finditer(text):
+        if tok.start() != pos:
+            raise LibraryError(f"SMILES {smiles!r}: cannot read {text[pos:tok.start()]!r}")
+        pos = tok.end()
+        t = tok.group()
+        if t == "(":
+            stack.append(prev)
+        elif t == ")":
+            prev = stack.pop() if stack else prev
+        elif t in "=#:-/\\":
+            pending = {"=": 2, "#": 3, ":": 4}.get(t, 1)
+        elif t == ".":
+            prev = None
+        elif t[0].isdigit() or t[0] == "%":
+            key = t.lstrip("%")
+            if key in rings:
+                j, order = rings.pop(key)
+                o = pending or order or (4 if atoms[prev][1] and atoms[j][1] else 1)
+                bonds.append((j, prev, o))
+                n_ring_closures += 1
+            else:
+                rings[key] = (prev, pending or None)
+            pending = 0
+        else:
+            if t.startswith("["):
+                m = re.match(r"\[\d*([A-Za-z][a-z]?)", t)
+                sym = m.group(1) if m else "X"
+            else:
+                sym = t
+            aromatic = sym[0].islower()
+            element = sym.capitalize() if aromatic else sym
+            atoms.append((element, aromatic))
+            idx = len(atoms) - 1
+            if prev is not None:
+                o = pending or (4 if aromatic and atoms[prev][1] else 1)
+                bonds.append((prev, idx, o))
+            pending = 0
+            prev = idx
+    if pos != len(text):
+        raise LibraryError(f"SMILES {smiles!r}: cannot read {text[pos:]!r}")
+    nbrs: list[list[tuple[int, int]]] = [[] for _ in atoms]
+    for i, j, o in bonds:
+        nbrs[i].append((j, o))
+        nbrs[j].append((i, o))
+    n_ch3 = n_tert = n_quat = n_dbl = n_dbl_term = n_tri = 0
+    alcohol = ether = False
+    for i, (el, aro) in enumerate(atoms):
+        if el == "C" and not aro:
+            c_nbrs = [(j, o) for j, o in nbrs[i] if atoms[j][0] == "C"]
+            if len(nbrs[i]) == 1 and nbrs[i][0][1] == 1:
+                n_ch3 += 1
+            if all(o == 1 for _, o in nbrs[i]):
+                if len(c_nbrs) == 3:
+                    n_tert += 1
+                elif len(c_nbrs) == 4:
+                    n_quat += 1
+        if el == "O" and not aro:
+            n_carbon = sum(1 for j, o in nbrs[i] if atoms[j][0] == "C" and o == 1)
+            alcohol |= n_carbon == 1 and len(nbrs[i]) == 1
+            ether |= n_carbon == 2
+    for i, j, o in bonds:
+        if atoms[i][0] == atoms[j][0] == "C":
+            if o == 2:
+                n_dbl += 1
+                if len(nbrs[i]) == 1 or len(nbrs[j]) == 1:
+                    n_dbl_term += 1
+            elif o == 3:
+                n_tri += 1
+    return Structure(
+        n_c=sum(1 for el, _ in atoms if el == "C"), n_o=sum(1 for el, _ in atoms if el == "O"),
+        n_ch3=n_ch3, n_tertiary=n_tert, n_quaternary=n_quat, n_double=n_dbl,
+        n_double_terminal=n_dbl_term, n_triple=n_tri, n_rings=n_ring_closures,
+        n_aromatic_c=sum(1 for el, aro in atoms if el == "C" and aro), alcohol=alcohol, ether=ether)
+
+
+def blending_class(group: str, smiles: str | None = None, subgroup: str | None = None) -> str:
+    """The blending class of a component from its library group (and subgroup / SMILES).
+
+    >>> blending_class("isoparaffins"), blending_class("oxygenates", "COC(C)(C)C")
+    ('paraffin', 'ether')
+    """
+    g = str(group)
+    if g in ("n_paraffins", "isoparaffins", "unidentified"):
+        return "paraffin"
+    if g in ("olefins", "naphthenes", "aromatics"):
+        return g[:-1]
+    if g == "oxygenates":
+        if isinstance(subgroup, str) and subgroup in ("alcohol", "ether"):
+            return subgroup
+        if isinstance(smiles, str) and smiles:
+            return "ether" if parse_smiles(smiles).ether else "alcohol"
+        return "alcohol"
+    raise LibraryError(f"unknown group {group!r}; expected one of n_paraffins, isoparaffins, "
+                       "olefins, naphthenes, aromatics, oxygenates")
+
+
+def two_methyl_alkane_smiles(carbon_number: int) -> str:
+    """SMILES of the 2-methylalkane with ``carbon_number`` carbons (stand-in for unknown peaks).
+
+    >>> two_methyl_alkane_smiles(6)
+    'CC(C)CCC'
+    """
+    n = max(int(carbon_number), 4)
+    return "CC(C)" + "C" * (n - 3)
+
+
+# --------------------------------------------------------------------------------------------
+# Estimated neat octane numbers
+# --------------------------------------------------------------------------------------------
+
+_ESTIMATOR_CLASSES = ("saturated", "olefin", "naphthene", "aromatic", "oxygenate")
+_RIDGE_LAMBDA = 1.0
+
+
+def _estimator_class(group: str) -> str:
+    if group in ("n_paraffins", "isoparaffins", "unidentified"):
+        return "saturated"
+    if group == "oxygenates":
+        return "oxygenate"
+    return blending_class(group)
+
+
+def structure_features(group: str, smiles: str) -> np.ndarray:
+    """Regression features of the neat-value estimator (see :func:`fit_neat_estimator`)."""
+    s = parse_smiles(smiles)
+    cls = _estimator_class(group)
+    onehot = [1.0 if cls == c else 0.0 for c in _ESTIMATOR_CLASSES]
+    by_class_c = [s.n_c if cls == c else 0.0 for c in _ESTIMATOR_CLASSES]
+    n_c = max(s.n_c, 1)
+    side_methyls = s.n_ch3 - (0 if s.n_rings else 2) - (1 if s.n_double_terminal else 0)
+    return np.array(onehot + by_class_c + [
+        max(side_methyls, 0) / n_c * 10.0,     # branching per carbon
+        s.n_quaternary, s.n_tertiary,
+        s.n_double - s.n_double_terminal, s.n_double_terminal, s.n_triple,
+        1.0 if s.alcohol else 0.0, 1.0 if s.ether else 0.0,
+    ], dtype=float)
+
+
+@dataclass(frozen=True)
+class NeatEstimator:
+    """A ridge regression of neat octane number on structure, fitted on the library.
+
+    coef : regression coefficients [octane number per feature]
+    loo_rmse : leave-one-out RMSE on the library's measured values [octane number]
+    n : number of measured values used
+    """
+
+    prop: str
+    coef: tuple[float, ...]
+    loo_rmse: float
+    n: int
+
+    def predict(self, group: str, smiles: str) -> float:
+        """Estimated neat octane number, bounded to [-20, 130]."""
+        return float(np.clip(structure_features(group, smiles) @ np.array(self.coef), -20, 130))
+
+
+def fit_neat_estimator(components: pd.DataFrame, prop: str) -> NeatEstimator:
+    r"""Fit the neat-value estimator on the measured values of a component table.
+
+    Parameters
+    ----------
+    components : DataFrame
+        Columns ``group``, ``smiles`` and ``prop`` (blank = not measured).
+    prop : {"ron", "mon"}
+
+    Returns
+    -------
+    NeatEstimator
+
+    Notes
+    -----
+    Linear in: a class intercept and a class slope on carbon number (classes saturated,
+    olefin, naphthene, aromatic, oxygenate), side methyl groups per 10 carbons, quaternary and
+    tertiary carbons, internal and terminal C=C, C#C, alcohol and ether. Ridge penalty
+    :math:`\lambda = 1` on all coefficients; the leave-one-out residual is
+    :math:`e_i / (1 - h_{ii})` with the ridge hat matrix
+    :math:`H = X (X^T X + \lambda I)^{-1} X^T` (exact for ridge regression).
+    Our own design; the features follow the known trends (branching raises, chain length
+    lowers the octane number of paraffins; DOMAIN.md section 6).
+    """
+    rows = components.dropna(subset=[prop])
+    rows = rows[rows["smiles"].fillna("").astype(str).str.len() > 0]
+    if len(rows) < 20:
+        raise LibraryError(f"only {len(rows)} components with a measured {prop}; the neat-value "
+                           "estimator needs at least 20")
+    x = np.vstack([structure_features(g, s) for g, s in zip(rows["group"], rows["smiles"])])
+    y = rows[prop].astype(float).to_numpy()
+    a = x.T @ x + _RIDGE_LAMBDA * np.eye(x.shape[1])
+    coef = np.linalg.solve(a, x.T @ y)
+    hat = np.einsum("ij,ji->i", x, np.linalg.solve(a, x.T))
+    loo = (y - x @ coef) / (1.0 - hat)
+    return NeatEstimator(prop, tuple(float(c) for c in coef),
+                         float(np.sqrt(np.mean(loo ** 2))), int(len(y)))
+
+
+@lru_cache(maxsize=8)
+def _estimators_for(key: str, table_json: str) -> dict[str, NeatEstimator]:
+    comps = pd.read_json(io.StringIO(table_json), orient="split")
+    return {p: fit_neat_estimator(comps, p) for p in PROPERTIES}
+
+
+def neat_estimators(components: pd.DataFrame) -> dict[str, NeatEstimator]:
+    """Estimators for RON and MON fitted on ``components`` (cached per table content)."""
+    cols = components.reindex(columns=["group", "smiles", "ron", "mon"])
+    blob = cols.to_json(orient="split")
+    return _estimators_for(str(hash(blob)), blob)
+
+
+def estimate_neat(group: str, smiles: str, components: pd.DataFrame, prop: str) -> float:
+    """Estimated neat RON or MON of a structure, from the library's measured values.
+
+    >>> import pandas as pd
+    >>> lib = pd.DataFrame({"group": ["n_paraffins"] * 5 + ["isoparaffins"] * 15 + ["aromatics"] * 5,
+    ...     "smiles": ["CCCCC", "CCCCCC", "CCCCCCC", "CCCCCCCC", "CCCCCCCCC"]
+    ...       + ["CC(C)" + "C" * k for k in range(1, 6)] + ["CC(C)(C)" + "C" * k for k in range(1, 6)]
+    ...       + ["CC(C)C(C)" + "C" * k for k in range(1, 6)]
+    ...       + ["c1ccccc1C" + "C" * k for k in range(5)],
+    ...     "ron": [62, 25, 0, -19, -45, 92, 73, 42, 21, 0, 92, 92, 73, 55, 40, 104, 91, 65, 53, 35,
+    ...             120, 108, 101, 98, 94], "mon": [62.0] * 25})
+    >>> round(estimate_neat("isoparaffins", "CC(C)CCCCC", lib, "ron")) < 40
+    True
+    """
+    return neat_estimators(components)[prop].predict(group, smiles)
+
+
+# --------------------------------------------------------------------------------------------
+# The blending models
+# --------------------------------------------------------------------------------------------
+
+def _class_matrix(classes: list[str]) -> dict[str, np.ndarray]:
+    c = np.asarray(classes)
+    out = {k: (c == k).astype(float) for k in CLASSES}
+    out["hydrocarbon"] = np.isin(c, HYDROCARBON_CLASSES).astype(float)
+    out["oxygenate"] = np.isin(c, OXYGENATE_CLASSES).astype(float)
+    return out
+
+
+def blend(vol_frac: np.ndarray, neat_on: np.ndarray, molar_volume_cm3_mol: np.ndarray,
+          classes: list[str], model: str, params: dict[str, Any] | None = None) -> np.ndarray:
+    r"""Octane number of one or many blends.
+
+    Parameters
+    ----------
+    vol_frac : array (n_blends, n_components) or (n_components,)
+        Volume fractions [-] (rows are normalised to sum 1).
+    neat_on : array (n_components,)
+        Neat octane numbers of the components (RON or MON) [-].
+    molar_volume_cm3_mol : array (n_components,)
+        Molar volumes at 15 degC [cm3/mol].
+    classes : list of str
+        Blending class of each component (:data:`CLASSES`).
+    model : {"linear_volume", "linear_mole", "interaction"}
+    params : dict, optional
+        For ``interaction``: ``{"beta": {class: value}, "gamma": {class: value},
+        "k": {name: value}, "deficit_power": q}``; missing entries mean beta = gamma = 1,
+        k = 0, q = 1.
+
+    Returns
+    -------
+    array (n_blends,) or float
+
+    Notes
+    -----
+    Lumps: each hydrocarbon class c (paraffins, olefins, naphthenes, aromatics) is one lump
+    with molar volume :math:`V_c = \sum_{i\in c}\phi_i / \sum_{i\in c}(\phi_i/V_i)`; inside a
+    lump its members weigh by volume. Lumps and oxygenates weigh by moles:
+
+    .. math:: w_i = \beta_c\,\phi_i / V_c \;(i \in c),\qquad w_i = \gamma_c\,\phi_i / V_i
+              \;(\text{oxygenates}),\qquad z_i = w_i / \sum_j w_j
+
+    ``linear_mole`` is :math:`ON = \sum_i z_i ON_i` with all :math:`\beta = \gamma = 1`
+    (Anderson et al. 2010 for alcohols; lumps by mole). ``interaction`` adds, with the octane
+    deficit :math:`d_i = \max(0, (100 - ON_i)/100)^q` of each hydrocarbon, its class sums
+    :math:`D_c = \sum_{i \in c} z_i d_i`, :math:`D = \sum_c D_c` and the class fractions
+    :math:`Z_c = \sum_{i\in c} z_i`,
+
+    .. math:: ON = \sum_i z_i ON_i + \sum_c k_c\,(D - D_c)\,Z_c
+              + \sum_{o \in \{alcohol, ether\}} k_o\,Z_o (1 - Z_o)
+
+    The first sum is a suppression term: a low-octane hydrocarbon (n-heptane) blends higher
+    in the presence of another class (lump weights and pairwise terms in the spirit of Ghosh,
+    Hickey and Jaffe 2006 and Twu and Coon); the last is the oxygenate-base term of Anderson
+    and Wallington (Energy Fuels 2020). ``linear_volume`` is :math:`\sum \phi_i ON_i`.
+    Paraffins only blend among themselves by volume in every model (no paraffin-paraffin
+    term), so a primary reference fuel gives exactly its volume % isooctane (ASTM D2699/D2700).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> v = np.array([165.0, 147.0])     # isooctane, n-heptane molar volumes [cm3/mol]
+    >>> round(float(blend(np.array([0.9, 0.1]), np.array([100.0, 0.0]), v,
+    ...                   ["paraffin", "paraffin"], "linear_mole")), 6)
+    90.0
+    """
+    phi = np.atleast_2d(np.asarray(vol_frac, dtype=float))
+    phi = phi / phi.sum(axis=1, keepdims=True)
+    on = np.asarray(neat_on, dtype=float)
+    vm = np.asarray(molar_volume_cm3_mol, dtype=float)
+    cm = _class_matrix(list(classes))
+    single = np.asarray(vol_frac).ndim == 1
+    if model == "linear_volume":
+        out = phi @ on
+        return float(out[0]) if single else out
+    if model not in ("linear_mole", "interaction"):
+        raise SettingsError(f"[octane] model = {model!r} is not known; use one of "
+                            f"{', '.join(MODEL_NAMES)}")
+    hc = cm["hydrocarbon"]
+    hc_vol = phi @ hc
+    hc_mol = phi @ (hc / vm)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        v_base = np.where(hc_mol > 0, hc_vol / hc_mol, _DEFAULT_BASE_MOLAR_VOLUME_CM3_MOL)
+    # lumps: each hydrocarbon class by volume inside, lumps and oxygenates by mole.
+    # lump molar volume V_c = sum(phi_i, c) / sum(phi_i / V_i, c); weight = moles of the lump
+    p = params or {}
+    beta = p.get("beta", {})
+    gamma = p.get("gamma", {})
+    k = p.get("k", {}) if model == "interaction" else {}
+    w = np.zeros_like(phi)
+    for c in HYDROCARBON_CLASSES:
+        m = cm[c]
+        vol_c = phi @ m
+        mol_c = phi @ (m / vm)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            vc = np.where(mol_c > 0, vol_c / mol_c, 1.0)
+        f = float(beta.get(c, 1.0)) if model == "interaction" else 1.0
+        w += f * phi * m[None, :] / vc[:, None]
+    for c in OXYGENATE_CLASSES:
+        f = float(gamma.get(c, 1.0)) if model == "interaction" else 1.0
+        w += f * phi * (cm[c] / vm)[None, :]
+    z = w / w.sum(axis=1, keepdims=True)
+    out = z @ on
+    power = float(p.get("deficit_power", 1.0))
+    deficit = cm["hydrocarbon"] * np.clip((100.0 - on) / 100.0, 0.0, None) ** power
+    d_total = z @ deficit
+    for _, c in INTERACTION_PAIRS:
+        kc = float(k.get(f"deficit*{c}", 0.0))
+        if kc and cm[c].any():
+            out = out + kc * (d_total - z @ (deficit * cm[c])) * (z @ cm[c])
+    for c, _ in OXYGENATE_PAIRS:
+        kc = float(k.get(f"{c}*rest", 0.0))
+        if kc and cm[c].any():
+            zc = z @ cm[c]
+            out = out + kc * zc * (1.0 - zc)
+    return float(out[0]) if single else out
+
+
+# --------------------------------------------------------------------------------------------
+# Parameters, calibration
+# --------------------------------------------------------------------------------------------
+
+@lru_cache(maxsize=4)
+def _read_params(path: str) -> dict[str, Any]:
+    try:
+        with open(path, encoding="utf-8") as fh:
+            return json.load(fh)
+    except FileNotFoundError:
+        raise LibraryError(f"{path}: octane parameter file missing; run "
+                           "`python scripts/fit_octane.py`") from None
+
+
+def load_params(path: str | Path | None = None) -> dict[str, Any]:
+    """The fitted parameter file (``octane_params.json``) as a dict."""
+    return _read_params(str(path or PARAMS_FILE))
+
+
+def model_params(model: str, prop: str, params: dict[str, Any] | None = None) -> dict[str, Any]:
+    """Blending parameters of ``model`` for ``prop`` from the parameter file (empty if none)."""
+    if model not in MODEL_NAMES:
+        raise SettingsError(f"[octane] model = {model!r} is not known; use one of "
+                            f"{', '.join(MODEL_NAMES)}")
+    p = params if params is not None else load_params()
+    return p.get("models", {}).get(model, {}).get(prop, {}).get("params", {})
+
+
+CALIBRATION_FORMAT = "dha-octane-calibration/1"
+#: Parameters of each calibration kind; a fit needs n >= 2 p + 1 samples (two per fitted
+#: number, plus one so that a leave-one-out error exists): bias 3, slope 5, groups 11.
+CALIBRATION_TERMS = {
+    "bias": ("bias",),
+    "slope": ("bias", "slope"),
+    "groups": ("bias", "aromatics", "olefins", "naphthenes", "oxygenates"),
+}
+
+
+def calibration_min_samples(kind: str) -> int:
+    """Smallest number of samples a calibration of ``kind`` accepts (2 p + 1).
+
+    >>> [calibration_min_samples(k) for k in ("bias", "slope", "groups")]
+    [3, 5, 11]
+    """
+    if kind not in CALIBRATION_TERMS:
+        raise CalibrationError(f"calibration kind {kind!r} is not known; use bias, slope or groups")
+    return 2 * len(CALIBRATION_TERMS[kind]) + 1
+
+
+def calibration_design(kind: str, predicted: np.ndarray, group_vol_frac: pd.DataFrame | None
+                       ) -> np.ndarray:
+    """Design matrix of a calibration: the correction is ``X @ coef`` added to the model value.
+
+    For ``slope`` the corrected value is ``bias + slope * predicted``, written here as the
+    correction ``bias + (slope - 1) * predicted``.
+    """
+    n = len(predicted)
+    if kind == "bias":
+        return np.ones((n, 1))
+    if kind == "slope":
+        return np.column_stack([np.ones(n), np.asarray(predicted, float)])
+    cols = [np.ones(n)]
+    for g in CALIBRATION_TERMS["groups"][1:]:
+        cols.append(np.asarray(group_vol_frac[g], float) if group_vol_frac is not None
+                    and g in group_vol_frac else np.zeros(n))
+    return np.column_stack(cols)
+
+
+def fit_calibration(kind: str, predicted: np.ndarray, measured: np.ndarray,
+                    group_vol_frac: pd.DataFrame | None = None, prop: str = "ron"
+                    ) -> dict[str, Any]:
+    r"""Fit a lab correction of model values to measured engine values.
+
+    Parameters
+    ----------
+    kind : {"bias", "slope", "groups"}
+    predicted, measured : arrays [octane number]
+    group_vol_frac : DataFrame, optional
+        Volume fractions [-] of aromatics, olefins, naphthenes, oxygenates (for ``groups``).
+    prop : name used in messages.
+
+    Returns
+    -------
+    dict
+        ``coefficients`` (name -> value), ``n``, ``rmse_fit``, ``loo_rmse``, ``loo_residuals``.
+
+    Notes
+    -----
+    Ordinary least squares of :math:`y - \hat y_{model}` (bias, groups) or of :math:`y`
+    (slope) on the design; the leave-one-out residual is :math:`e_i / (1 - h_{ii})`
+    (exact for least squares). Refuses fewer than :func:`calibration_min_samples` samples.
+
+    Examples
+    --------
+    >>> r = fit_calibration("bias", [90.0, 92.0, 94.0], [91.0, 93.5, 94.5])
+    >>> r["coefficients"]["bias"], round(r["loo_rmse"], 4)
+    (1.0, 0.6124)
+    """
+    predicted = np.asarray(predicted, dtype=float)
+    measured = np.asarray(measured, dtype=float)
+    need = calibration_min_samples(kind)
+    n = len(measured)
+    if n < need:
+        raise CalibrationError(
+            f"{prop}: {n} sample(s) with a measured {prop.upper()}; a '{kind}' calibration needs "
+            f"at least {need} (rule n >= 2 x {len(CALIBRATION_TERMS[kind])} parameters + 1). "
+            "Add samples or choose a simpler --kind.")
+    x = calibration_design(kind, predicted, group_vol_frac)
+    y = measured if kind == "slope" else measured - predicted
+    coef, *_ = np.linalg.lstsq(x, y, rcond=None)
+    rank = np.linalg.matrix_rank(x)
+    if rank < x.shape[1]:
+        raise CalibrationError(f"{prop}: the samples do not vary enough to fit a '{kind}' "
+                               "calibration (e.g. same predicted value or no group spread); "
+                               "use a simpler --kind")
+    resid = y - x @ coef
+    hat = np.einsum("ij,ji->i", x, np.linalg.pinv(x.T @ x) @ x.T)
+    if np.any(hat > 1 - 1e-9):
+        raise CalibrationError(f"{prop}: one sample alone fixes a parameter (leverage 1); "
+                               "the leave-one-out error cannot be computed; add samples")
+    loo = resid / (1.0 - hat)
+    names = CALIBRATION_TERMS[kind]
+    return {"coefficients": {nm: float(c) for nm, c in zip(names, coef)}, "n": int(n),
+            "rmse_fit": float(np.sqrt(np.mean(resid ** 2))),
+            "loo_rmse": float(np.sqrt(np.mean(loo ** 2))),
+            "loo_residuals": [float(v) for v in loo]}
+
+
+def apply_calibration(value: float, prop_cal: dict[str, Any], kind: str,
+                      group_vol_frac: dict[str, float] | None = None) -> float:
+    """Corrected value from a fitted calibration entry (see :func:`fit_calibration`)."""
+    c = prop_cal["coefficients"]
+    if kind == "bias":
+        return value + c["bias"]
+    if kind == "slope":
+        return c["bias"] + c["slope"] * value
+    gv = group_vol_frac or {}
+    return value + c["bias"] + sum(c[g] * gv.get(g, 0.0) for g in CALIBRATION_TERMS["groups"][1:])
+
+
+def load_calibration(path: str | Path, model: str) -> dict[str, Any]:
+    """Read a calibration file and check it applies to ``model``."""
+    path = Path(path)
+    try:
+        cal = json.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise CalibrationError(f"{path}: calibration file not found; check [octane] "
+                               "calibration") from None
+    except json.JSONDecodeError as err:
+        raise CalibrationError(f"{path}: not a JSON calibration file ({err})") from None
+    if cal.get("format") != CALIBRATION_FORMAT:
+        raise CalibrationError(f"{path}: format {cal.get('format')!r} is not "
+                               f"{CALIBRATION_FORMAT!r}; write it with `dha octane calibrate`")
+    if cal.get("model") != model:
+        raise CalibrationError(f"{path}: calibration was fitted for model {cal.get('model')!r} "
+                               f"but [octane] model is {model!r}; refit or change the model")
+    return cal
+
+
+# --------------------------------------------------------------------------------------------
+# From a composition table to model inputs
+# --------------------------------------------------------------------------------------------
+
+def _lib_row(comps: pd.DataFrame, name: Any) -> pd.Series | None:
+    if isinstance(name, str) and name in comps.index:
+        row = comps.loc[name]
+        return row.iloc[0] if isinstance(row, pd.DataFrame) else row
+    return None
+
+
+def model_inputs(composition: pd.DataFrame, components: pd.DataFrame) -> pd.DataFrame:
+    """One row per composition row with what the models need.
+
+    Columns: ``name``, ``vol_frac`` [-], ``molar_volume_cm3_mol``, ``class``, ``group``,
+    ``ron``, ``mon`` (neat values), ``ron_estimated``, ``mon_estimated`` (bool).
+    Rows are looked up by ``model_component`` (else ``component``/``name``); an unknown name
+    is treated as the 2-methylalkane of the row's carbon number with estimated values.
+    """
+    if "vol_pct" not in composition:
+        raise LibraryError("composition table has no vol_pct column; run the quantify stage")
+    rows = []
+    estimators: dict[str, NeatEstimator] = {}
+    for _, r in composition.iterrows():
+        key = None
+        for col in ("model_component", "component", "name"):
+            v = r.get(col)
+            if isinstance(v, str) and v in components.index:
+                key = v
+                break
+        lib = _lib_row(components, key)
+        if lib is not None:
+            group = str(lib.get("group"))
+            smiles = lib.get("smiles") if isinstance(lib.get("smiles"), str) else None
+            subgroup = lib.get("subgroup") if isinstance(lib.get("subgroup"), str) else None
+            mm = lib.get("molar_mass_g_mol")
+            dens = lib.get("density_15c_kg_m3")
+            neat = {p: lib.get(p) for p in PROPERTIES}
+        else:
+            cn = r.get("carbon_number")
+            cn = int(cn) if pd.notna(cn) else 7
+            group, smiles, subgroup = "isoparaffins", two_methyl_alkane_smiles(cn), "alkane"
+            mm = 14.027 * cn + 2.016
+            dens = np.nan
+            neat = {p: np.nan for p in PROPERTIES}
+        mm = r.get("molar_mass_g_mol") if pd.isna(mm) else mm
+        dens = r.get("density_kg_m3") if pd.isna(dens) else dens
+        if pd.isna(dens) or pd.isna(mm):
+            # molar volume only matters for oxygenate weights; a typical petrol value
+            vm = _DEFAULT_BASE_MOLAR_VOLUME_CM3_MOL
+        else:
+            vm = float(mm) / float(dens) * 1000.0
+        out = {"name": key or r.get("name"), "vol_frac": float(r["vol_pct"]) / 100.0,
+               "molar_volume_cm3_mol": vm, "group": group,
+               "class": blending_class(group, smiles, subgroup)}
+        for p in PROPERTIES:
+            v = neat[p]
+            est = pd.isna(v)
+            if est:
+                if not smiles:
+                    raise LibraryError(f"component {key!r} has no measured {p} and no SMILES to "
+                                       "estimate it from; add either to the library")
+                if not estimators:
+                    estimators = neat_estimators(components)
+                v = estimators[p].predict(group, smiles)
+            out[p] = float(v)
+            out[f"{p}_estimated"] = bool(est)
+        rows.append(out)
+    return pd.DataFrame(rows)
+
+
+def _group_vol_frac(inputs: pd.DataFrame) -> dict[str, float]:
+    total = inputs["vol_frac"].sum()
+    out = {}
+    for g in CALIBRATION_TERMS["groups"][1:]:
+        out[g] = float(inputs.loc[inputs["group"] == g, "vol_frac"].sum() / total)
+    return out
+
+
+def predict_inputs(inputs: pd.DataFrame, model: str, params: dict[str, Any] | None = None
+                   ) -> dict[str, float]:
+    """RON and MON of one sample from :func:`model_inputs` (uncalibrated)."""
+    p = params if params is not None else load_params()
+    out = {}
+    for prop in PROPERTIES:
+        out[prop] = blend(inputs["vol_frac"].to_numpy(), inputs[prop].to_numpy(),
+                          inputs["molar_volume_cm3_mol"].to_numpy(), list(inputs["class"]),
+                          model, model_params(model, prop, p))
+    return out
+
+
+def compute(composition: pd.DataFrame, library, settings: dict[str, Any]) -> PropertyResult:
+    """RON, MON, AKI and sensitivity of a sample, with uncertainties.
+
+    Parameters
+    ----------
+    composition : DataFrame
+        Composition table (DEVELOPERS.md): ``vol_pct`` and ``model_component`` are used.
+    library : Library
+        Component library (``components`` indexed by name: group, subgroup, smiles,
+        molar_mass_g_mol, density_15c_kg_m3, ron, mon).
+    settings : dict
+        Full settings; reads ``settings["octane"]["model"]`` and ``["calibration"]``.
+
+    Returns
+    -------
+    PropertyResult
+        values ``ron``, ``mon``, ``aki`` = (RON + MON)/2, ``sensitivity`` = RON - MON;
+        uncertainty = the model's cross-validated RMSE on held-out mixture families (or the
+        calibration's leave-one-out RMSE), widened by the volume share on estimated neat
+        values times the estimator's leave-one-out RMSE (added in quadrature). AKI and
+        sensitivity uncertainties assume independent RON and MON errors.
+    """
+    cfg = settings.get("octane", {}) if settings else {}
+    model = cfg.get("model", "interaction")
+    cal_path = cfg.get("calibration", "") or ""
+    if model not in MODEL_NAMES:
+        raise SettingsError(f"[octane] model = {model!r} is not known; use one of "
+                            f"{', '.join(MODEL_NAMES)}")
+    result = PropertyResult()
+    comps = library.components
+    if composition is None or len(composition) == 0 or composition["vol_pct"].fillna(0).sum() <= 0:
+        for key in ("ron", "mon", "aki", "sensitivity"):
+            result.values[key] = None
+            result.uncertainty[key] = None
+        result.warnings.append("octane: empty composition; no octane number computed")
+        return result
+    comp = composition[composition["vol_pct"].fillna(0) > 0]
+    inputs = model_inputs(comp, comps)
+    params = load_params()
+    values = predict_inputs(inputs, model, params)
+    mp = params.get("models", {}).get(model, {})
+    unc = {p: float(mp.get(p, {}).get("cv_rmse", float("nan"))) for p in PROPERTIES}
+    total = inputs["vol_frac"].sum()
+    est = neat_estimators(comps)
+    shares = {}
+    for p in PROPERTIES:
+        share = float(inputs.loc[inputs[f"{p}_estimated"], "vol_frac"].sum() / total)
+        shares[p] = 100.0 * share
+        unc[p] = math.hypot(unc[p], share * est[p].loo_rmse)
+        if shares[p] > ESTIMATED_SHARE_WARN_PCT:
+            result.warnings.append(
+                f"octane: {shares[p]:.1f} % v/v of the sample rests on estimated neat "
+                f"{p.upper()} values (no measured value in the library); the {p.upper()} is "
+                "less certain")
+    calibrated = None
+    if cal_path:
+        cal = load_calibration(cal_path, model)
+        gv = _group_vol_frac(inputs)
+        for p in PROPERTIES:
+            entry = cal.get("properties", {}).get(p)
+            if entry:
+                values[p] = apply_calibration(values[p], entry, cal["kind"], gv)
+                unc[p] = math.hypot(entry["loo_rmse"], shares[p] / 100 * est[p].loo_rmse)
+        calibrated = {"file": str(cal_path), "kind": cal["kind"], "date": cal.get("date"),
+                      "properties": sorted(cal.get("properties", {}))}
+    ron, mon = values["ron"], values["mon"]
+    result.values.update({"ron": ron, "mon": mon, "aki": (ron + mon) / 2.0,
+                          "sensitivity": ron - mon})
+    result.uncertainty.update({
+        "ron": unc["ron"], "mon": unc["mon"],
+        "aki": 0.5 * math.hypot(unc["ron"], unc["mon"]),
+        "sensitivity": math.hypot(unc["ron"], unc["mon"])})
+    if ron > 120 or mon > 120 or ron < -20 or mon < -20:
+        result.warnings.append(f"octane: RON {ron:.1f} / MON {mon:.1f} lie far outside the "
+                               "range the models were checked on")
+    estimated = inputs.loc[inputs["ron_estimated"] | inputs["mon_estimated"]]
+    result.details.update({
+        "octane_model": model,
+        "octane_params_fitted": params.get("fitted"),
+        "octane_estimated_share_vol_pct": shares,
+        "octane_estimated_components": sorted(set(map(str, estimated["name"]))),
+        "octane_neat_estimator_loo_rmse": {p: est[p].loo_rmse for p in PROPERTIES},
+        "octane_calibration": calibrated,
+        "octane_uncertainty_basis": ("calibration leave-one-out RMSE" if calibrated else
+                                     "cross-validated RMSE on held-out mixture families"),
+    })
+    return result

@@ -1,0 +1,551 @@
+"""Fitting and validation of the octane models on open mixture data, and lab calibration.
+
+Data (copied unchanged into ``octane_data/``, provenance in ``octane_data/PROVENANCE.md``):
+
+* ``mixtures_mon_training.csv`` -- 293 mixtures with measured MON, mole fractions
+  (KUZ2022_MON: Kuzhagaliyeva et al., Communications Chemistry 5 (2022) 111; CC BY 4.0).
+* ``surrogate_oxygenate_blends_ron_mon_training.csv`` -- a 4-component surrogate with
+  ethanol, methanol, butanols and diisobutylene at 10/20/30 % v/v; measured RON and MON
+  (COOPTIMA, NREL Co-Optima fuel property database; BSD-3-clause style).
+
+Data decisions (also printed by ``dha octane validate``):
+
+* The ten rows labelled "PRFnn" (isooctane + n-heptane only) are left out: they
+  restate the scale's definition (their MON equals their label), and their fractions are
+  volume fractions mislabelled as mole fractions (e.g. "PRF50" is 0.50/0.50 with MON 50, which
+  by mole would be 52.9 by volume); one of them ("PRF10") has MON 0.0, a data error.
+* The COOPTIMA base is isooctane 45.8, toluene 33.0, n-heptane 14.2, 1-hexene 5.0 (sums to 98,
+  basis not stated): we read it as % v/v, normalised to 100; the additive is placed by its
+  stated mass %. Diisobutylene is taken as 3:1 2,4,4-trimethyl-1-pentene : -2-pentene.
+* Folds for cross-validation are mixture *groups*: the family read from the label (TPRF, MC,
+  TRF, PRF, SF-AR, SF-P, SF-N, SF-OL, Hex, TMB, CP, Surr, S4) combined with the oxygenate added
+  (none, ethanol, MTBE, ...). Each group is held out in turn (leave-one-group-out); no row of a
+  held-out group is seen in the fit.
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import io
+import json
+import logging
+import re
+from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+from scipy.optimize import least_squares
+
+from dha.errors import CalibrationError, InputError, LibraryError
+from dha.properties import octane as oc
+
+log = logging.getLogger("dha.octane_fit")
+
+DATA_DIR = Path(__file__).with_name("octane_data")
+MON_FILE = DATA_DIR / "mixtures_mon_training.csv"
+SURROGATE_FILE = DATA_DIR / "surrogate_oxygenate_blends_ron_mon_training.csv"
+FALLBACK_FILE = DATA_DIR / "mixture_components.csv"
+
+#: Free parameters of the interaction model for MON (names "beta:<class>", "gamma:<class>",
+#: "k:<a>*<b>"), their neutral values (linear by volume / oxygenates by mole, no interaction)
+#: and the ridge prior width: a deviation of one "scale" costs as much as 1 ON of residual
+#: across SCALE_ROWS rows. The prior keeps poorly determined terms near neutral.
+PARAM_SPEC = {
+    **{f"k:deficit*{c}": (0.0, 50.0) for c in oc.CLASSES},
+    **{f"k:{c}*rest": (0.0, 20.0) for c in oc.OXYGENATE_CLASSES},
+    "beta:aromatic": (1.0, 1.0),
+}
+#: MON: the six suppression coefficients and the two oxygenate-base terms.
+MON_FITTED = tuple(f"k:deficit*{c}" for c in oc.CLASSES) + tuple(
+    f"k:{c}*rest" for c in oc.OXYGENATE_CLASSES)
+PRIOR_WEIGHT = 1.0
+
+#: Families of KUZ2022_MON whose fractions we read as volume fractions although labelled
+#: "mol": their labels state "x vol%", and the additive's fraction follows the nominal
+#: volume % whatever its molar volume (ethanol and isopropanol at "10 vol%" in SF-AR1 are
+#: 0.0992 and 0.0996; as mole fractions of a 10 % v/v blend they would be about 0.19 and 0.16).
+VOLUME_BASIS_FAMILIES = ("SF-AR", "SF-P", "SF-N", "SF-OL", "Surr", "PRF+", "Hex", "TMB", "CP")
+
+#: RON: the hydrocarbon weights and interactions are transferred from the MON fit; the RON
+#: data (15 COOPTIMA blends, one base) support at most one RON-specific number, the
+#: alcohol-hydrocarbon interaction, fitted and validated leave-one-additive-out.
+RON_FITTED = ("beta:aromatic", "k:alcohol*rest", "k:deficit*aromatic")
+RON_TRANSFERRED: tuple[str, ...] = ()
+
+
+# --------------------------------------------------------------------------------------------
+# Components of the data: library first, fallback file for the few the library lacks
+# --------------------------------------------------------------------------------------------
+
+def library_components(overlay=None) -> pd.DataFrame:
+    """The library's component table (indexed by name)."""
+    from dha.library import load_library
+    return load_library(overlay).components
+
+
+def data_components(components: pd.DataFrame) -> pd.DataFrame:
+    """Properties of every component in the data sets, indexed by CAS.
+
+    Columns: name (library name or the data's), smiles, group, subgroup, molar_volume_cm3_mol,
+    class, ron, mon, ron_estimated, mon_estimated, in_library.
+    """
+    fb = pd.read_csv(FALLBACK_FILE, dtype={"cas": str})
+    lib = components.reset_index()
+    lib_by_cas = lib.dropna(subset=["cas"]).drop_duplicates("cas").set_index("cas")
+    est = oc.neat_estimators(components)
+    rows = []
+    for _, f in fb.iterrows():
+        if f.cas in lib_by_cas.index:
+            r = lib_by_cas.loc[f.cas]
+            name, smiles, group = r["name"], r["smiles"], r["group"]
+            subgroup = r.get("subgroup")
+            vm = float(r["molar_mass_g_mol"]) / float(r["density_15c_kg_m3"]) * 1000.0
+            neat = {p: r.get(p) for p in oc.PROPERTIES}
+            in_lib = True
+        else:
+            name, smiles = f["name"], f["smiles"]
+            s = oc.parse_smiles(smiles)
+            if s.n_o:
+                group, subgroup = "oxygenates", "ether" if s.ether else "alcohol"
+            elif s.n_double or s.n_triple:
+                group, subgroup = "olefins", "alkene"
+            elif s.n_aromatic_c:
+                group, subgroup = "aromatics", "monoaromatic"
+            elif s.n_rings:
+                group, subgroup = "naphthenes", "cycloalkane"
+            else:
+                group = "isoparaffins" if s.n_ch3 > 2 else "n_paraffins"
+                subgroup = "alkane"
+            vm = float(f["molar_mass_g_mol"]) / float(f["density_15c_kg_m3"]) * 1000.0
+            neat = {p: np.nan for p in oc.PROPERTIES}
+            in_lib = False
+        row = {"cas": f.cas, "name": name, "smiles": smiles, "group": group,
+               "subgroup": subgroup, "molar_volume_cm3_mol": vm, "in_library": in_lib,
+               "class": oc.blending_class(group, smiles, subgroup)}
+        for p in oc.PROPERTIES:
+            v = neat[p]
+            row[f"{p}_estimated"] = bool(pd.isna(v))
+            row[p] = float(est[p].predict(group, smiles)) if pd.isna(v) else float(v)
+        rows.append(row)
+    return pd.DataFrame(rows).set_index("cas")
+
+
+# --------------------------------------------------------------------------------------------
+# The mixtures
+# --------------------------------------------------------------------------------------------
+
+def _family(label: str) -> str:
+    lab = label.strip()
+    if lab.startswith("Surr"):
+        return "Surr"
+    m = re.match(r"(SF-[A-Z]+|TPRF|TRF|PRF\+|PRF|MC|Hex|TMB|CP)", lab)
+    return m.group(1) if m else lab.split()[0]
+
+
+@dataclass(frozen=True)
+class MixtureData:
+    """Mixtures as matrices over the components of the data.
+
+    info : one row per mixture (mixture_id, label, family, group, source, ron, mon)
+    mol_frac, vol_frac : DataFrames (mixtures x CAS), rows sum to 1
+    comps : :func:`data_components` of the columns
+    excluded : DataFrame of rows left out, with the reason
+    """
+
+    info: pd.DataFrame
+    mol_frac: pd.DataFrame
+    vol_frac: pd.DataFrame
+    comps: pd.DataFrame
+    excluded: pd.DataFrame
+
+
+def _surrogate_mass_fractions(comps: pd.DataFrame, row: pd.Series) -> dict[str, float]:
+    base_vol = {"540-84-1": 45.8, "108-88-3": 33.0, "142-82-5": 14.2, "592-41-6": 5.0}
+    additive = {"ethanol": {"64-17-5": 1.0}, "methanol": {"67-56-1": 1.0},
+                "1-butanol": {"71-36-3": 1.0}, "2-methyl-1-propanol": {"78-83-1": 1.0},
+                "diisobutylene 3:1 mixture of isomers": {"107-39-1": 0.75, "107-40-4": 0.25},
+                "none": {}}[row["additive"]]
+    # density from molar volume: rho = M / V; use the fallback file's molar masses
+    fb = pd.read_csv(FALLBACK_FILE, dtype={"cas": str}).set_index("cas")
+    mass = {c: v * fb.loc[c, "molar_mass_g_mol"] / comps.loc[c, "molar_volume_cm3_mol"]
+            for c, v in base_vol.items()}
+    tot = sum(mass.values())
+    w_add = float(row["additive_wt_pct"]) / 100.0
+    out = {c: m / tot * (1 - w_add) for c, m in mass.items()}
+    for c, share in additive.items():
+        out[c] = out.get(c, 0.0) + w_add * share
+    return out
+
+
+@lru_cache(maxsize=4)
+def _load_mixtures_cached(comps_json: str) -> MixtureData:
+    comps = pd.read_json(io.StringIO(comps_json), orient="split")
+    comps.index = comps.index.astype(str)
+    fb = pd.read_csv(FALLBACK_FILE, dtype={"cas": str}).set_index("cas")
+    mm = fb["molar_mass_g_mol"]
+    raw = pd.read_csv(MON_FILE, dtype={"component_cas": str})
+    oxy_names = {"64-17-5": "ethanol", "1634-04-4": "MTBE", "67-63-0": "isopropanol",
+                 "71-36-3": "n-butanol", "556-82-1": "prenol"}
+    info, fracs, excluded = [], [], []
+    for mid, g in raw.groupby("mixture_id", sort=True):
+        label = g["mixture_label"].iloc[0]
+        cas = set(g["component_cas"])
+        if re.fullmatch(r"PRF\d+", label.strip()) and cas <= {"540-84-1", "142-82-5"}:
+            excluded.append({"mixture_id": mid, "label": label, "mon": g["mon"].iloc[0],
+                             "reason": "primary reference fuel: restates the scale definition "
+                                       "(volume fractions labelled mole)"
+                                       + ("; MON 0.0 is a data error" if g["mon"].iloc[0] == 0
+                                          and "PRF10" in label else "")})
+            continue
+        x = g.groupby("component_cas")["fraction"].sum()
+        x = x / x.sum()
+        oxy = sorted(oxy_names[c] for c in x.index if c in oxy_names and x[c] > 0)
+        fam = _family(label)
+        info.append({"mixture_id": mid, "label": label, "family": fam,
+                     "group": fam + "/" + ("+".join(oxy) if oxy else "none"),
+                     "source": "KUZ2022_MON", "ron": np.nan, "mon": float(g["mon"].iloc[0])})
+        fracs.append(x.rename(mid))
+    sur = pd.read_csv(SURROGATE_FILE)
+    for _, r in sur.iterrows():
+        w = _surrogate_mass_fractions(comps, r)
+        mol = pd.Series({c: v / mm[c] for c, v in w.items()})
+        mol = mol / mol.sum()
+        add = "none" if r["additive"] == "none" else r["additive"]
+        short = {"diisobutylene 3:1 mixture of isomers": "diisobutylene"}.get(add, add)
+        info.append({"mixture_id": r["case_id"], "label": f"S4 + {r['additive_nominal_vol_pct']} "
+                     f"% v/v {short}", "family": "S4", "group": "S4/" + short,
+                     "source": "COOPTIMA", "ron": float(r["RON"]) if pd.notna(r["RON"]) else np.nan,
+                     "mon": float(r["MON"]) if pd.notna(r["MON"]) else np.nan})
+        fracs.append(mol.rename(r["case_id"]))
+    frac = pd.DataFrame(fracs).fillna(0.0)
+    missing = [c for c in frac.columns if c not in comps.index]
+    if missing:
+        raise LibraryError(f"octane data: components {missing} not described; add them to "
+                           f"{FALLBACK_FILE.name}")
+    comps = comps.loc[list(frac.columns)]
+    info_df = pd.DataFrame(info).set_index("mixture_id")
+    by_volume = info_df["family"].isin(VOLUME_BASIS_FAMILIES).to_numpy()
+    vm = comps["molar_volume_cm3_mol"].to_numpy()
+    f = frac.to_numpy()
+    vol = np.where(by_volume[:, None], f, f * vm[None, :])
+    mol = np.where(by_volume[:, None], f / vm[None, :], f)
+    vol_frac = pd.DataFrame(vol / vol.sum(axis=1, keepdims=True), frac.index, frac.columns)
+    mol_frac = pd.DataFrame(mol / mol.sum(axis=1, keepdims=True), frac.index, frac.columns)
+    info_df["basis_read_as"] = np.where(by_volume, "vol", "mol")
+    for p in oc.PROPERTIES:
+        est = comps[f"{p}_estimated"].to_numpy()
+        info_df[f"{p}_estimated_share"] = (vol_frac.to_numpy() * est[None, :]).sum(axis=1)
+    return MixtureData(info_df, mol_frac, vol_frac, comps, pd.DataFrame(excluded))
+
+
+def load_mixtures(components: pd.DataFrame | None = None) -> MixtureData:
+    """The validation mixtures (MON: KUZ2022_MON + COOPTIMA; RON: COOPTIMA)."""
+    comps = data_components(library_components() if components is None else components)
+    return _load_mixtures_cached(comps.to_json(orient="split"))
+
+
+# --------------------------------------------------------------------------------------------
+# Fitting and cross-validation
+# --------------------------------------------------------------------------------------------
+
+DEFICIT_POWER = 3.0
+
+
+def theta_to_params(names: tuple[str, ...], theta: np.ndarray,
+                    base: dict[str, Any] | None = None) -> dict[str, Any]:
+    """Turn a parameter vector into the nested dict that :func:`octane.blend` takes."""
+    out = {"beta": {}, "gamma": {}, "k": {}, "deficit_power": DEFICIT_POWER}
+    if base:
+        for kind in ("beta", "gamma", "k"):
+            out[kind].update(base.get(kind, {}))
+        out["deficit_power"] = base.get("deficit_power", DEFICIT_POWER)
+    for nm, v in zip(names, theta):
+        kind, key = nm.split(":", 1)
+        out[kind][key] = float(v)
+    return out
+
+
+def params_to_theta(names: tuple[str, ...], params: dict[str, Any]) -> np.ndarray:
+    return np.array([params.get(n.split(":")[0], {}).get(n.split(":", 1)[1],
+                                                           PARAM_SPEC[n][0]) for n in names])
+
+
+def predict(data: MixtureData, prop: str, model: str, params: dict[str, Any] | None = None,
+            rows: np.ndarray | None = None) -> np.ndarray:
+    """Model values for the mixtures (all, or the boolean selection ``rows``)."""
+    phi = data.vol_frac.to_numpy()
+    if rows is not None:
+        phi = phi[rows]
+    c = data.comps
+    return oc.blend(phi, c[prop].to_numpy(), c["molar_volume_cm3_mol"].to_numpy(),
+                    list(c["class"]), model, params)
+
+
+def fit_interaction(data: MixtureData, prop: str, rows: np.ndarray,
+                    names: tuple[str, ...], base: dict[str, Any] | None = None
+                    ) -> dict[str, Any]:
+    """Least-squares fit of the interaction parameters ``names`` on the selected mixtures.
+
+    Residuals are (model - measured) over the rows plus a ridge prior
+    ``sqrt(PRIOR_WEIGHT) * (theta - neutral) / scale`` per parameter.
+    """
+    y = data.info[prop].to_numpy()[rows]
+    phi = data.vol_frac.to_numpy()[rows]
+    c = data.comps
+    on, vm, cls = c[prop].to_numpy(), c["molar_volume_cm3_mol"].to_numpy(), list(c["class"])
+    neutral = np.array([PARAM_SPEC[n][0] for n in names])
+    scale = np.array([PARAM_SPEC[n][1] for n in names])
+    start = params_to_theta(names, base or {}) if base else neutral.copy()
+
+    def resid(theta):
+        p = theta_to_params(names, theta, base)
+        r = oc.blend(phi, on, vm, cls, "interaction", p) - y
+        return np.concatenate([r, np.sqrt(PRIOR_WEIGHT) * (theta - neutral) / scale])
+
+    lower = np.array([0.2 if n.split(":")[0] in ("beta", "gamma") else -300.0 for n in names])
+    upper = np.array([5.0 if n.split(":")[0] in ("beta", "gamma") else 300.0 for n in names])
+    sol = least_squares(resid, np.clip(start, lower, upper), bounds=(lower, upper),
+                        x_scale=scale, method="trf")
+    return theta_to_params(names, sol.x, base)
+
+
+def fit_rows(data: MixtureData, prop: str) -> np.ndarray:
+    """Mixtures the fit uses: a measured ``prop`` and no component on an estimated neat value
+    (an estimate's error is not the blending model's; those rows are validated apart)."""
+    return (data.info[prop].notna() & (data.info[f"{prop}_estimated_share"] == 0)).to_numpy()
+
+
+def ron_base(p_mon: dict[str, Any]) -> dict[str, Any]:
+    """Starting point of the RON fit: the MON parameters named in RON_TRANSFERRED."""
+    out = {"beta": {}, "gamma": {}, "k": {}, "deficit_power": p_mon.get("deficit_power")}
+    for name in RON_TRANSFERRED:
+        kind, key = name.split(":", 1)
+        out[kind][key] = p_mon[kind][key]
+    return out
+
+
+def fit_all(data: MixtureData) -> dict[str, dict[str, Any]]:
+    """Interaction parameters for MON (all MON mixtures) and RON (transfer + RON_FITTED)."""
+    mon_rows = fit_rows(data, "mon")
+    p_mon = fit_interaction(data, "mon", mon_rows, MON_FITTED)
+    ron_rows = fit_rows(data, "ron")
+    p_ron = fit_interaction(data, "ron", ron_rows, RON_FITTED, base=ron_base(p_mon))
+    return {"mon": p_mon, "ron": p_ron}
+
+
+def cross_validate(data: MixtureData, model: str, prop: str) -> pd.DataFrame:
+    """Fitted (all data) and held-out (leave-one-group-out) predictions for ``prop``.
+
+    Returns a DataFrame over the mixtures with a measured ``prop``: label, family, group,
+    measured, fitted, held_out. For the linear models nothing is fitted: fitted = held_out.
+    For RON the held-out prediction leaves out the mixture's group from *both* the MON fit that
+    the RON model inherits and the RON-specific fit.
+    """
+    has = data.info[prop].notna().to_numpy()
+    info = data.info[has]
+    out = info[["label", "family", "group", "source"]].copy()
+    out["estimated_neat"] = (info[f"{prop}_estimated_share"] > 0).to_numpy()
+    out["measured"] = info[prop].to_numpy()
+    if model != "interaction":
+        pred = predict(data, prop, model, rows=has)
+        out["fitted"] = pred
+        out["held_out"] = pred
+        return out
+    full = fit_all(data)
+    out["fitted"] = predict(data, prop, model, full[prop], rows=has)
+    held = np.full(len(out), np.nan)
+    groups = data.info["group"].to_numpy()
+    mon_has = fit_rows(data, "mon")
+    ron_has = fit_rows(data, "ron")
+    idx_has = np.flatnonzero(has)
+    for g in pd.unique(info["group"]):
+        keep = groups != g
+        p = fit_interaction(data, "mon", mon_has & keep, MON_FITTED, base=full["mon"])
+        if prop == "ron":
+            p = fit_interaction(data, "ron", ron_has & keep, RON_FITTED, base=ron_base(p)) \
+                if (ron_has & keep).sum() >= 3 else p
+        test = has & ~keep
+        held[np.isin(idx_has, np.flatnonzero(test))] = predict(data, prop, model, p, rows=test)
+    out["held_out"] = held
+    return out
+
+
+def error_table(cv: dict[tuple[str, str], pd.DataFrame]) -> pd.DataFrame:
+    """RMSE, bias (mean of predicted - measured) and max |error| per model, property, family."""
+    recs = []
+    for (model, prop), df in cv.items():
+        known = df[~df["estimated_neat"]]
+        parts = [(fam, d) for fam, d in known.groupby("family", sort=True)] + [("ALL", known)]
+        est = df[df["estimated_neat"]]
+        if len(est):
+            parts += [(f"{fam}*", d) for fam, d in est.groupby("family", sort=True)]
+            parts += [("ALL*", est)]
+        for fam, d in parts:
+            rec = {"model": model, "property": prop.upper(), "family": fam, "n": len(d)}
+            for col in ("fitted", "held_out"):
+                e = d[col] - d["measured"]
+                rec[f"{col}_rmse"] = float(np.sqrt(np.mean(e ** 2)))
+                rec[f"{col}_bias"] = float(e.mean())
+                rec[f"{col}_max"] = float(e.abs().max())
+            recs.append(rec)
+    return pd.DataFrame(recs)
+
+
+def validate_all(data: MixtureData | None = None) -> tuple[pd.DataFrame, dict]:
+    """Cross-validated error table of every model (the ``dha octane validate`` table)."""
+    data = data or load_mixtures()
+    cv = {(m, p): cross_validate(data, m, p) for m in oc.MODEL_NAMES for p in ("mon", "ron")}
+    return error_table(cv), cv
+
+
+def format_table(table: pd.DataFrame) -> str:
+    """Plain-text rendering of :func:`error_table`."""
+    head = (f"{'model':<14}{'prop':<5}{'family':<8}{'n':>4}   "
+            f"{'fitted: rmse  bias   max':>25}   {'held-out: rmse  bias   max':>27}")
+    lines = [head, "-" * len(head)]
+    for _, r in table.iterrows():
+        lines.append(f"{r.model:<14}{r.property:<5}{r.family:<8}{r.n:>4}   "
+                     f"{r.fitted_rmse:>13.2f}{r.fitted_bias:>6.2f}{r.fitted_max:>6.1f}   "
+                     f"{r.held_out_rmse:>15.2f}{r.held_out_bias:>6.2f}{r.held_out_max:>6.1f}")
+    return "\n".join(lines)
+
+
+def build_params(data: MixtureData | None = None) -> dict[str, Any]:
+    """Everything ``octane_params.json`` holds: fitted parameters and cross-validated errors."""
+    data = data or load_mixtures()
+    table, _ = validate_all(data)
+    full = fit_all(data)
+    models: dict[str, Any] = {}
+    for m in oc.MODEL_NAMES:
+        models[m] = {}
+        for p in oc.PROPERTIES:
+            row = table[(table.model == m) & (table.property == p.upper())
+                        & (table.family == "ALL")].iloc[0]
+            models[m][p] = {"cv_rmse": round(float(row.held_out_rmse), 3),
+                            "fit_rmse": round(float(row.fitted_rmse), 3), "n": int(row.n)}
+            if m == "interaction":
+                models[m][p]["params"] = {
+                    k: ({kk: round(vv, 5) for kk, vv in v.items()} if isinstance(v, dict)
+                        else v) for k, v in full[p].items()}
+    comps = data.comps
+    return {
+        "format": "dha-octane-params/1",
+        "fitted": _dt.date.today().isoformat(),
+        "produced_by": "python scripts/fit_octane.py",
+        "data": {"mon_mixtures": int(data.info["mon"].notna().sum()),
+                 "ron_mixtures": int(data.info["ron"].notna().sum()),
+                 "groups": int(data.info["group"].nunique()),
+                 "excluded": data.excluded.to_dict(orient="records"),
+                 "sources": ["KUZ2022_MON (CC BY 4.0)", "COOPTIMA (BSD-3-clause style)"]},
+        "estimated_neat_values": {p: sorted(comps.index[comps[f"{p}_estimated"]].map(
+            lambda c: str(comps.loc[c, "name"]))) for p in oc.PROPERTIES},
+        "uncertainty": "cv_rmse = RMSE on held-out mixture groups (leave-one-group-out)",
+        "fitted_parameters": {"mon": list(MON_FITTED), "ron": list(RON_FITTED),
+                              "ron_transferred_from_mon": list(RON_TRANSFERRED),
+                              "deficit_power": DEFICIT_POWER},
+        "models": models,
+    }
+
+
+# --------------------------------------------------------------------------------------------
+# Lab calibration from a samples file
+# --------------------------------------------------------------------------------------------
+
+def _composition_from_file(path: Path, library) -> pd.DataFrame:
+    """A composition table (vol_pct, model_component, carbon_number) from a result JSON or a
+    composition file (``component`` + one of mass_pct / vol_pct / mol_pct)."""
+    if path.suffix.lower() == ".json":
+        try:
+            res = json.loads(path.read_text(encoding="utf-8"))
+        except (OSError, json.JSONDecodeError) as err:
+            raise InputError(f"{path}: cannot read the result JSON ({err})") from None
+        comps = pd.DataFrame(res.get("components", []))
+        if comps.empty or "vol_pct" not in comps:
+            raise InputError(f"{path}: result JSON has no components with vol_pct")
+        comps["model_component"] = comps.get("model_component", comps["name"])
+        return comps
+    try:
+        tab = pd.read_csv(path, sep=None, engine="python")
+    except (OSError, pd.errors.ParserError) as err:
+        raise InputError(f"{path}: cannot read the composition file ({err})") from None
+    bases = [b for b in ("mass_pct", "vol_pct", "mol_pct") if b in tab.columns]
+    if "component" not in tab.columns or len(bases) != 1:
+        raise InputError(f"{path}: a composition file needs a column 'component' and exactly one "
+                         "of mass_pct, vol_pct, mol_pct")
+    basis = bases[0]
+    lib = library.components
+    names = []
+    for i, text in enumerate(tab["component"], start=2):
+        nm = library.find(str(text))
+        if nm is None:
+            raise InputError(f"{path}, row {i}: component {text!r} not in the library; correct "
+                             "the name or add it to a library overlay")
+        names.append(nm)
+    amt = tab[basis].astype(float).to_numpy()
+    mm = lib.loc[names, "molar_mass_g_mol"].astype(float).to_numpy()
+    rho = lib.loc[names, "density_15c_kg_m3"].astype(float).to_numpy()
+    if basis == "mass_pct":
+        vol = amt / rho
+    elif basis == "mol_pct":
+        vol = amt * mm / rho
+    else:
+        vol = amt
+    return pd.DataFrame({"name": names, "model_component": names,
+                         "carbon_number": lib.loc[names, "carbon_number"].to_numpy(),
+                         "vol_pct": 100.0 * vol / vol.sum()})
+
+
+def calibrate_from_samples(samples_csv: str | Path, kind: str, library, settings: dict
+                           ) -> dict[str, Any]:
+    """Fit a lab calibration from a samples file.
+
+    The samples file has one row per sample: a column ``result`` (path of a result JSON) or
+    ``composition`` (path of a composition file), relative paths taken from the samples file's
+    folder, and ``ron`` and/or ``mon`` (measured engine values; blank = not measured).
+
+    Returns the calibration dict written as JSON (format ``dha-octane-calibration/1``).
+    """
+    samples_csv = Path(samples_csv)
+    try:
+        tab = pd.read_csv(samples_csv, sep=None, engine="python")
+    except (OSError, pd.errors.ParserError) as err:
+        raise InputError(f"{samples_csv}: cannot read the samples file ({err})") from None
+    tab.columns = [c.strip().lower() for c in tab.columns]
+    path_col = next((c for c in ("result", "composition") if c in tab.columns), None)
+    if path_col is None:
+        raise InputError(f"{samples_csv}: needs a column 'result' (result JSON path) or "
+                         "'composition' (composition file path)")
+    props = [p for p in oc.PROPERTIES if p in tab.columns]
+    if not props:
+        raise InputError(f"{samples_csv}: needs a column 'ron' and/or 'mon' with measured values")
+    model = settings.get("octane", {}).get("model", "interaction")
+    params = oc.load_params()
+    preds, gvs = [], []
+    for i, r in tab.iterrows():
+        p = Path(str(r[path_col]))
+        if not p.is_absolute():
+            p = samples_csv.parent / p
+        if not p.exists():
+            raise InputError(f"{samples_csv}, row {i + 2}, column {path_col}: file {p} not found")
+        comp = _composition_from_file(p, library)
+        comp = comp[comp["vol_pct"].fillna(0) > 0]
+        inputs = oc.model_inputs(comp, library.components)
+        preds.append(oc.predict_inputs(inputs, model, params))
+        gvs.append(oc._group_vol_frac(inputs))
+    pred = pd.DataFrame(preds)
+    gv = pd.DataFrame(gvs)
+    out_props = {}
+    for prop in props:
+        meas = pd.to_numeric(tab[prop], errors="coerce")
+        ok = meas.notna().to_numpy()
+        fit = oc.fit_calibration(kind, pred[prop].to_numpy()[ok], meas.to_numpy()[ok],
+                                 gv[ok].reset_index(drop=True), prop)
+        uncal = pred[prop].to_numpy()[ok] - meas.to_numpy()[ok]
+        fit["model_rmse_uncalibrated"] = float(np.sqrt(np.mean(uncal ** 2)))
+        out_props[prop] = fit
+    return {"format": oc.CALIBRATION_FORMAT, "model": model, "kind": kind,
+            "params_fitted": params.get("fitted"),
+            "date": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+            "samples_file": str(samples_csv), "properties": out_props}

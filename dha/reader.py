@@ -113,7 +113,7 @@ _TIME_UNITS = {"min": "min", "mins": "min", "minute": "min", "minutes": "min", "
 _SEPARATORS = {"tab": "\t", ";": ";", ",": ",", "whitespace": "  ", "space": " "}
 _TRY_ORDER = ("\t", ";", ",", "  ", " ")
 _UNIT_RE = re.compile(r"[\[(]([^\])]*)[\])]")
-_TOTAL_RE = r"^\s*(?:grand\s+)?(?:total|totals|sum|sums|summe|σ|∑)\b"
+_TOTAL_RE = r"^[ \t]*(?:grand[ \t]+)?(?:total|totals|sum|sums|summe|σ|∑)\b"
 _MAGIC = ((b"\x89PNG", "a PNG image"), (b"%PDF", "a PDF document"), (b"\xff\xd8\xff", "a JPEG image"),
           (b"GIF8", "a GIF image"), (b"\x1f\x8b", "a gzip archive"),
           (b"7z\xbc\xaf", "a 7-zip archive"), (b"Rar!", "a RAR archive"))
@@ -329,7 +329,7 @@ def _check_dupes(name: str, row: int, hdr: _Header) -> None:
                 f"or pin the one to use with [reader] columns = {{ {role} = \"<header>\" }}")
         log.warning("%s: columns %s all match %s; using the first", name,
                     [hdr.cells[i] for i in idx], role)
-    if hdr.kind is None and sum(b in hdr.roles for b in BASES) > 1:
+    if hdr.kind != "peaks" and sum(b in hdr.roles for b in BASES) > 1:
         cols = " and ".join(repr(hdr.cells[hdr.roles[b]]) for b in BASES if b in hdr.roles)
         raise InputError(
             f"{name}: ambiguous composition table at row {row}: {cols} are all amounts; keep one "
@@ -374,6 +374,12 @@ def _meta_pair(cells: list[Any], comma: bool = False) -> tuple[str, str | None] 
         if m and (len(vals) == 1 or not m.group(2)):
             rest = m.group(2) or (_meta_value(vals[1]) if len(vals) > 1 else None)
             return m.group(1).strip(), _meta_value(rest)
+        words = first.split()
+        if len(vals) == 1 and 2 <= len(words) <= 4 and len(words[-1]) > 1:
+            # "Sample HP-2351": a known sample key followed by one word
+            key = " ".join(words[:-1])
+            if _aliases().get(_norm_header(key)[0], "").startswith("sample."):
+                return key, words[-1]
         if len(vals) >= 2 and re.match(r"^[A-Za-z][\w .#/()\-]{0,40}:?$", first.strip()) and (
                 not comma or first.strip().endswith(":")
                 or _aliases().get(_norm_header(first)[0], "").startswith("sample.")):
@@ -424,11 +430,14 @@ def _text_meta_cells(line: str) -> tuple[list[str], bool]:
 # ----------------------------------------------------------------------------- numbers
 
 # Evidence for a decimal comma (point): the last mark is followed by other than three digits,
-# or a thousands-grouped number ends in it, or it follows a lone zero. "12,345" is no evidence.
+# or a thousands-grouped number ends in it, or it follows a lone zero or four or more ungrouped
+# digits ("12345,678"). "12,345" is no evidence either way.
 _DEC_COMMA = re.compile(r"^[-+\u2212]?[\d.\s'\u00a0\u202f]*\d,(?:\d{1,2}|\d{4,})$|"
-                        r"^[-+\u2212]?\d{1,3}(?:[.\s'\u00a0\u202f]\d{3})+,\d+$|^[-+\u2212]?0,\d+$")
+                        r"^[-+\u2212]?\d{1,3}(?:[.\s'\u00a0\u202f]\d{3})+,\d+$|"
+                        r"^[-+\u2212]?(?:0|\d{4,}),\d+$")
 _DEC_POINT = re.compile(r"^[-+\u2212]?[\d,\s'\u00a0\u202f]*\d\.(?:\d{1,2}|\d{4,})$|"
-                        r"^[-+\u2212]?\d{1,3}(?:[,\s'\u00a0\u202f]\d{3})+\.\d+$|^[-+\u2212]?0\.\d+$")
+                        r"^[-+\u2212]?\d{1,3}(?:[,\s'\u00a0\u202f]\d{3})+\.\d+$|"
+                        r"^[-+\u2212]?(?:0|\d{4,})\.\d+$")
 
 
 def _detect_decimal(samples: list[str]) -> str:
@@ -655,7 +664,7 @@ def _build_run(source: str, stem: str, injection: str | None, sample: dict[str, 
         table, basis = _peak_rows(hdr, texts, nums, free, mark, raw, line_arr, rs, logs,
                                   header_row, source)
     else:
-        table, basis = _composition_rows(hdr, texts, nums, mark, raw, line_arr), hdr.basis
+        table, basis = _composition_rows(hdr, texts, nums, free, mark, raw, line_arr), hdr.basis
     keep = free.copy()
     for i in np.flatnonzero(~keep):
         logs.append({"row": int(line_arr[i]), "action": "skipped", "reason": reason[i]})
@@ -737,7 +746,7 @@ def _peak_rows(hdr, cols, nums, free, mark, raw, line_arr, rs, logs, header_row,
     return pd.DataFrame(data), None
 
 
-def _composition_rows(hdr, cols, nums, mark, raw, line_arr):
+def _composition_rows(hdr, cols, nums, free, mark, raw, line_arr):
     n = len(line_arr)
     comp = cols.get("name") or [""] * n
     if cols.get("cas") is not None:
@@ -746,8 +755,10 @@ def _composition_rows(hdr, cols, nums, mark, raw, line_arr):
     mark(np.array([c == "" for c in comp], dtype=bool), "no component name or CAS number")
     mark(np.isnan(amount), raw(hdr.basis))
     mark(amount < 0, "negative amount")
-    return pd.DataFrame({"row": line_arr, "component": pd.Series(comp, dtype=object),
-                         "amount": amount})
+    keep = free.tolist()
+    return pd.DataFrame({"row": line_arr[free],
+                         "component": pd.Series([c for c, k in zip(comp, keep) if k], dtype=object),
+                         "amount": amount[free]})
 
 
 # ----------------------------------------------------------------------------- text files

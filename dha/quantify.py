@@ -324,6 +324,9 @@ def library_rrf(names, library, settings) -> pd.Series:
 def _physical(names: pd.Series, library, settings) -> tuple[pd.Series, pd.Series]:
     comps = library.components
     t_ref = float(settings.get("quantify", {}).get("reference_temperature_c", 15.0))
+    if not 0.0 <= t_ref <= 40.0:
+        raise SettingsError(f"[quantify] reference_temperature_c = {t_ref:g}: the density "
+                            "correction from 15 °C holds for 0-40 °C; use 15.0 or 15.56")
     mw = comps.loc[names.values, "molar_mass_g_mol"].astype(float).to_numpy()
     rho15 = comps.loc[names.values, "density_15c_kg_m3"].astype(float).to_numpy()
     missing = [n for n, r in zip(names, rho15) if not (r > 0)]

@@ -312,3 +312,17 @@ def test_density_at_60f_against_coolprop():
         r60 = CP.PropsSI("D", "T", 288.15 + 0.56, "Q", 0, fluid)
         assert density_at(r15, 15.56) / r15 == pytest.approx(r60 / r15, abs=1e-4)
     assert density_at(700.0, 15.0) == 700.0
+
+
+def test_reference_temperature_60f_changes_volume_pct_only_slightly(lib, settings):
+    # 60 °F = 15.56 °C (US practice, DOMAIN.md §4): densities shift by ~0.07 %, and the volume
+    # split of a heptane/toluene blend moves by far less than 0.01 % v/v
+    table = pd.DataFrame({"row": [1, 2], "component": ["n-heptane", "toluene"], "amount": [50.0, 50.0]})
+    v15 = quantify_composition(table, "mass_pct", lib, settings).table["vol_pct"]
+    settings["quantify"]["reference_temperature_c"] = 15.56
+    t60 = quantify_composition(table, "mass_pct", lib, settings).table
+    assert (t60["vol_pct"] - v15).abs().max() < 0.01
+    assert (t60["density_kg_m3"] < lib.components.loc[list(t60["name"]), "density_15c_kg_m3"].to_numpy()).all()
+    settings["quantify"]["reference_temperature_c"] = 60.0      # °F typed as °C: refused
+    with pytest.raises(SettingsError, match="reference_temperature_c"):
+        quantify_composition(table, "mass_pct", lib, settings)

@@ -103,12 +103,14 @@ def test_parameter_tables_match_thermo():
 
 
 def test_library_groups_build_a_model():
-    # Every component of the shipped library has groups the parameter tables know.
+    # Every component of the shipped library with groups (all but a handful, e.g. methane,
+    # which original UNIFAC has no group for) has groups the parameter tables know.
     from dha.library import load_library
 
     lib = load_library()
     groups = lib.unifac_groups
-    names = sorted(groups)
+    names = sorted(n for n, g in groups.items() if g)
+    assert len(names) >= 0.98 * len(groups)
     model = build_model([groups[n] for n in names], names=names)
     x = np.full(len(names), 1.0 / len(names))
     gamma = model.gamma(x, 310.93)

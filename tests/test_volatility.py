@@ -289,3 +289,18 @@ def test_flash_matches_thermo_flash_of_reference_report(lib, ethanol, activity, 
     if bubble_ref is not None:
         assert vol.total_vapour_pressure_kpa(mix, T_DVPE, 0.0) == pytest.approx(bubble_ref,
                                                                                 rel=0.005)
+
+
+def test_component_without_groups_takes_gamma_one(lib):
+    # Methane has no original-UNIFAC group in the library: a trace of it keeps UNIFAC for the
+    # rest (gamma = 1 for methane), a large share switches the whole mixture to ideal.
+    trace = composition(lib, splash_blend(10.0))
+    trace = pd.concat([trace, trace.iloc[[0]].assign(model_component="methane",
+                                                     mol_pct=0.1)])
+    res = vol.compute(trace, lib, settings())
+    assert res.details["model"]["activity"] == "unifac"
+    assert any("methane" in w and "gamma = 1 for them" in w for w in res.warnings)
+    lots = trace.copy()
+    lots.iloc[-1, lots.columns.get_loc("mol_pct")] = 20.0
+    mix = vol.mixture_from_composition(lots, lib, "unifac")
+    assert mix.unifac is None and "ideal solution" in mix.warnings[0]

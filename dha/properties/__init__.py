@@ -24,7 +24,8 @@ PROPERTY_KEYS = (
 
 #: Modules whose ``compute`` the pipeline runs, in this order. A module is added here only
 #: when its ``compute`` is real and tested.
-MODELS: tuple[str, ...] = ()
+MODELS: tuple[str, ...] = ("dha.properties.bulk", "dha.properties.volatility",
+                           "dha.properties.octane")
 
 
 @dataclass

@@ -76,6 +76,10 @@ RIAZI_DAUBERT_TBP_TO_D86_K = np.array([
     [90.0, 1.04643, 0.98912],
     [95.0, 1.21455, 0.96572],
 ])
+#: Components without UNIFAC groups (e.g. methane) up to this share [mol %] take gamma = 1
+#: while UNIFAC covers the rest (gamma computed over the rest, renormalised); above it the
+#: whole mixture is treated as ideal, with a warning.
+MAX_NO_GROUPS_MOL_PCT = 1.0
 #: Extra points of the distillation near its end [% evaporated].
 TAIL_VOL_PCT = np.array([95.0, 96.0, 97.0, 98.0, 98.5, 99.0, 99.5])
 #: Volume % evaporated at which the D86-like FBP is read (see module notes).
@@ -238,10 +242,17 @@ class Mixture:
     warnings: list[str] = field(default_factory=list)
     boiling_point_k: np.ndarray | None = None
 
+    #: Rows the UNIFAC model covers (None = all); the others take gamma = 1.
+    unifac_rows: np.ndarray | None = None
+
     def ln_gamma(self, x: np.ndarray, t_k: float) -> np.ndarray:
         if self.unifac is None:
             return np.zeros_like(x)
-        return self.unifac.ln_gamma(x, t_k)
+        if self.unifac_rows is None:
+            return self.unifac.ln_gamma(x, t_k)
+        out = np.zeros_like(x)
+        out[self.unifac_rows] = self.unifac.ln_gamma(x[self.unifac_rows], t_k)
+        return out
 
 
 def mixture_from_composition(composition: pd.DataFrame, library, activity: str = "unifac"
@@ -290,23 +301,33 @@ def mixture_from_composition(composition: pd.DataFrame, library, activity: str =
                            "15 °C or vapour-pressure correlation needed for volatility")
     warnings: list[str] = []
     model = None
+    rows = None
+    z = moles.to_numpy(float)
     if activity == "unifac":
         groups_all = library.unifac_groups
         groups = [groups_all.get(n) or {} for n in names]
-        no_groups = [n for n, g in zip(names, groups) if not g]
-        if no_groups:
+        has = np.array([bool(g) for g in groups])
+        share = float(z[~has].sum() / z.sum() * 100)
+        no_groups = [n for n, h in zip(names, has) if not h]
+        if share > MAX_NO_GROUPS_MOL_PCT or not has.any():
             warnings.append("volatility: no UNIFAC groups for " + ", ".join(no_groups[:5])
-                            + "; ideal solution (gamma = 1) used instead of UNIFAC")
+                            + f" ({share:.2f} mol %); ideal solution (gamma = 1) used for all")
         else:
-            model = build_model(groups, parameters_from_library(library), names)
+            if no_groups:
+                warnings.append("volatility: no UNIFAC groups for " + ", ".join(no_groups[:5])
+                                + f" ({share:.2f} mol %); gamma = 1 for them")
+                rows = np.flatnonzero(has)
+            model = build_model([g for g, h in zip(groups, has) if h],
+                                parameters_from_library(library),
+                                [n for n, h in zip(names, has) if h])
             if model.missing_pairs:
                 warnings.append("volatility: UNIFAC interaction parameters missing for "
                                 f"main-group pairs {list(model.missing_pairs)}; taken as 0")
-    z = moles.to_numpy(float)
     tb = (sub["boiling_point_c"].to_numpy(float) + 273.15 if "boiling_point_c" in sub.columns
           else None)
     # M [g/mol] / rho [kg/m3] = 1e-3 m3/mol
-    return Mixture(names, z / z.sum(), mm / rho * 1e-3, grid.take(pos), model, warnings, tb)
+    return Mixture(names, z / z.sum(), mm / rho * 1e-3, grid.take(pos), model, warnings, tb,
+                   rows)
 
 
 # -- phase calculations -------------------------------------------------------------------------

@@ -110,6 +110,28 @@ class Structure:
     n_aromatic_c: int
     alcohol: bool
     ether: bool
+    longest_chain: int = 0
+
+
+def _longest_path(nbrs: list[list[tuple[int, int]]], nodes: list[int]) -> int:
+    """Atoms on the longest path among ``nodes`` (double breadth-first sweep; exact for trees)."""
+    if not nodes:
+        return 0
+    allowed = set(nodes)
+
+    def far(start: int) -> tuple[int, int]:
+        dist = {start: 1}
+        queue = [start]
+        for a in queue:
+            for b, _ in nbrs[a]:
+                if b in allowed and b not in dist:
+                    dist[b] = dist[a] + 1
+                    queue.append(b)
+        end = max(dist, key=dist.get)
+        return end, dist[end]
+
+    end, _ = far(nodes[0])
+    return far(end)[1]
 
 
 @lru_cache(maxsize=4096)
@@ -218,7 +240,8 @@ def parse_smiles(smiles: str) -> Structure:
         n_c=sum(1 for el, _ in atoms if el == "C"), n_o=sum(1 for el, _ in atoms if el == "O"),
         n_ch3=n_ch3, n_tertiary=n_tert, n_quaternary=n_quat, n_double=n_dbl,
         n_double_terminal=n_dbl_term, n_triple=n_tri, n_rings=n_ring_closures,
-        n_aromatic_c=sum(1 for el, aro in atoms if el == "C" and aro), alcohol=alcohol, ether=ether)
+        n_aromatic_c=sum(1 for el, aro in atoms if el == "C" and aro), alcohol=alcohol, ether=ether,
+        longest_chain=_longest_path(nbrs, [i for i, (el, _) in enumerate(atoms) if el == "C"]))
 
 
 def blending_class(group: str, smiles: str | None = None, subgroup: str | None = None) -> str:
@@ -252,6 +275,21 @@ def two_methyl_alkane_smiles(carbon_number: int) -> str:
     return "CC(C)" + "C" * (n - 3)
 
 
+_ALKANE_STEMS = {3: "propane", 4: "butane", 5: "pentane", 6: "hexane", 7: "heptane",
+                 8: "octane", 9: "nonane", 10: "decane", 11: "undecane", 12: "dodecane",
+                 13: "tridecane", 14: "tetradecane"}
+
+
+def two_methyl_alkane_name(carbon_number: int) -> str | None:
+    """Library name of the 2-methylalkane with ``carbon_number`` carbons.
+
+    >>> two_methyl_alkane_name(9)
+    '2-methyloctane'
+    """
+    stem = _ALKANE_STEMS.get(int(carbon_number) - 1)
+    return f"2-methyl{stem}" if stem else None
+
+
 # --------------------------------------------------------------------------------------------
 # Estimated neat octane numbers
 # --------------------------------------------------------------------------------------------
@@ -273,7 +311,9 @@ def structure_features(group: str, smiles: str) -> np.ndarray:
     s = parse_smiles(smiles)
     cls = _estimator_class(group)
     onehot = [1.0 if cls == c else 0.0 for c in _ESTIMATOR_CLASSES]
-    by_class_c = [s.n_c if cls == c else 0.0 for c in _ESTIMATOR_CLASSES]
+    chain = float(s.longest_chain)
+    by_class_c = [chain if cls == c else 0.0 for c in _ESTIMATOR_CLASSES]
+    by_class_c += [chain ** 2 / 10.0 if cls == c else 0.0 for c in _ESTIMATOR_CLASSES]
     n_c = max(s.n_c, 1)
     side_methyls = s.n_ch3 - (0 if s.n_rings else 2) - (1 if s.n_double_terminal else 0)
     return np.array(onehot + by_class_c + [
@@ -318,8 +358,9 @@ def fit_neat_estimator(components: pd.DataFrame, prop: str) -> NeatEstimator:
 
     Notes
     -----
-    Linear in: a class intercept and a class slope on carbon number (classes saturated,
-    olefin, naphthene, aromatic, oxygenate), side methyl groups per 10 carbons, quaternary and
+    Linear in: a class intercept, a class slope and curvature on the longest carbon chain
+    (classes saturated, olefin, naphthene, aromatic, oxygenate), side methyl groups per 10
+    carbons, quaternary and
     tertiary carbons, internal and terminal C=C, C#C, alcohol and ether. Ridge penalty
     :math:`\lambda = 1` on all coefficients; the leave-one-out residual is
     :math:`e_i / (1 - h_{ii})` with the ridge hat matrix
@@ -682,6 +723,10 @@ def model_inputs(composition: pd.DataFrame, components: pd.DataFrame) -> pd.Data
             if isinstance(v, str) and v in components.index:
                 key = v
                 break
+        if key is None and pd.notna(r.get("carbon_number")):
+            # unidentified: the 2-methylalkane of its carbon number, if the library has it
+            key = two_methyl_alkane_name(int(r["carbon_number"]))
+            key = key if key in components.index else None
         lib = _lib_row(components, key)
         if lib is not None:
             group = str(lib.get("group"))

@@ -68,10 +68,12 @@ PRIOR_WEIGHT = 1.0
 #: 0.0992 and 0.0996; as mole fractions of a 10 % v/v blend they would be about 0.19 and 0.16).
 VOLUME_BASIS_FAMILIES = ("SF-AR", "SF-P", "SF-N", "SF-OL", "Surr", "PRF+", "Hex", "TMB", "CP")
 
-#: RON: the hydrocarbon weights and interactions are transferred from the MON fit; the RON
-#: data (15 COOPTIMA blends, one base) support at most one RON-specific number, the
-#: alcohol-hydrocarbon interaction, fitted and validated leave-one-additive-out.
-RON_FITTED = ("beta:aromatic", "k:alcohol*rest", "k:deficit*aromatic")
+#: RON: the only open RON mixture data are 15 COOPTIMA blends of one surrogate base. They
+#: support two RON-specific numbers at most: the aromatic lump weight (toluene's RON blends
+#: below its mole share) and the alcohol-base term; validated leave-one-additive-out. The MON
+#: suppression terms are NOT transferred (tried: transferring them raised the held-out RON
+#: error, because the MON n-heptane synergy is not seen in RON on this base).
+RON_FITTED = ("beta:aromatic", "k:alcohol*rest")
 RON_TRANSFERRED: tuple[str, ...] = ()
 
 
@@ -400,6 +402,26 @@ def validate_all(data: MixtureData | None = None) -> tuple[pd.DataFrame, dict]:
     return error_table(cv), cv
 
 
+def describe_data(data: MixtureData) -> str:
+    """What the validation data are and how they were read (printed above the table)."""
+    info = data.info
+    by_vol = sorted(info.loc[info["basis_read_as"] == "vol", "family"].unique())
+    lines = [
+        f"data: {int(info['mon'].notna().sum())} MON mixtures (KUZ2022_MON, CC BY 4.0; COOPTIMA "
+        f"S4), {int(info['ron'].notna().sum())} RON mixtures (COOPTIMA S4 surrogate only), "
+        f"{info['group'].nunique()} groups for leave-one-group-out",
+        f"fractions read as volume fractions (labels say vol%): {', '.join(by_vol)}; others "
+        "as mole fractions",
+        f"left out: {len(data.excluded)} PRFnn definition rows (one, PRF10, has MON 0.0)",
+        "MON: 8 parameters fitted on the mixtures without estimated neat values; RON: "
+        f"{len(RON_FITTED)} RON parameters ({', '.join(RON_FITTED)}) fitted on the 15 COOPTIMA "
+        "rows, nothing else from MON",
+        "families marked * rest on estimated neat values (not fitted on)",
+        "error = predicted - measured [octane number]",
+    ]
+    return "\n".join(lines)
+
+
 def format_table(table: pd.DataFrame) -> str:
     """Plain-text rendering of :func:`error_table`."""
     head = (f"{'model':<14}{'prop':<5}{'family':<8}{'n':>4}   "
@@ -517,7 +539,8 @@ def calibrate_from_samples(samples_csv: str | Path, kind: str, library, settings
     if path_col is None:
         raise InputError(f"{samples_csv}: needs a column 'result' (result JSON path) or "
                          "'composition' (composition file path)")
-    props = [p for p in oc.PROPERTIES if p in tab.columns]
+    props = [p for p in oc.PROPERTIES if p in tab.columns
+             and pd.to_numeric(tab[p], errors="coerce").notna().any()]
     if not props:
         raise InputError(f"{samples_csv}: needs a column 'ron' and/or 'mon' with measured values")
     model = settings.get("octane", {}).get("model", "interaction")

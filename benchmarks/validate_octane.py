@@ -1,0 +1,61 @@
+"""Validation of the octane models on open data: prints the table of `dha octane validate`,
+the neat-value estimator's leave-one-out error on the library, and its error on outside
+compounds (shared pure-component data not in the library).
+
+    python benchmarks/validate_octane.py [PURE_COMPONENTS_CSV]
+
+The optional argument is the shared open-data file octane/pure_components.csv (default:
+../shared/data/octane/pure_components.csv beside the repository, skipped if absent).
+"""
+from __future__ import annotations
+
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from dha.library import load_library
+from dha.properties import octane as oc
+from dha.properties import octane_fit as of
+
+
+def main(argv: list[str]) -> int:
+    t0 = time.perf_counter()
+    lib = load_library()
+    data = of.load_mixtures(lib.components)
+    table, _ = of.validate_all(data)
+    print(of.describe_data(data))
+    print(of.format_table(table))
+    print(f"(validation of 3 models x 2 properties: {time.perf_counter() - t0:.1f} s)")
+    est = oc.neat_estimators(lib.components)
+    print("\nneat-value estimator, leave-one-out on the library's measured values:")
+    for p, e in est.items():
+        print(f"  {p.upper()}: n {e.n}, LOO RMSE {e.loo_rmse:.1f}")
+    pure = Path(argv[1]) if len(argv) > 1 else (
+        Path(__file__).resolve().parents[1].parent / "shared/data/octane/pure_components.csv")
+    if not pure.exists():
+        print(f"\n{pure} not found: outside check of the estimator skipped")
+        return 0
+    p = pd.read_csv(pure, dtype={"cas": str})
+    p = p[p["flag"].isna() & ~p["cas"].isin(lib.components["cas"])]
+    groups = {"n-paraffin": "n_paraffins", "isoparaffin": "isoparaffins", "olefin": "olefins",
+              "naphthene": "naphthenes", "aromatic": "aromatics", "oxygenate": "oxygenates"}
+    p = p[p["compound_class"].isin(groups)]
+    print(f"\nestimator on {p['cas'].nunique()} outside compounds (pure_components.csv, not in "
+          "the library, unflagged; median over sources):")
+    for prop in oc.PROPERTIES:
+        q = p.dropna(subset=[prop]).groupby("cas").agg(
+            smiles=("smiles", "first"), cls=("compound_class", "first"), y=(prop, "median"))
+        pred = np.array([est[prop].predict(groups[c], s) for c, s in zip(q["cls"], q["smiles"])])
+        err = pred - q["y"].to_numpy()
+        print(f"  {prop.upper()}: n {len(q)}, RMSE {np.sqrt(np.mean(err ** 2)):.1f}, "
+              f"bias {err.mean():+.1f}, max |error| {np.abs(err).max():.1f}")
+        for cls, g in q.assign(err=err).groupby("cls"):
+            print(f"      {cls:<12} n {len(g):>3}  RMSE {np.sqrt(np.mean(g['err'] ** 2)):5.1f}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv))

@@ -998,6 +998,11 @@ def _grid_runs(sheets: list[tuple[str, list[list[Any]]]], path: Path,
     return runs
 
 
+def _flat(err: Exception) -> str:
+    """A library's error message on one short line."""
+    return " ".join(str(err).split())[:120]
+
+
 def _xlsx_sheets(data: bytes, path: Path) -> list[tuple[str, list[list[Any]]]]:
     import openpyxl
     try:
@@ -1009,7 +1014,7 @@ def _xlsx_sheets(data: bytes, path: Path) -> list[tuple[str, list[list[Any]]]]:
             wb.close()
     except Exception as err:  # corrupt archives raise many kinds of error
         raise InputError(f"{path}: cannot read the Excel workbook ({type(err).__name__}: "
-                         f"{str(err)[:120]}); save it again as .xlsx or export CSV") from None
+                         f"{_flat(err)}); save it again as .xlsx or export CSV") from None
 
 
 def _xls_sheets(data: bytes, path: Path) -> list[tuple[str, list[list[Any]]]]:
@@ -1035,7 +1040,7 @@ def _xls_sheets(data: bytes, path: Path) -> list[tuple[str, list[list[Any]]]]:
         return out
     except Exception as err:  # corrupt files raise many kinds of error
         raise InputError(f"{path}: cannot read the legacy Excel file ({type(err).__name__}: "
-                         f"{str(err)[:120]}); save it as .xlsx or export CSV") from None
+                         f"{_flat(err)}); save it as .xlsx or export CSV") from None
 
 
 # ----------------------------------------------------------------------------- entry point

@@ -260,6 +260,12 @@ def static_refs() -> None:
              "and coefficients up to 60 K below the lower end of its stated validity range (tmin_k lowered to "
              "300 K); checked against the Ambrose-Walton estimate in BUILD_REPORT.md",
         package="chemicals", version=CHEM_V, method="vapor_pressure tables", licence=LIC_TABLE)
+    ref("ambrose-walton-tb",
+        cite="Ambrose-Walton corresponding-states vapour pressure (Poling et al., The Properties of Gases and "
+             "Liquids, 5th ed., eq. 7-4.1) with Tc, Pc from chemicals and the acentric factor solved so that the "
+             "curve passes through the measured normal boiling point; an Antoine equation least-squares fitted "
+             "to it (range recorded in tmin_k/tmax_k). An estimate",
+        package="chemicals", version=CHEM_V, method="vapor_pressure.Ambrose_Walton + scipy", licence="MIT")
     ref("antoine-fit",
         cite="Antoine equation least-squares fitted (log10 kPa) over 250-400 K (within Tb±; range recorded) to "
              "the method named in the vapour-pressure row's note; an estimate when that method is a "
@@ -452,14 +458,34 @@ def validate_specs(specs: list[Spec]) -> None:
 # ---------------------------------------------------------------------------------------------
 # properties
 # ---------------------------------------------------------------------------------------------
+TB_REJECTED: dict[str, str] = {}
+
+
 def tb_value(cas: str):
+    """Measured normal boiling point: the first data table in TB_DATA order that agrees with the
+    other tables (within 3 K of their median) or, if it is the only one, with the Joback estimate
+    (within 35 K; catches reduced-pressure boiling points filed as normal ones)."""
     meths = chemicals.Tb_methods(cas)
+    vals = {}
     for mth in TB_DATA:
         if mth in meths:
             v = chemicals.Tb(cas, method=mth)
             if v:
-                return v, pkg_ref("chemicals", CHEM_V, f"Tb:{mth}", TB_CITES[mth], LIC_TABLE), mth
-    return None, None, None
+                vals[mth] = float(v)
+    if not vals:
+        return None, None, None
+    if len(vals) >= 2:
+        med = float(np.median(list(vals.values())))
+        ok = [m for m in TB_DATA if m in vals and abs(vals[m] - med) <= 3.0]
+    else:
+        ok = list(vals)
+    jb = chemicals.Tb(cas, method="JOBACK") if "JOBACK" in meths else None
+    ok = [m for m in ok if jb is None or abs(vals[m] - jb) <= 35.0 or len(vals) >= 3]
+    if not ok:
+        TB_REJECTED[cas] = ", ".join(f"{k} {v:.1f}" for k, v in vals.items()) + (f"; Joback {jb:.1f}" if jb else "")
+        return None, None, None
+    mth = ok[0]
+    return vals[mth], pkg_ref("chemicals", CHEM_V, f"Tb:{mth}", TB_CITES[mth], LIC_TABLE), mth
 
 
 def critical(cas: str):
@@ -486,6 +512,13 @@ def psat_choice(spec: Spec, mw: float, tb: float, report: list[str]):
     chosen = None
     for mth in PSAT_DIRECT:
         if mth in vals:
+            lo_, hi_ = vp.T_limits[mth]
+            if lo_ - 30.0 <= tb <= hi_ + 30.0:
+                p_tb = vp.calculate(tb, mth)
+                if not p_tb or abs(p_tb / 101325.0 - 1) > 0.03:
+                    report.append(f"- {spec.name}: {mth} skipped: gives {(p_tb or 0)/1e3:.1f} kPa at the "
+                                  f"measured normal boiling point {tb:.2f} K")
+                    continue
             if len(vals) >= 3 and abs(vals[mth] / med - 1) > PSAT_MEDIAN_TOL:
                 report.append(f"- {spec.name}: {mth} {vals[mth]/1e3:.3f} kPa differs >{100*PSAT_MEDIAN_TOL:g} % from the median "
                               f"{med/1e3:.3f} kPa of {len(vals)} data methods; skipped")
@@ -537,18 +570,38 @@ def psat_choice(spec: Spec, mw: float, tb: float, report: list[str]):
                          f"{100*(aw/v-1):+.1f} %" if aw else "")
         report.append(f"- {spec.name}: {row_d['note']}")
         return row_d, "extrapolated", vals
-    if vals:
-        basis = next(m for m in PSAT_CHECK + PSAT_DIRECT if m in vals)
+    basis = None
+    for mth in PSAT_CHECK + PSAT_DIRECT:
+        if mth in vals:
+            p_tb = vp.calculate(tb, mth)
+            if p_tb and abs(p_tb / 101325.0 - 1) <= 0.03:
+                basis = mth
+                break
+            report.append(f"- {spec.name}: {mth} not refitted: gives {(p_tb or 0)/1e3:.1f} kPa at Tb")
+    if basis is not None:
         kind = "refit"
+        lo, hi = vp.T_limits[basis]
+        t_lo, t_hi = max(lo, 250.0), min(hi, max(tb + 20.0, 330.0), 0.85 * tc)
+
+        def pfun(t):
+            return vp.calculate(t, basis)
     else:
-        basis = "AMBROSE_WALTON"
         kind = "estimate"
-    lo, hi = (vp.T_limits[basis] if basis in vp.T_limits else (0.0, tc))
-    t_lo, t_hi = max(lo, 250.0, 0.55 * tc), min(hi, 400.0, 0.85 * tc)
-    t_lo = min(t_lo, 290.0)
-    t_hi = max(t_hi, 330.0)
+        # Ambrose-Walton with the acentric factor solved so that P(Tb) = 101.325 kPa (the
+        # measured normal boiling point anchors the curve; Tc, Pc from chemicals)
+        from chemicals.vapor_pressure import Ambrose_Walton
+        from scipy.optimize import brentq
+        om = brentq(lambda w: Ambrose_Walton(tb, tc, pc, w) - 101325.0, -1.0, 3.0) if tb < tc else None
+        if om is None:
+            raise SystemExit(f"{spec.name}: Tb {tb} above chemicals Tc {tc}")
+        t_lo, t_hi = max(250.0, 0.4 * tc), min(max(tb + 20.0, 330.0), 0.85 * tc)
+
+        def pfun(t):
+            return Ambrose_Walton(t, tc, pc, om)
+    t_lo = min(t_lo, 300.0)
+    t_hi = max(t_hi, 320.0)
     ts = np.linspace(t_lo, t_hi, 30)
-    ps = np.array([vp.calculate(t, basis) for t in ts]) / 1e3
+    ps = np.array([pfun(t) for t in ts]) / 1e3
     a, b, c = fit_antoine(ts, ps)
     row.update(equation="antoine", a=a, b=b, c=c, tmin_k=float(t_lo), tmax_k=float(t_hi))
     fitted = psat_row_kpa(row, ts)
@@ -557,8 +610,9 @@ def psat_choice(spec: Spec, mw: float, tb: float, report: list[str]):
         row["source"] = ref("antoine-fit")
         row["note"] = f"Antoine fitted to {basis} ({PSAT_CITES.get(basis, basis)}), max fit deviation {100*err:.2f} %"
     else:
-        row["source"] = "estimated:antoine-fit"
-        row["note"] = f"Antoine fitted to the AMBROSE_WALTON estimate from Tc, Pc, omega; max fit deviation {100*err:.2f} %"
+        row["source"] = "estimated:ambrose-walton-tb"
+        row["note"] = (f"Antoine fitted to Ambrose-Walton with Tc {tc:.1f} K, Pc {pc/1e3:.0f} kPa and omega "
+                       f"{om:.4f} solved to the measured Tb (chemicals omega {omega}); max fit deviation {100*err:.2f} %")
     report.append(f"- {spec.name}: no direct table valid at 37.8 °C; {row['note']}")
     return row, kind, vals
 
@@ -713,7 +767,9 @@ def unifac_groups(spec: Spec, report: list[str]):
     m = mol_from(spec.smiles)
     groups, _, _, ok, status = smarts_fragment_priority(catalog=list(UFSG.values()), rdkitmol=m)
     if not ok:
-        raise SystemExit(f"{spec.name}: UNIFAC fragmentation failed: {status}")
+        # e.g. methane: original UNIFAC has no CH4 subgroup. Left blank (no source either).
+        report.append(f"- {spec.name}: no original-UNIFAC fragmentation ({status}); unifac_groups left blank")
+        return "", "", "not fragmentable"
     ddb = DDBST_UNIFAC_assignments.get(inchikey(m))
     cmp = "no DDBST entry"
     if ddb:
@@ -850,11 +906,12 @@ def build(specs: list[Spec]):
         for p in ("ron", "mon"):
             counts[p]["measured (octane dataset)" if octs[p] else "blank"] += 1
         ug, ug_key, ug_cmp = unifac_groups(s, unifac_log)
-        counts["unifac_groups"]["SMARTS, " + ("=DDBST" if ug_cmp == "same as DDBST" else
+        counts["unifac_groups"]["blank (not fragmentable)" if ug_cmp == "not fragmentable" else
+                                "SMARTS, " + ("=DDBST" if ug_cmp == "same as DDBST" else
                                                ("no DDBST entry" if ug_cmp == "no DDBST entry" else "≠DDBST"))] += 1
         vrow, vkind, _ = psat_choice(s, mw, tb, psat_log)
         counts["vapour_pressure"][{"table": "reference-library table", "refit": "refit to reference-library method",
-                                   "estimate": "estimated (Antoine fit to Ambrose-Walton)",
+                                   "estimate": "estimated (Antoine fit to Ambrose-Walton through Tb)",
                                    "extrapolated": "estimated (data correlation used below its range)"}[vkind]] += 1
         vps.append(vrow)
         comps.append(dict(
@@ -976,6 +1033,22 @@ def main(argv=None) -> int:
     specs = load_curated()
     if "--curated-only" not in (argv or sys.argv[1:]):
         specs = specs + enumerate_components(specs)
+    # synonyms unique across the library: curated ones win, enumerated extras that collide with a
+    # name or an earlier synonym are dropped
+    taken = {s.name.lower() for s in specs}
+    for s in specs:
+        keep = []
+        for y in s.synonyms:
+            if y.lower() not in taken:
+                keep.append(y)
+                taken.add(y.lower())
+        s.synonyms = keep
+    # ring cis/trans names must agree with the 3D geometry of the SMILES
+    for s in specs:
+        if ("cis" in s.name or "trans" in s.name or s.name.startswith("r-")) and "@" in s.smiles:
+            rn = ring_name(s.smiles)
+            if rn is not None and rn != s.name:
+                raise SystemExit(f"{s.name}: SMILES {s.smiles} reads as {rn}")
     validate_specs(specs)
     comp, vp, counts, logs = build(specs)
     OUT.mkdir(exist_ok=True)
@@ -1007,8 +1080,443 @@ def main(argv=None) -> int:
     return 0
 
 
+# ---------------------------------------------------------------------------------------------
+# enumeration of structures (resolved against the chemicals identifier database)
+# ---------------------------------------------------------------------------------------------
+ALKYL = {  # side-chain fragment (canonical SMILES with the attachment atom as [*]) -> name
+    "*C": "methyl", "*CC": "ethyl", "*CCC": "propyl", "*C(C)C": "isopropyl", "*CCCC": "butyl",
+    "*C(C)CC": "sec-butyl", "*CC(C)C": "isobutyl", "*C(C)(C)C": "tert-butyl", "*CCCCC": "pentyl",
+    "*CCC(C)C": "isopentyl", "*CC(C)(C)C": "neopentyl", "*C(C)(C)CC": "tert-pentyl",
+    "*CCCCCC": "hexyl", "*=C": "methylene", "*C=C": "vinyl", "*=CC": "ethylidene",
+}
+MULT = {1: "", 2: "di", 3: "tri", 4: "tetra", 5: "penta", 6: "hexa"}
+STEMS = {1: "meth", 2: "eth", 3: "prop", 4: "but", 5: "pent", 6: "hex", 7: "hept", 8: "oct", 9: "non",
+         10: "dec", 11: "undec", 12: "dodec", 13: "tridec", 14: "tetradec", 15: "pentadec"}
+
+
+def grow(smiles_set, allow, bond=Chem.BondType.SINGLE):
+    """All structures with one carbon more, attached where `allow(atom)` and the atom has an H."""
+    out = set()
+    for s in smiles_set:
+        m = mol_from(s)
+        for a in m.GetAtoms():
+            if a.GetTotalNumHs() == 0 or not allow(a):
+                continue
+            rw = Chem.RWMol(m)
+            i = rw.AddAtom(Chem.Atom(6))
+            rw.AddBond(a.GetIdx(), i, bond)
+            mm = rw.GetMol()
+            Chem.SanitizeMol(mm)
+            out.add(Chem.MolToSmiles(mm))
+    return out
+
+
+def with_double_bonds(smiles_set, n_db=1, ring_only=False, exo_ok=True):
+    """Place one (or two, non-cumulated) C=C bonds in each structure; all cis/trans isomers."""
+    out = set()
+    for s in smiles_set:
+        m = mol_from(s)
+        bonds = [b for b in m.GetBonds()
+                 if b.GetBeginAtom().GetTotalNumHs() and b.GetEndAtom().GetTotalNumHs()
+                 and not b.GetBeginAtom().GetIsAromatic() and not b.GetEndAtom().GetIsAromatic()]
+        combos = [[b] for b in bonds] if n_db == 1 else [
+            [b1, b2] for i, b1 in enumerate(bonds) for b2 in bonds[i + 1:]
+            if not ({b1.GetBeginAtomIdx(), b1.GetEndAtomIdx()} & {b2.GetBeginAtomIdx(), b2.GetEndAtomIdx()})]
+        for combo in combos:
+            if ring_only and not all(b.IsInRing() for b in combo):
+                continue
+            if not exo_ok and not all(b.IsInRing() for b in combo):
+                continue
+            rw = Chem.RWMol(m)
+            ok = True
+            for b in combo:
+                rb = rw.GetBondWithIdx(b.GetIdx())
+                rb.SetBondType(Chem.BondType.DOUBLE)
+            mm = rw.GetMol()
+            try:
+                Chem.SanitizeMol(mm)
+            except Exception:
+                ok = False
+            if not ok:
+                continue
+            # no double bond in 3/4 rings, no bridgehead/anti-Bredt issues at this size
+            for iso in EnumerateStereoisomers(mm, options=StereoEnumerationOptions(unique=True)):
+                for a in iso.GetAtoms():  # keep double-bond stereo only
+                    a.SetChiralTag(Chem.ChiralType.CHI_UNSPECIFIED)
+                out.add(Chem.MolToSmiles(iso))
+    return out
+
+
+def ring_stereoisomers(smiles_set):
+    """Enumerate cis/trans isomers of substituted rings (tetrahedral centres in rings only)."""
+    out = set()
+    for s in smiles_set:
+        m = mol_from(s)
+        isos = list(EnumerateStereoisomers(m, options=StereoEnumerationOptions(unique=True)))
+        for iso in isos:
+            for a in iso.GetAtoms():
+                if not a.IsInRing():
+                    a.SetChiralTag(Chem.ChiralType.CHI_UNSPECIFIED)
+            out.add(Chem.MolToSmiles(iso))
+    return out
+
+
+def _substituents(m, ring):
+    """{ring position index in `ring`: [substituent names]} or None if a side chain is unknown."""
+    ring_set = set(ring)
+    subs = {}
+    for pos, idx in enumerate(ring):
+        a = m.GetAtomWithIdx(idx)
+        for nb in a.GetNeighbors():
+            if nb.GetIdx() in ring_set:
+                continue
+            # fragment = nb and everything reachable without passing through the ring
+            frag, stack = {nb.GetIdx()}, [nb.GetIdx()]
+            while stack:
+                cur = m.GetAtomWithIdx(stack.pop())
+                for x in cur.GetNeighbors():
+                    if x.GetIdx() not in frag and x.GetIdx() not in ring_set:
+                        frag.add(x.GetIdx())
+                        stack.append(x.GetIdx())
+            rw = Chem.RWMol()
+            mp = {}
+            for i in sorted(frag):
+                mp[i] = rw.AddAtom(Chem.Atom(6))
+            star = rw.AddAtom(Chem.Atom(0))
+            for b in m.GetBonds():
+                i, j = b.GetBeginAtomIdx(), b.GetEndAtomIdx()
+                if i in frag and j in frag:
+                    rw.AddBond(mp[i], mp[j], b.GetBondType())
+            bt = m.GetBondBetweenAtoms(idx, nb.GetIdx()).GetBondType()
+            rw.AddBond(star, mp[nb.GetIdx()], bt)
+            fm = rw.GetMol()
+            Chem.SanitizeMol(fm)
+            key = Chem.MolToSmiles(fm).replace("[*]", "*")
+            canon = {Chem.MolToSmiles(mol_from(k.replace("*", "[*]"))).replace("[*]", "*"): v
+                     for k, v in ALKYL.items()}
+            if key not in canon:
+                return None
+            subs.setdefault(pos, []).append(canon[key])
+    return subs
+
+
+def _alpha(name):
+    return name.replace("sec-", "").replace("tert-", "")
+
+
+def ring_name(smiles: str) -> str | None:
+    """Systematic-style name of a monocyclic ring with alkyl substituents (None if not handled).
+
+    Lowest locants, then the alphabetically first substituent gets the lowest locant; cis/trans
+    (two ring stereocentres) or r/c/t descriptors (three or more) from a 3D embedding.
+    """
+    m = mol_from(smiles)
+    rings = m.GetRingInfo().AtomRings()
+    if len(rings) != 1:
+        return None
+    ring = list(rings[0])
+    size = len(ring)
+    # order ring atoms around the ring
+    order = [ring[0]]
+    while len(order) < size:
+        cur = m.GetAtomWithIdx(order[-1])
+        nxt = [x.GetIdx() for x in cur.GetNeighbors() if x.GetIdx() in ring and x.GetIdx() not in order]
+        order.append(nxt[0])
+    arom = all(m.GetAtomWithIdx(i).GetIsAromatic() for i in order)
+    ring_db = [(i, j) for i, j in zip(order, order[1:] + order[:1])
+               if m.GetBondBetweenAtoms(i, j).GetBondType() == Chem.BondType.DOUBLE and not arom]
+    if len(ring_db) > 1:
+        return None
+    parent = "benzene" if arom else ("cyclo" + {5: "pent", 6: "hex", 7: "hept", 8: "oct"}[size]
+                                     + ("ene" if ring_db else "ane"))
+    cands_ = []
+    for start in range(size):
+        for direction in (1, -1):
+            seq = [order[(start + direction * k) % size] for k in range(size)]
+            if ring_db and {seq[0], seq[1]} != set(ring_db[0]):
+                continue
+            subs = _substituents(m, seq)
+            if subs is None:
+                return None
+            locs = sorted(p + 1 for p, names in subs.items() for _ in names)
+            alpha_first = sorted(((_alpha(n), p + 1) for p, names in subs.items() for n in names))
+            key = (locs, [p for _, p in alpha_first])
+            cands_.append((key, seq, subs))
+    if not cands_:
+        return None
+    best_key = min(c[0] for c in cands_)
+    tied = [c for c in cands_ if c[0] == best_key]
+    # among equivalent numberings, the one whose r/c/t descriptors read first ('c' before 't')
+    _, seq, subs = min(tied, key=lambda c: (ring_stereo_descriptors(m, c[1]), c[1]))
+    by_name = defaultdict(list)
+    for p, names in subs.items():
+        for n in names:
+            by_name[n].append(p + 1)
+    if not by_name:
+        return parent
+    parts = []
+    for n in sorted(by_name, key=_alpha):
+        ls = sorted(by_name[n])
+        parts.append((",".join(map(str, ls)), MULT[len(ls)] + n))
+    single = len(parts) == 1 and len(by_name[sorted(by_name)[0]]) == 1
+    if single and not ring_db and not arom:
+        body = parts[0][1] + parent  # methylcyclohexane (no locant)
+    elif single and arom:
+        body = parts[0][1] + parent
+    else:
+        body = "-".join(f"{l}-{n}" for l, n in parts) + parent
+    stereo = ring_stereo_descriptors(m, seq)
+    if not stereo:
+        return body
+    if stereo in ("cis", "trans"):
+        return f"{stereo}-{body}"
+    # three or more ring stereocentres: r/c/t descriptors replace the locants when they coincide
+    locs = ",".join(x.split("-")[1] for x in stereo.split(","))
+    if len(parts) == 1 and body.startswith(locs + "-"):
+        return stereo + body[len(locs):]
+    return f"({stereo})-{body}"
+
+
+_EMBED_CACHE: dict = {}
+
+
+def _embedded(m: Chem.Mol):
+    key = Chem.MolToSmiles(m)
+    if key not in _EMBED_CACHE:
+        from rdkit.Chem import AllChem
+        mh = Chem.AddHs(m)
+        if AllChem.EmbedMolecule(mh, randomSeed=7) != 0:
+            raise SystemExit(f"embedding failed for {key}")
+        _EMBED_CACHE[key] = (mh, mh.GetConformer())
+    return _EMBED_CACHE[key]
+
+
+def ring_stereo_descriptors(m: Chem.Mol, seq: list[int]) -> str:
+    """'cis'/'trans' for two ring stereocentres, 'r-1,c-2,t-4' style for more; '' if none."""
+    tagged = [i for i in seq if m.GetAtomWithIdx(i).GetChiralTag() != Chem.ChiralType.CHI_UNSPECIFIED]
+    if len(tagged) < 2:
+        return ""
+    # every ring atom with exactly one substituent takes part (a pseudo-asymmetric centre between
+    # two tagged ones, e.g. C2 of 1,2,3-trimethylcyclohexane, is drawn either way: same compound)
+    centres = [i for i in seq if sum(1 for x in m.GetAtomWithIdx(i).GetNeighbors() if x.GetIdx() not in set(seq)) == 1]
+    mh, conf = _embedded(m)
+    pts = np.array([list(conf.GetAtomPosition(i)) for i in seq])
+    centre = pts.mean(axis=0)
+    _, _, vt = np.linalg.svd(pts - centre)
+    normal = vt[2]
+    side = {}
+    ring_set = set(seq)
+    for i in centres:
+        a = mh.GetAtomWithIdx(i)
+        heavy = [x.GetIdx() for x in a.GetNeighbors() if x.GetIdx() not in ring_set and x.GetAtomicNum() > 1]
+        if len(heavy) != 1:
+            continue
+        v = np.array(list(conf.GetAtomPosition(heavy[0]))) - np.array(list(conf.GetAtomPosition(i)))
+        side[i] = 1 if float(v @ normal) > 0 else -1
+    locs = [(seq.index(i) + 1, side[i]) for i in centres if i in side]
+    if len(locs) < 2:
+        return ""
+    locs.sort()
+    if len(locs) == 2:
+        return "cis" if locs[0][1] == locs[1][1] else "trans"
+    ref_side = locs[0][1]
+    return ",".join([f"r-{locs[0][0]}"] + [f"{'c' if s == ref_side else 't'}-{p}" for p, s in locs[1:]])
+
+
+def alkene_name(iupac: str) -> str | None:
+    """Convert chemicals' IUPAC alkene name to the customary form: (e)-4-methylpent-2-ene ->
+    trans-4-methyl-2-pentene; 2-methylbuta-1,3-diene -> 2-methyl-1,3-butadiene."""
+    s = iupac.lower().strip()
+    m = re.match(r"^(?:\(([0-9ez,]+)\)-)?(.*?)(meth|eth|prop|but|pent|hex|hept|oct|non|dec|undec|dodec)(a)?-([\d,]+)-(di)?ene$", s)
+    if not m:
+        return None
+    ez, prefix, stem, _, locs, di = m.groups()
+    stereo = ""
+    if ez:
+        tags = [x for x in re.findall(r"\d*([ez])", ez)]
+        stereo = ",".join("trans" if t == "e" else "cis" for t in tags) + "-"
+    if prefix and not prefix.endswith("-"):
+        prefix += "-"
+    return f"{stereo}{prefix}{locs}-{stem}{'adiene' if di else 'ene'}"
+
+
+def alkane_name(iupac: str) -> str | None:
+    """Tidy chemicals' IUPAC alkane name: no hyphen before the parent, propan-2-yl -> isopropyl,
+    substituent prefixes in alphabetical order (3-ethyl-2,2-dimethyl-pentane ->
+    3-ethyl-2,2-dimethylpentane; 2,4-dimethyl-3-propan-2-yl-pentane -> 3-isopropyl-2,4-dimethylpentane)."""
+    s = iupac.replace("propan-2-yl", "isopropyl")
+    m = re.fullmatch(r"(.*?)-?((?:meth|eth|prop|but|pent|hex|hept|oct|non|dec|undec|dodec|tridec|tetradec|pentadec)ane)", s)
+    if not m:
+        return None
+    prefix, parent = m.groups()
+    if not prefix:
+        return parent
+    parts = re.findall(r"(\d+(?:,\d+)*)-((?:di|tri|tetra|penta)?)((?:sec-|tert-)?[a-z]+yl)", prefix)
+    rebuilt = "-".join(f"{l}-{mu}{n}" for l, mu, n in parts)
+    if rebuilt.replace("-", "") != prefix.replace("-", ""):
+        return None
+    parts.sort(key=lambda p: _alpha(p[2]))
+    return "-".join(f"{l}-{mu}{n}" for l, mu, n in parts) + parent
+
+
+def canonical_name(smiles: str, meta) -> str:
+    m = mol_from(smiles)
+    group, subgroup = classify(m)
+    if m.GetRingInfo().NumRings() == 1 and group in ("naphthenes", "aromatics", "olefins"):
+        n = ring_name(smiles)
+        if n:
+            return n
+    if group in ("olefins",) and m.GetRingInfo().NumRings() == 0:
+        n = alkene_name(meta.iupac_name or "")
+        if n:
+            return n
+    if group in ("n_paraffins", "isoparaffins"):
+        n = alkane_name(re.sub(r"^\([^)]*\)-", "", (meta.iupac_name or "").lower()))
+        if n and re.fullmatch(r"[0-9,\-a-z]+ane", n):
+            if group == "n_paraffins" and not n.startswith("n-") and n not in ("methane", "ethane", "propane"):
+                n = "n-" + n
+            return n
+    return (meta.common_name or meta.iupac_name).lower()
+
+
+def measured_tb(cas: str) -> bool:
+    meths = chemicals.Tb_methods(cas)
+    if not any(mth in meths for mth in ("CRC_ORG", "HEOS", "COMMON_CHEMISTRY", "WEBBOOK", "WIKIDATA")):
+        return False
+    return tb_value(cas)[0] is not None
+
+
+def _fused_seed():
+    return {"C1CCc2ccccc2C1", "C1Cc2ccccc2C1", "c1ccc2ccccc2c1", "C1=Cc2ccccc2C1"}
+
+
 def enumerate_components(existing: list[Spec]) -> list[Spec]:
-    return []
+    """Structures by class, kept when chemicals knows them and has a measured boiling point."""
+    alk = {1: {"C"}}
+    for n in range(2, 12):
+        alk[n] = grow(alk[n - 1], lambda a: True)
+    cands: list[tuple[str, str]] = []  # (smiles, family)
+    for n in range(1, 11):
+        cands += [(s, "alkane") for s in alk[n]]
+    for n in range(11, 16):  # only n-alkanes and mono-/dimethyl isomers at C11+
+        cands += [(s, "alkane") for s in alk[n if n < 12 else 11] if n < 12 and
+                  sum(1 for a in mol_from(s).GetAtoms() if a.GetDegree() > 2) <= 2]
+        cands.append(("C" * n, "alkane"))
+    for n in (3, 4, 5, 6, 7, 8, 9):
+        cands += [(s, "alkene") for s in with_double_bonds(alk[n])]
+    for n in (4, 5, 6, 7):
+        cands += [(s, "diene") for s in with_double_bonds(alk[n], n_db=2)]
+    for n in (10, 11, 12):  # linear alpha-olefins
+        cands.append(("C=C" + "C" * (n - 2), "alkene"))
+    # monocyclic rings with alkyl side chains
+    rings = {5: {"C1CCCC1"}, 6: {"C1CCCCC1"}}
+    cyc = {5: rings[5], 6: rings[5] | rings[6]}
+    for n in range(7, 11):
+        cyc[n] = grow(cyc[n - 1], lambda a: True)
+    cyc[7] |= {"C1CCCCCC1"}
+    cyc[8] |= {"C1CCCCCCC1"}
+    for n in range(5, 11):
+        cands += [(s, "naphthene") for s in ring_stereoisomers(cyc[n])]
+    for n in range(5, 9):
+        cands += [(s, "cycloolefin") for s in ring_stereoisomers(with_double_bonds(cyc[n]))]
+        cands += [(s, "cycloolefin") for s in with_double_bonds(cyc[n], n_db=2, ring_only=True)
+                  if n <= 7]
+    # alkylbenzenes
+    ar = {6: {"c1ccccc1"}}
+    for n in range(7, 13):
+        ar[n] = grow(ar[n - 1], lambda a: True)
+        if n >= 11:  # C11-C12: keep at most two side chains to stay with common ones
+            ar[n] = {s for s in ar[n] if len(Chem.MolFromSmiles(s).GetSubstructMatches(
+                Chem.MolFromSmarts("c[CX4,CX3]"))) <= 2}
+    for n in range(6, 13):
+        cands += [(s, "aromatic") for s in ar[n]]
+    cands += [(s, "aromatic") for s in ("C=Cc1ccccc1", "CC(=C)c1ccccc1", "C/C=C/c1ccccc1")]
+    fused = {9: {"C1Cc2ccccc2C1", "C1=Cc2ccccc2C1"}, 10: {"C1CCc2ccccc2C1", "c1ccc2ccccc2c1"}}
+    f = set(_fused_seed())
+    for step in range(2):
+        f = grow(f, lambda a: a.GetIsAromatic() or a.IsInRing())
+        for s in f:
+            cands.append((s, "fused"))
+    cands += [(s, "fused") for s in _fused_seed()]
+    cands += [(s, "naphthene") for s in ring_stereoisomers({"C1CCC2CCCCC2C1"})]
+
+    have_keys = {inchikey(mol_from(s.smiles)) for s in existing}
+    have_cas = {s.cas for s in existing}
+    overrides = pd.read_csv(INPUTS / "name_overrides.csv", dtype=str, keep_default_na=False)
+    over = {r.cas: r for r in overrides.itertuples()}
+    found: dict[str, Spec] = {}
+    # stereo-specific structures first; a ring compound whose stereoisomers are all unknown to
+    # chemicals is then tried without stereo (the isomer mixture or a single chiral centre)
+    by_constitution: dict[str, list[tuple[str, str]]] = defaultdict(list)
+    for smi, fam in sorted(set(cands)):
+        by_constitution[inchikey(mol_from(smi)).split("-")[0]].append((smi, fam))
+    for conn in sorted(by_constitution):
+        group = by_constitution[conn]
+        tried_ok = False
+        stereo_first = sorted(group, key=lambda x: ("@" not in x[0] and "/" not in x[0], x[0]))
+        flat = set()
+        for smi, fam in stereo_first:
+            ok = _try_candidate(smi, fam, have_keys, have_cas, found, over)
+            tried_ok |= ok
+            m = mol_from(smi)
+            Chem.RemoveStereochemistry(m)
+            flat.add(Chem.MolToSmiles(m))
+        if not tried_ok and fam in ("naphthene", "cycloolefin", "fused"):
+            for smi in sorted(flat):
+                if needs_db_stereo(mol_from(smi)):
+                    continue
+                _try_candidate(smi, fam, have_keys, have_cas, found, over)
+    return sorted(found.values(), key=lambda s: s.name)
+
+
+def _try_candidate(smi, fam, have_keys, have_cas, found, over) -> bool:
+    m = mol_from(smi)
+    if inchikey(m) in have_keys:
+        return True
+    meta = lookup_identity(smi)
+    if meta is None:
+        return False
+    if meta.CASs in have_cas or meta.CASs in found:
+        return True
+    if meta.CASs in IDENTITY_EXCLUDE:
+        return False
+    if atom_counts(meta.formula) != atom_counts(hill_formula(m)):
+        return False
+    if not measured_tb(meta.CASs):
+        return False
+    cas = meta.CASs
+    if not (chemicals.Tc(cas) and chemicals.Pc(cas) and chemicals.omega(cas) is not None and chemicals.Vc(cas)):
+        return False  # no critical constants: no density / vapour-pressure fallback possible
+    if meta.CASs in over:
+        o = over[meta.CASs]
+        if o.name == "-":  # excluded on purpose (reason in the overrides file)
+            return True
+        name, syn = o.name, [x for x in o.synonyms.split(";") if x]
+    else:
+        name = canonical_name(smi, meta)
+        syn = []
+        group, subgroup = classify(m)
+        if group == "aromatics" and subgroup == "monoaromatic" and ring_name(smi) is None:
+            return False  # unusual side chains (C11-C12 only): left out
+        if group in ("aromatics", "olefins", "naphthenes") and subgroup not in ("alkene", "diene") \
+                and m.GetRingInfo().NumRings() == 1 and ring_name(smi) is None:
+            log.warning("no systematic name for %s (%s), using %s", smi, meta.CASs, name)
+    for extra in (meta.common_name, meta.iupac_name):
+        x = (extra or "").lower().strip()
+        junk = (not x or x == name or x in syn or x.startswith("(") or ", " in x
+                or re.fullmatch(r"[\d-]+", x) or re.fullmatch(r"[a-z]{2,5}\d\w*", x))
+        if not junk:
+            syn.append(x)
+    found[meta.CASs] = Spec(name, meta.CASs, Chem.MolToSmiles(m), syn, f"chemicals-{CHEM_V}:identifiers")
+    return True
+
+
+# CAS numbers never taken from the enumeration (stereo mix-ups in the chemicals identifier
+# database; the right isomer is in components_curated.csv)
+IDENTITY_EXCLUDE = {"592-43-8", "592-78-9",
+                    # methane and ethane: supercritical at 37.8 °C (Tc 190.6 K, 305.3 K), so no vapour
+                    # pressure at the DVPE temperature and (methane) no liquid density at 15 °C
+                    "74-82-8", "74-84-0"}
 
 
 if __name__ == "__main__":

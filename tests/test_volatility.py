@@ -292,15 +292,21 @@ def test_flash_matches_thermo_flash_of_reference_report(lib, ethanol, activity, 
 
 
 def test_component_without_groups_takes_gamma_one(lib):
-    # Methane has no original-UNIFAC group in the library: a trace of it keeps UNIFAC for the
-    # rest (gamma = 1 for methane), a large share switches the whole mixture to ideal.
+    # A component without original-UNIFAC groups (simulated here by blanking n-butane's):
+    # a trace of it keeps UNIFAC for the rest (gamma = 1 for it); a large share switches the
+    # whole mixture to ideal. Both cases are warned about.
+    import dataclasses
+
+    comps = lib.components.copy()
+    comps.loc["n-butane", "unifac_groups"] = ""
+    holed = dataclasses.replace(lib, components=comps)
+    assert not holed.unifac_groups["n-butane"]
     trace = composition(lib, splash_blend(10.0))
-    trace = pd.concat([trace, trace.iloc[[0]].assign(model_component="methane",
-                                                     mol_pct=0.1)])
-    res = vol.compute(trace, lib, settings())
+    trace.loc[trace["model_component"] == "n-butane", "mol_pct"] = 0.1
+    res = vol.compute(trace, holed, settings())
     assert res.details["model"]["activity"] == "unifac"
-    assert any("methane" in w and "gamma = 1 for them" in w for w in res.warnings)
+    assert any("n-butane" in w and "gamma = 1 for them" in w for w in res.warnings)
     lots = trace.copy()
-    lots.iloc[-1, lots.columns.get_loc("mol_pct")] = 20.0
-    mix = vol.mixture_from_composition(lots, lib, "unifac")
+    lots.loc[lots["model_component"] == "n-butane", "mol_pct"] = 20.0
+    mix = vol.mixture_from_composition(lots, holed, "unifac")
     assert mix.unifac is None and "ideal solution" in mix.warnings[0]

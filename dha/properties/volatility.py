@@ -126,23 +126,43 @@ class PsatGrid:
         return PsatGrid(self.t_k, self.ln_p_kpa[rows])
 
 
-def _fill_outside(ln_p: np.ndarray, valid: np.ndarray, t_grid_k: np.ndarray) -> np.ndarray:
-    """Replace ln P where ``valid`` is False by a straight line in 1/T through the two valid
-    nodes nearest each end of the valid run (Clausius–Clapeyron extension). Rows with fewer
-    than two valid nodes are left as they are."""
+#: Minimum distance [K] of a boiling point from a correlation's range for it to anchor the
+#: extension of ln P (see :func:`_fill_outside`).
+ANCHOR_MIN_GAP_K = 10.0
+
+
+def _fill_outside(ln_p: np.ndarray, valid: np.ndarray, t_grid_k: np.ndarray,
+                  anchor_t_k: np.ndarray | None = None) -> np.ndarray:
+    """Replace ln P where ``valid`` is False, linearly in 1/T (Clausius–Clapeyron).
+
+    Known points of a row: its valid nodes, plus its normal boiling point (``anchor_t_k``,
+    101.325 kPa) when that lies more than :data:`ANCHOR_MIN_GAP_K` outside the valid nodes'
+    span (closer, the slope between the two would be dominated by their small
+    inconsistencies). Between known points ln P is
+    interpolated in 1/T; beyond them it is extended with the slope of the two outermost
+    points. Rows with fewer than two known points are left as they are.
+    """
     ln_p = ln_p.copy()
     inv = 1.0 / t_grid_k
-    idx = np.arange(len(t_grid_k))
     for i in np.flatnonzero(~valid.all(axis=1)):
         good = np.flatnonzero(valid[i])
-        if len(good) < 2:
+        u, y = list(inv[good]), list(ln_p[i, good])
+        if anchor_t_k is not None and np.isfinite(anchor_t_k[i]) and len(good) and (
+                anchor_t_k[i] < t_grid_k[good[0]] - ANCHOR_MIN_GAP_K
+                or anchor_t_k[i] > t_grid_k[good[-1]] + ANCHOR_MIN_GAP_K):
+            u.append(1.0 / anchor_t_k[i])
+            y.append(np.log(P_ATM_KPA))
+        if len(u) < 2:
             continue
-        for sel, (j0, j1) in ((idx < good[0], good[:2]), (idx > good[-1], good[-2:])):
-            slope = (ln_p[i, j1] - ln_p[i, j0]) / (inv[j1] - inv[j0])
-            ln_p[i, sel] = ln_p[i, j0] + slope * (inv[sel] - inv[j0])
-        inner = ~valid[i] & (idx > good[0]) & (idx < good[-1])
-        if inner.any():
-            ln_p[i, inner] = np.interp(inv[inner], inv[good][::-1], ln_p[i, good][::-1])
+        order = np.argsort(u)
+        u, y = np.asarray(u)[order], np.asarray(y)[order]
+        cells = ~valid[i]
+        x = inv[cells]
+        out = np.interp(x, u, y)
+        lo, hi = x < u[0], x > u[-1]
+        out[lo] = y[0] + (y[1] - y[0]) / (u[1] - u[0]) * (x[lo] - u[0])
+        out[hi] = y[-1] + (y[-1] - y[-2]) / (u[-1] - u[-2]) * (x[hi] - u[-1])
+        ln_p[i, cells] = out
     return ln_p
 
 
@@ -160,12 +180,15 @@ def psat_grid(psat_kpa_at, n: int, t_grid_k: np.ndarray = T_GRID_K) -> PsatGrid:
                                                                  np.asarray(t_grid_k, float)))
 
 
-def correlation_psat_grid(table: pd.DataFrame, t_grid_k: np.ndarray = T_GRID_K) -> PsatGrid:
+def correlation_psat_grid(table: pd.DataFrame, t_grid_k: np.ndarray = T_GRID_K,
+                          boiling_point_k: np.ndarray | None = None) -> PsatGrid:
     """ln P^sat on ``t_grid_k`` for the rows of a ``vapour_pressure.csv``-shaped table.
 
     Each correlation is used inside its validity range [``tmin_k``, ``tmax_k``] (and below
-    ``tc_k`` for the Wagner form); outside it ln P is extended linearly in 1/T from the range
-    ends (Clausius–Clapeyron), never the correlation's own extrapolation.
+    ``tc_k`` for the Wagner form); outside it ln P is extended linearly in 1/T
+    (Clausius–Clapeyron) through the range ends and, when given and outside the range, the
+    normal boiling point ``boiling_point_k`` [K] at 101.325 kPa — never the correlation's own
+    extrapolation.
     """
     from dha.vapour_pressure import psat_kpa
 
@@ -189,7 +212,8 @@ def correlation_psat_grid(table: pd.DataFrame, t_grid_k: np.ndarray = T_GRID_K) 
     with np.errstate(divide="ignore", invalid="ignore"):
         ln_p = np.log(np.where(values > 0, values, np.nan))
     valid &= np.isfinite(ln_p)
-    return PsatGrid(np.asarray(t_grid_k, float), _fill_outside(ln_p, valid, np.asarray(t_grid_k)))
+    return PsatGrid(np.asarray(t_grid_k, float),
+                    _fill_outside(ln_p, valid, np.asarray(t_grid_k), boiling_point_k))
 
 
 _LIBRARY_GRIDS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
@@ -211,7 +235,12 @@ def library_psat_grid(library) -> tuple[PsatGrid, pd.Index]:
     if isinstance(table, pd.DataFrame) and len(table):
         names = pd.Index(table.index if table.index.name == "name" or "name" not in table
                          else table["name"])
-        grid = correlation_psat_grid(table)
+        tb = None
+        comps = getattr(library, "components", None)
+        if isinstance(comps, pd.DataFrame) and "boiling_point_c" in comps:
+            tb = pd.to_numeric(comps["boiling_point_c"].reindex(names),
+                               errors="coerce").to_numpy(float) + 273.15
+        grid = correlation_psat_grid(table, boiling_point_k=tb)
     else:
         names = library.psat_kpa(T_DVPE_K).index
         grid = psat_grid(lambda t: library.psat_kpa(t).reindex(names).to_numpy(float),

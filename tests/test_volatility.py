@@ -324,3 +324,14 @@ def test_psat_grid_reproduces_normal_boiling_points(lib):
     dev = np.abs(got - tb)
     assert np.max(dev) < 2.0, names[np.argmax(dev)]
     assert np.mean(dev < 1.0) >= 0.97
+
+
+def test_vapour_pressure_at_other_temperatures(lib):
+    # Reference: CoolProp 8.0.0 vapour pressure of n-hexane at 0, 20 and 60 °C (a pure liquid's
+    # total pressure at any V/L); tolerance 0.5 %.
+    import CoolProp.CoolProp as CP
+
+    comp = composition(lib, {"n-hexane": 100.0})
+    for t in (273.15, 293.15, 333.15):
+        ref = CP.PropsSI("P", "T", t, "Q", 0, "n-Hexane") / 1e3
+        assert vol.vapour_pressure_kpa(comp, lib, t, 4.0) == pytest.approx(ref, rel=0.005)

@@ -427,6 +427,14 @@ def total_vapour_pressure_kpa(mixture: Mixture, t_k: float = T_DVPE_K,
     return flash_volume_ratio(mixture, t_k, vl_ratio).p_kpa
 
 
+def vapour_pressure_kpa(composition: pd.DataFrame, library, t_k: float = T_DVPE_K,
+                       vl_ratio: float = VL_RATIO, activity: str = "unifac") -> float:
+    """Total vapour pressure [kPa] of a composition table at ``t_k`` [K] and vapour/liquid
+    volume ratio ``vl_ratio`` (0: bubble-point pressure); see :func:`flash_volume_ratio`."""
+    mix = mixture_from_composition(composition, library, activity)
+    return total_vapour_pressure_kpa(mix, t_k, vl_ratio)
+
+
 def dvpe_kpa_from_total(p_tot_kpa: float) -> float:
     """DVPE [kPa] from the total pressure at 37.8 °C and V/L = 4 (ASTM D5191).
 

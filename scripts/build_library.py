@@ -246,6 +246,16 @@ def static_refs() -> None:
              "densities rho(15 °C)/rho(20 °C) of the same component (Hankinson & Thomson, AIChE J. 25 (1979) 653)",
         package="chemicals", version=CHEM_V, method="miscdata.CRC_organic_data + volume.COSTALD",
         licence=LIC_TABLE)
+    ref("class-regression",
+        cite="density at 15 °C estimated by a least-squares fit, per structural class, of density on normal "
+             "boiling point (quadratic) and carbon number, fitted to the same library's components with "
+             "measured-data or CRC densities; leave-one-out error per class in BUILD_REPORT.md",
+        url="scripts/build_library.py", licence="project (this repository)")
+    ref("subcooled-liquid",
+        cite="component solid at 15 °C (melting point from chemicals): hypothetical subcooled-liquid density "
+             "from a measured-data liquid-density correlation (DIPPR 105 / VDI PPDS / HEOS fit via thermo) "
+             "evaluated below its stated range, as used for volume additivity of dissolved solids",
+        package="thermo", version=THERMO_V, method="VolumeLiquid.calculate", licence=LIC_TABLE)
     ref("costald",
         cite="COSTALD corresponding-states liquid density (Hankinson & Thomson, AIChE J. 25 (1979) 653) "
              "from chemicals' Tc, Vc (or Hankinson-Thomson Vchar) and omega; a pure estimate",
@@ -266,6 +276,12 @@ def static_refs() -> None:
              "curve passes through the measured normal boiling point; an Antoine equation least-squares fitted "
              "to it (range recorded in tmin_k/tmax_k). An estimate",
         package="chemicals", version=CHEM_V, method="vapor_pressure.Ambrose_Walton + scipy", licence="MIT")
+    ref("joback-hf",
+        cite="gas enthalpy of formation by the Joback group-contribution method (Joback & Reid, Chem. Eng. "
+             "Commun. 57 (1987) 233) via chemicals, minus the enthalpy of vaporization at 298.15 K (thermo); "
+             "heat of combustion by stoichiometry. An error of 10 kJ/mol in ΔfH moves the heat of combustion "
+             "of a C8-C10 hydrocarbon by only about 0.2 %",
+        package="chemicals", version=CHEM_V, method="reaction.Hfg(method='JOBACK')", licence="MIT")
     ref("antoine-fit",
         cite="Antoine equation least-squares fitted (log10 kPa) over 250-400 K (within Tb±; range recorded) to "
              "the method named in the vapour-pressure row's note; an estimate when that method is a "
@@ -680,21 +696,32 @@ def psat_row_kpa(row: dict, t):
 
 
 def density_15c(spec: Spec, mw: float, tb: float, report: list[str]):
+    """Liquid density at 15 °C [kg/m³]: (value, source key, kind, values by method).
+
+    kind: "data" (correlation of measured data valid at 15 °C), "subcooled" (a solid at 15 °C:
+    a data correlation extrapolated below its range, hypothetical subcooled liquid), "crc" (CRC
+    single point corrected with the COSTALD ratio) or "none" (filled later by the class regression).
+    """
     cas = spec.cas
     tc, pc, omega, vc, zc = critical(cas)
     vl = thermo.VolumeLiquid(CASRN=cas, MW=mw, Tb=tb, Tc=tc, Pc=pc, Vc=vc, Zc=zc, omega=omega)
-    vals = {}
+    tm = chemicals.Tm(cas)
+    solid = bool(tm and tm > T_15C_K)
+    vals, near = {}, {}
     for mth in RHO_DATA:
         if mth in vl.all_methods:
             lo, hi = vl.T_limits[mth]
+            try:
+                v = vl.calculate(T_15C_K, mth)
+            except Exception:
+                v = None
+            if not v:
+                continue
             if lo <= T_15C_K <= hi:
-                try:
-                    v = vl.calculate(T_15C_K, mth)
-                except Exception:
-                    v = None
-                if v:
-                    vals[mth] = mw / v / 1e3
-    if vals:
+                vals[mth] = mw / v / 1e3
+            elif T_15C_K < lo <= T_15C_K + 80.0 and mth != "VDI_TABULAR":
+                near[mth] = (mw / v / 1e3, lo)
+    if vals and not solid:
         chosen = next(m for m in RHO_DATA if m in vals)
         if len(vals) >= 2:
             spread = max(vals.values()) / min(vals.values()) - 1
@@ -702,16 +729,81 @@ def density_15c(spec: Spec, mw: float, tb: float, report: list[str]):
                 report.append(f"- {spec.name}: density data methods disagree by {100*spread:.2f} %: "
                               + ", ".join(f"{k} {v:.1f}" for k, v in sorted(vals.items())))
         key = pkg_ref("thermo", THERMO_V, f"VolumeLiquid:{chosen}", RHO_CITES[chosen], LIC_TABLE)
+        # validation of the CRC-point method on components that also have measured-data correlations
+        costald = costald_rho(cas, mw, tc, omega, vc)
+        crc = miscdata.CRC_organic_data
+        if cas in crc.index and not pd.isna(crc.at[cas, "rho"]) and costald is not None:
+            est = float(crc.at[cas, "rho"]) * costald(T_15C_K) / costald(293.15)
+            CRC_CHECK.append((spec.name, est / vals[chosen] - 1))
         return vals[chosen], key, "data", vals
+    if solid:
+        both = {**{k: (v, T_15C_K) for k, v in vals.items()}, **near}
+        if both:
+            mth = next(m for m in RHO_DATA if m in both)
+            v, lo = both[mth]
+            report.append(f"- {spec.name}: solid at 15 °C (melting point {tm - 273.15:.1f} °C); hypothetical "
+                          f"subcooled-liquid density {v:.1f} from {mth} (range starts at {lo:.1f} K)")
+            return v, "estimated:subcooled-liquid", "subcooled", {mth: v}
+        return None, None, "none", {}
     costald = costald_rho(cas, mw, tc, omega, vc)
     crc = miscdata.CRC_organic_data
     if cas in crc.index and not pd.isna(crc.at[cas, "rho"]) and costald is not None:
         r20 = float(crc.at[cas, "rho"])
         r = r20 * costald(T_15C_K) / costald(293.15)
         return r, "estimated:crc-costald-ratio", "crc", {"CRC": r20}
-    if costald is not None:
-        return costald(T_15C_K), "estimated:costald", "costald", {}
-    raise SystemExit(f"{spec.name}: no density")
+    return None, None, "none", {}
+
+
+CRC_CHECK: list[tuple[str, float]] = []
+
+RHO_POOLS = {"alkane": "alkane", "alkene": "alkene", "diene": "alkene", "cycloalkane": "cycloalkane",
+             "cycloalkene": "cycloalkene", "monoaromatic": "monoaromatic", "indane": "fused",
+             "polyaromatic": "fused", "alcohol": "alcohol", "ether": "ether"}
+
+
+def _rho_features(d: pd.DataFrame) -> np.ndarray:
+    tb = d["tb_k"].to_numpy() / 100.0
+    return np.column_stack([np.ones(len(d)), tb, tb ** 2, d["carbon_number"].to_numpy(),
+                            (d["subgroup"].isin(["diene", "polyaromatic"])).to_numpy().astype(float)])
+
+
+def fill_density_by_regression(comp: pd.DataFrame, report: list[str], counts) -> pd.DataFrame:
+    """Fill missing densities with a per-class least-squares fit of density at 15 °C on the
+    boiling point and carbon number, fitted to the components of the same class whose density is
+    from measured data or the CRC point; leave-one-out error reported."""
+    comp = comp.copy()
+    comp["pool"] = comp["subgroup"].map(RHO_POOLS)
+    fit_mask = comp["density_source"].str.startswith("thermo") | (comp["density_source"] == "estimated:crc-costald-ratio")
+    report.append("")
+    report.append("Density regression per class (fit data: measured-data correlations and CRC points; "
+                  "leave-one-out RMS error, kg/m³):")
+    for pool, d in comp.groupby("pool"):
+        need = d["density_15c_kg_m3"].isna()
+        if not need.any():
+            continue
+        train = d[fit_mask.loc[d.index]]
+        X, y = _rho_features(train), train["density_15c_kg_m3"].to_numpy()
+        use = [0, 1, 2, 3] + ([4] if X[:, 4].any() and not X[:, 4].all() else [])
+        X = X[:, use]
+        if len(train) < len(use) + 3:
+            raise SystemExit(f"density regression: too few data in class {pool}")
+        coef, *_ = np.linalg.lstsq(X, y, rcond=None)
+        loo = []
+        for i in range(len(train)):
+            m = np.ones(len(train), bool)
+            m[i] = False
+            c_i, *_ = np.linalg.lstsq(X[m], y[m], rcond=None)
+            loo.append(float(X[i] @ c_i - y[i]))
+        rms = float(np.sqrt(np.mean(np.square(loo))))
+        Xn = _rho_features(d[need])[:, use]
+        pred = Xn @ coef
+        comp.loc[d[need].index, "density_15c_kg_m3"] = pred
+        comp.loc[d[need].index, "density_source"] = "estimated:class-regression"
+        report.append(f"- {pool}: {len(train)} fit points, LOO RMS {rms:.1f} kg/m³ "
+                      f"({100*rms/np.mean(y):.1f} %), filled {int(need.sum())}: "
+                      + ", ".join(f"{n} {v:.1f}" for n, v in zip(d[need]["name"], pred)))
+        counts["density_15c"]["estimated (class regression on Tb, nC)"] += int(need.sum())
+    return comp.drop(columns=["pool"])
 
 
 def costald_rho(cas, mw, tc, omega, vc):
@@ -745,12 +837,15 @@ def heats(spec: Spec, formula: str, mw: float, tb: float, report: list[str]):
                 hfg = creact.Hfg(cas, method=mth)
                 if hfg is not None:
                     break
+        key = "estimated:hfg-minus-hvap"
+        if hfg is None and "JOBACK" in creact.Hfg_methods(cas):
+            hfg, mth = creact.Hfg(cas, method="JOBACK"), "JOBACK"
+            key = "estimated:joback-hf"
         if hfg is None:
             return None, None, None, None, "none"
         tc, pc, omega, _, _ = critical(cas)
         hv = thermo.EnthalpyVaporization(CASRN=cas, Tb=tb, Tc=tc, Pc=pc, omega=omega).T_dependent_property(T_REF_K)
         hfl = hfg - hv
-        key = "estimated:hfg-minus-hvap"
         kind = "estimate"
         report.append(f"- {spec.name}: liquid ΔHf = gas ΔHf ({mth}) {hfg/1e3:.2f} − ΔHvap(298 K) {hv/1e3:.2f} kJ/mol")
     n = atom_counts(formula)
@@ -843,10 +938,17 @@ def retention_indices(comp: pd.DataFrame) -> pd.Series:
             off = RI_OFFSETS[r.subgroup]
         out[r.name] = round(base + off, 1)
     s = pd.Series(out)
-    # unique to >= 0.1: n-alkanes fixed, others nudged upwards in name order
+    # a known co-elution pair is stronger evidence than the boiling-point estimate: name_b is put
+    # 0.1 after name_a (both must elute together on this phase)
+    pair_fixed = set()
+    for a, b, *_ in COELUTION:
+        if a in s.index and b in s.index:
+            s[b] = round(s[a] + 0.1, 1)
+            pair_fixed |= {a, b}
+    # unique to >= 0.1: n-alkanes and co-elution pairs fixed, others nudged upwards in name order
     order = sorted(s.index, key=lambda n: (s[n], n))
     used: list[float] = []
-    fixed = set(comp.loc[comp["group"] == "n_paraffins", "name"])
+    fixed = set(comp.loc[comp["group"] == "n_paraffins", "name"]) | pair_fixed
     for n in order:
         v = s[n]
         while any(abs(v - u) < 0.05 for u in used) and n not in fixed:
@@ -897,10 +999,14 @@ def build(specs: list[Spec]):
             raise SystemExit(f"{s.name}: no measured boiling point")
         counts["boiling_point"]["reference-library"] += 1
         rho, rho_key, rho_kind, _ = density_15c(s, mw, tb, rho_log)
-        counts["density_15c"][{"data": "reference-library", "crc": "estimated (CRC point + COSTALD ratio)",
-                               "costald": "estimated (COSTALD)"}[rho_kind]] += 1
+        if rho_kind != "none":
+            counts["density_15c"][{"data": "reference-library", "crc": "estimated (CRC point + COSTALD ratio)",
+                                   "subcooled": "estimated (subcooled liquid, data correlation extrapolated)"}[rho_kind]] += 1
         gross, net, heat_key, _, hkind = heats(s, formula, mw, tb, heat_log)
+        if heat_key == "estimated:joback-hf":
+            hkind = "joback"
         counts["heat_of_combustion"][{"data": "reference-library", "estimate": "estimated (gas ΔHf − ΔHvap)",
+                                      "joback": "estimated (Joback gas ΔHf − ΔHvap)",
                                       "none": "missing"}[hkind]] += 1
         octs = choose_octane(s, oct_df, oct_notes)
         for p in ("ron", "mon"):
@@ -919,7 +1025,7 @@ def build(specs: list[Spec]):
             identity_source=s.identity_source, group=group, subgroup=subgroup, carbon_number=nc,
             molar_mass_g_mol=mw, molar_mass_source="iupac-2021-atomic-weights",
             boiling_point_c=tb - 273.15, boiling_point_source=tb_key,
-            density_15c_kg_m3=rho, density_source=rho_key,
+            density_15c_kg_m3=np.nan if rho is None else rho, density_source=rho_key or "",
             gross_heat_mj_kg=gross, net_heat_mj_kg=net, heat_source=heat_key or "",
             ron=octs["ron"][1] if octs["ron"] else None, ron_source=octs["ron"][0] if octs["ron"] else "",
             mon=octs["mon"][1] if octs["mon"] else None, mon_source=octs["mon"][0] if octs["mon"] else "",
@@ -928,6 +1034,7 @@ def build(specs: list[Spec]):
             unifac_groups=ug, unifac_source=ug_key, tb_k=tb,
         ))
     comp = pd.DataFrame(comps)
+    comp = fill_density_by_regression(comp, rho_log, counts)
     comp["retention_index"] = comp["name"].map(retention_indices(comp))
     comp.loc[comp["group"] == "n_paraffins", "retention_index_source"] = "bp-interpolation"
     counts["retention_index"]["n-alkane definition (100 n)"] = int((comp["group"] == "n_paraffins").sum())
@@ -1007,6 +1114,26 @@ def write_report(comp, vp, counts, logs) -> None:
     L += ["", "## Vapour-pressure equation forms", ""]
     for (e, s), n in vp.groupby(["equation", "source"]).size().items():
         L.append(f"- {e} from `{s}`: {n}")
+    if CRC_CHECK:
+        e = np.array([x[1] for x in CRC_CHECK]) * 100
+        worst = sorted(CRC_CHECK, key=lambda x: -abs(x[1]))[:5]
+        L += ["", "## Check of the CRC-point density method", "",
+              f"On {len(e)} components that have both a measured-data correlation and a CRC point, the "
+              f"CRC point corrected from 20 °C to 15 °C differs from the correlation by mean {e.mean():+.2f} %, "
+              f"RMS {np.sqrt((e**2).mean()):.2f} %, median {np.median(e):+.2f} % (a mean near -0.4 % would "
+              "mean the CRC points are at 25 °C rather than 20 °C). Largest: "
+              + ", ".join(f"{n} {100*v:+.2f} %" for n, v in worst) + "."]
+    if TB_REJECTED:
+        L += ["", "## Boiling points rejected (structure left out of the enumeration)", ""]
+        L += [f"- {cas}: {txt}" for cas, txt in sorted(TB_REJECTED.items())]
+    L += ["", "## Left out on purpose", "",
+          "- methane, ethane: supercritical at 37.8 °C (no vapour pressure at the DVPE temperature; methane "
+          "has no liquid density at 15 °C). An export naming them is matched by name only if a lab adds them "
+          "in an overlay.",
+          "- 592-43-8 and 592-78-9: the chemicals identifier database gives these stereo-unspecified CAS "
+          "numbers to (E)-2-hexene and (E)-3-heptene; the library uses 4050-45-7 (trans-2-hexene) and "
+          "14686-14-7 (trans-3-heptene), see components_curated.csv and the `curated:identity` reference.",
+          "- entries of scripts/library_inputs/name_overrides.csv with name `-` (reason in the file)."]
     sections = [("Vapour pressure: cross-checks at 37.8 °C (disagreements > 3 %, skipped or refitted methods)", "psat"),
                 ("Density at 15 °C: data methods disagreeing > 1 %", "rho"),
                 ("Heats of combustion: estimated liquid ΔHf", "heat"),
@@ -1015,14 +1142,15 @@ def write_report(comp, vp, counts, logs) -> None:
         L += ["", f"## {title}", ""] + (logs[k] or ["(none)"])
     L += ["", "## Retention index", "",
           "n-Alkanes 100·n; all others `estimated:bp-interpolation` (boiling point on the n-alkane scale + "
-          "class offset, see RI_OFFSETS in the script). Approximate to perhaps ±10-20 units: fine for "
+          "class offset, see RI_OFFSETS in the script); the second member of each co-elution pair in "
+          "coelution.csv is placed 0.1 after the first. Approximate to perhaps ±10-20 units: fine for "
           "ordering, a lab must learn its own indices from a reference run before trusting matches."]
     (INPUTS / "BUILD_REPORT.md").write_text("\n".join(L) + "\n", encoding="utf-8")
     O = ["# Octane choices", "",
          "Source: /work/shared/data/octane/pure_components.csv. Rule: RON from GNN2020_COMP, else ECNET_MASTER; "
          "MON from KUZ2022_MON, else GNN2020_COMP, else ECNET_MASTER. An ECNET value flagged in that file as "
          "a TEL rating (isooctane + x mL TEL stored as 100 + x) is never used. No estimates: blank when no "
-         "measured value. Rows below: every component whose sources differ by 1 octane number or more.", "",
+         "measured value. If one source lists a compound twice, its first row in the file is used. Rows below: every component whose sources differ by 1 octane number or more.", "",
          "| component | property | values by source | chosen |", "|---|---|---|---|"] + logs["octane"]
     (INPUTS / "octane_choices.md").write_text("\n".join(O) + "\n", encoding="utf-8")
 
@@ -1503,7 +1631,8 @@ def _try_candidate(smi, fam, have_keys, have_cas, found, over) -> bool:
             log.warning("no systematic name for %s (%s), using %s", smi, meta.CASs, name)
     for extra in (meta.common_name, meta.iupac_name):
         x = (extra or "").lower().strip()
-        junk = (not x or x == name or x in syn or x.startswith("(") or ", " in x
+        stereo_mismatch = (("cis" in x or "trans" in x) != ("cis" in name or "trans" in name))
+        junk = (not x or x == name or x in syn or x.startswith("(") or ", " in x or stereo_mismatch
                 or re.fullmatch(r"[\d-]+", x) or re.fullmatch(r"[a-z]{2,5}\d\w*", x))
         if not junk:
             syn.append(x)

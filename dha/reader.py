@@ -79,6 +79,7 @@ import zipfile
 from dataclasses import dataclass, field
 from datetime import date, datetime, time
 from functools import lru_cache
+from operator import itemgetter
 from pathlib import Path
 from typing import Any
 
@@ -528,6 +529,14 @@ def _texts(values: list[Any] | np.ndarray) -> list[str] | None:
     """Stripped text of cells; None for an all-numeric column."""
     if isinstance(values, np.ndarray):
         return None
+    try:
+        blob = "\n".join(values)          # fast path: all cells are text
+    except TypeError:
+        blob = None
+    if (blob is not None and blob.count("\n") == len(values) - 1 and "\t" not in blob
+            and " \n" not in blob and "\n " not in blob and "\u00a0" not in blob
+            and blob[:1] != " " and blob[-1:] != " "):
+        return values                        # nothing to strip
     return [v.strip() if type(v) is str else ("" if v is None or v != v else str(v))
             for v in values]
 
@@ -541,8 +550,12 @@ _TOTAL_ANY = re.compile(_TOTAL_RE.replace("^", "^", 1), re.I | re.M)
 def _total_mask(texts: list[str]) -> np.ndarray:
     """Rows whose text starts like a total ("Total", "Sum", ...), by one pass over the column."""
     out = np.zeros(len(texts), dtype=bool)
-    blob = "\n".join(t.replace("\n", " ") for t in texts) if any(
-        "\n" in t for t in texts) else "\n".join(texts)
+    blob = "\n".join(texts)
+    low = blob.lower()
+    if "total" not in low and "sum" not in low and "σ" not in low and "∑" not in low:
+        return out
+    if blob.count("\n") != len(texts) - 1:          # a cell holds a line break
+        blob = "\n".join(t.replace("\n", " ") for t in texts)
     for m in _TOTAL_ANY.finditer(blob):
         out[blob.count("\n", 0, m.start())] = True
     return out
@@ -785,19 +798,21 @@ def read_text(text: str, name: str = "<text>", settings: dict | None = None) -> 
 
 
 def _read_text(text: str, name: str, rs: dict[str, Any]) -> Run:
-    text = text.lstrip("\ufeff").replace("\r\n", "\n").replace("\r", "\n")
+    text = text.lstrip("\ufeff")
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
     if "\x00" in text:
         text = text.replace("\x00", "")
     lines = text.split("\n")
-    if not any(ln.strip() for ln in lines):
+    if not text.strip():
         raise InputError(f"{name}: the file is empty; export the peak table again")
     pinned = rs["columns"]
     seps = _TRY_ORDER if rs["separator"] == "auto" else (_SEPARATORS[rs["separator"]],)
     best: tuple[int, _Header] | None = None
     found = None
     for i, line in enumerate(lines):
-        if not any(ch.isalpha() for ch in line):
-            continue
+        if not any(ch.isalpha() for ch in line) or _KEY_RE.match(line):
+            continue         # no words, or a "key: value" metadata line
         cand = None
         for sep in seps:
             if sep not in line and not (sep == "  " and "\t" in line):
@@ -808,6 +823,8 @@ def _read_text(text: str, name: str, rs: dict[str, Any]) -> Run:
             if hdr.roles and (cand is None or len(hdr.roles) > len(cand[1].roles)
                               or (hdr.kind and not cand[1].kind)):
                 cand = (sep, hdr)
+                if hdr.kind and sep != " " and not hdr.dupes:
+                    break          # a full header with a real separator: look no further
         if cand is None:
             continue
         sep, hdr = cand
@@ -883,9 +900,8 @@ def _fast_columns(body_text: str, numbered: list[tuple[int, str]], sep: str, hdr
     def parse(dec: str) -> pd.DataFrame | None:
         try:
             df = pd.read_csv(io.StringIO(body_text), sep=sep, header=None, names=range(n + 1),
-                             quotechar='"', skipinitialspace=True, keep_default_na=False,
-                             na_values=[""], decimal=dec, dtype={i: str for i in text_cols},
-                             engine="c", low_memory=False, skip_blank_lines=False)
+                             quotechar='"', skipinitialspace=True, decimal=dec, engine="c",
+                             low_memory=False, skip_blank_lines=False)
         except (pd.errors.ParserError, ValueError, OverflowError):
             return None
         if (len(df) != len(numbered) or not isinstance(df.index, pd.RangeIndex)
@@ -915,10 +931,23 @@ def _fast_columns(body_text: str, numbered: list[tuple[int, str]], sep: str, hdr
         if c.dtype.kind in "fiu" and role not in ("name", "cas"):
             cols[role] = c.to_numpy(dtype=float)
         else:
-            cols[role] = ["" if type(v) is not str else v for v in c.tolist()]
+            cols[role] = [v if type(v) is str else "" if v != v else _cell_text(v)
+                          for v in c.tolist()]
     extra = [] if 0 not in text_cols else [
-        ["" if type(v) is not str else v for v in df[0].tolist()]]
-    return np.array([ln for ln, _ in numbered], dtype=np.int64), cols, extra, [], decimal
+        [v if type(v) is str else "" if v != v else _cell_text(v) for v in df[0].tolist()]]
+    lines = np.fromiter(map(itemgetter(0), numbered), dtype=np.int64, count=len(numbered))
+    return lines, cols, extra, [], decimal
+
+
+def _cell_text(v: Any) -> str:
+    """A parsed cell back to text: NaN -> "", 7.0 -> "7"."""
+    if type(v) is str:
+        return v
+    if v is None or v != v:
+        return ""
+    if isinstance(v, float) and v.is_integer():
+        return str(int(v))
+    return str(v)
 
 
 def _ambiguous_thousands(v: np.ndarray) -> bool:
@@ -947,11 +976,15 @@ def _decode(data: bytes, name: str) -> str:
     return text
 
 
-_BINARY_RE = re.compile("[\x00-\x08\x0e-\x1f\x7f\ufffd]")
+_CONTROL_BYTES = bytes([*range(0, 9), *range(14, 32), 127])
+_OTHER_BYTES = bytes(b for b in range(256) if b not in _CONTROL_BYTES)
 
 
 def _check_text(text: str, name: str) -> None:
-    bad = len(_BINARY_RE.findall(text, 0, 20000))
+    head = text[:20000]
+    # control characters (by deleting every other byte of the UTF-8 form) and undecodable bytes
+    bad = len(head.encode("utf-8", "surrogatepass").translate(None, _OTHER_BYTES))
+    bad += head.count("\ufffd")
     if bad > max(2, len(text[:20000]) // 50):
         raise InputError(f"{name}: not a text table ({bad} control or undecodable characters); "
                          f"give a CSV/TXT/TSV or Excel export of the peak table")

@@ -95,9 +95,13 @@ def test_shipped_against_coolprop(shipped, name, fluid):
 def test_shipped_rows_consistent_with_normal_boiling_point(shipped):
     # The boiling points in components.csv come from other tables (CRC Handbook, NIST WebBook,
     # CAS Common Chemistry via chemicals 1.5.2) than most correlations (Landolt-Börnstein, VDI,
-    # Perry's, Poling): each correlation must give 101.325 kPa there within 5 % (about 1.3 K).
+    # Perry's, Poling): each correlation must give 101.325 kPa there within 5 % (about 1.3 K),
+    # wherever Tb lies within 30 K of the correlation's range (a narrow-range Antoine fitted near
+    # 37.8 °C is not meant to reach a boiling point 80 K away).
     comp = pd.read_csv(LIB.parent / "components.csv").set_index("name")
     tb_k = shipped["name"].map(comp["boiling_point_c"]).to_numpy() + 273.15
+    near = (tb_k >= shipped["tmin_k"] - 30) & (tb_k <= shipped["tmax_k"] + 30)
+    assert near.sum() > 0.95 * len(shipped)
     p = psat_kpa(shipped, tb_k)
-    bad = shipped["name"][np.abs(p / 101.325 - 1) > 0.05].tolist()
+    bad = shipped["name"][near & (np.abs(p / 101.325 - 1) > 0.05)].tolist()
     assert bad == []

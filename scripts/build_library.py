@@ -222,7 +222,9 @@ def static_refs() -> None:
              "identifier database maps the stereoisomer to the wrong CAS (trans-2-hexene: chemicals calls "
              "592-43-8 trans-2-hexene; CAS 4050-45-7 is (E)-2-hexene, 592-43-8 is 2-hexene without stereo, "
              "from memory; the CRC boiling point chemicals files under 4050-45-7, 67.9 °C, is that of the "
-             "trans isomer, which supports it)",
+             "trans isomer, which supports it). Likewise chemicals names both 592-78-9 and 14686-14-7 "trans-3-heptene"; "
+             "14686-14-7 is (E)-3-heptene and 592-78-9 3-heptene without stereo (from memory), and the InChIKey of "
+             "(E)-3-heptene resolves to 592-78-9 in chemicals; the library uses 14686-14-7)",
         url="https://commonchemistry.cas.org/", licence="facts")
     ref("scanlon-willis-1985",
         cite="J. T. Scanlon, D. E. Willis, Calculation of flame ionization detector relative response factors "
@@ -1021,6 +1023,7 @@ def build(specs: list[Spec]):
         if tb is None:
             raise SystemExit(f"{s.name}: no measured boiling point")
         counts["boiling_point"]["reference-library"] += 1
+        counts["molar_mass"]["computed (Hill formula, IUPAC 2021 weights)"] += 1
         rho, rho_key, rho_kind, _ = density_15c(s, mw, tb, rho_log)
         if rho_kind != "none":
             counts["density_15c"][{"data": "reference-library", "crc": "estimated (CRC point + COSTALD ratio)",

@@ -222,7 +222,7 @@ def static_refs() -> None:
              "identifier database maps the stereoisomer to the wrong CAS (trans-2-hexene: chemicals calls "
              "592-43-8 trans-2-hexene; CAS 4050-45-7 is (E)-2-hexene, 592-43-8 is 2-hexene without stereo, "
              "from memory; the CRC boiling point chemicals files under 4050-45-7, 67.9 °C, is that of the "
-             "trans isomer, which supports it). Likewise chemicals names both 592-78-9 and 14686-14-7 "trans-3-heptene"; "
+             "trans isomer, which supports it). Likewise chemicals names both 592-78-9 and 14686-14-7 trans-3-heptene; "
              "14686-14-7 is (E)-3-heptene and 592-78-9 3-heptene without stereo (from memory), and the InChIKey of "
              "(E)-3-heptene resolves to 592-78-9 in chemicals; the library uses 14686-14-7)",
         url="https://commonchemistry.cas.org/", licence="facts")

@@ -79,7 +79,7 @@ import zipfile
 from dataclasses import dataclass, field
 from datetime import date, datetime, time
 from functools import lru_cache
-from operator import itemgetter
+from itertools import repeat
 from pathlib import Path
 from typing import Any
 
@@ -746,17 +746,20 @@ def _peak_rows(hdr, cols, nums, free, mark, raw, line_arr, rs, logs, header_row,
         logs.append({"row": first_bad, "action": "changed",
                      "reason": f"rows not in retention-time order; table sorted by rt_min "
                                f"({moved} rows moved)"})
-    nan = np.full(len(order), np.nan)
+    m = len(order)
     data: dict[str, Any] = {"row": line_arr[order]}
     for role in ("rt_min", "area", "height", "area_pct"):
-        data[role] = (rt if role == "rt_min" else nums[role])[order] if role in nums else nan
+        data[role] = ((rt if role == "rt_min" else nums[role])[order] if role in nums
+                      else np.full(m, np.nan))
     for role in ("name", "cas"):
         t = cols.get(role)
-        vals = [t[i] or None for i in order.tolist()] if t is not None else [None] * len(order)
-        data[role] = pd.Series(vals, dtype=object)
+        vals = np.full(len(order), None, dtype=object)
+        if t is not None:
+            vals[:] = [t[i] or None for i in order.tolist()]
+        data[role] = pd.Series(vals, dtype=object, copy=False)
     for role in ("retention_index", "cds_mass_pct"):
-        data[role] = nums[role][order] if role in nums else nan
-    return pd.DataFrame(data), None
+        data[role] = nums[role][order] if role in nums else np.full(m, np.nan)
+    return pd.DataFrame(data, copy=False), None
 
 
 def _composition_rows(hdr, cols, nums, free, mark, raw, line_arr):
@@ -850,21 +853,31 @@ def _read_text(text: str, name: str, rs: dict[str, Any]) -> Run:
     fast = None
     decimal = None
     if sep in (",", ";", "\t"):
-        numbered = [(j + 1, ln) for j, ln in enumerate(lines[hi + 1:], start=hi + 1)
-                    if ln.strip(strip_chars)]
-        body_text = "\n".join(ln for _, ln in numbered)
+        body_lines = lines[hi + 1:]
+        while body_lines and not body_lines[-1].strip(strip_chars):
+            body_lines.pop()           # trailing blank lines
+        stripped = list(map(str.strip, body_lines, repeat(strip_chars, len(body_lines))))
+        if all(stripped):              # no blank lines: the usual case, no per-line loop
+            kept = body_lines
+            line_nos = np.arange(hi + 2, hi + 2 + len(body_lines), dtype=np.int64)
+        else:                          # drop blank (or separator-only) lines, keep numbers
+            idx = [j for j, t in enumerate(stripped) if t]
+            kept = [body_lines[j] for j in idx]
+            line_nos = np.asarray(idx, dtype=np.int64) + (hi + 2)
+        body_text = "\n".join(kept)
         fixed = None if rs["decimal"] == "auto" else rs["decimal"]
-        fast = _fast_columns(body_text, numbered, sep, hdr, fixed)
+        fast = _fast_columns(body_text, line_nos, sep, hdr, fixed)
         if fast is not None:
             *fast, decimal = fast
         else:
             decimal = fixed
             try:
-                parsed = list(csv.reader([ln for _, ln in numbered], delimiter=sep,
+                parsed = list(csv.reader(kept, delimiter=sep,
                                          skipinitialspace=True))
             except csv.Error as err:
                 raise InputError(f"{name}: cannot split the table into cells ({err}); check "
                                  f"the quotes in the export") from None
+            numbered = list(zip(line_nos.tolist(), kept))
             if len(parsed) == len(numbered):
                 body = [(ln, cells, None) for (ln, _), cells in zip(numbered, parsed)]
             else:   # a quoted field spans lines: fall back to line-by-line splitting
@@ -879,7 +892,7 @@ def _read_text(text: str, name: str, rs: dict[str, Any]) -> Run:
                       decimal, rs)
 
 
-def _fast_columns(body_text: str, numbered: list[tuple[int, str]], sep: str, hdr: _Header,
+def _fast_columns(body_text: str, line_nos: np.ndarray, sep: str, hdr: _Header,
                   decimal: str | None):
     """Columns of a delimited body through pandas' C parser.
 
@@ -890,7 +903,7 @@ def _fast_columns(body_text: str, numbered: list[tuple[int, str]], sep: str, hdr
     again with a decimal comma.
     """
     n = len(hdr.cells)
-    if not numbered:
+    if not len(line_nos):
         return None
     text_cols = {hdr.roles[r] for r in ("name", "cas") if r in hdr.roles}
     numeric = {r: i for r, i in hdr.roles.items() if r not in ("name", "cas")}
@@ -904,7 +917,7 @@ def _fast_columns(body_text: str, numbered: list[tuple[int, str]], sep: str, hdr
                              low_memory=False, skip_blank_lines=False)
         except (pd.errors.ParserError, ValueError, OverflowError):
             return None
-        if (len(df) != len(numbered) or not isinstance(df.index, pd.RangeIndex)
+        if (len(df) != len(line_nos) or not isinstance(df.index, pd.RangeIndex)
                 or df[n].notna().to_numpy().any()):
             return None
         return df
@@ -935,8 +948,7 @@ def _fast_columns(body_text: str, numbered: list[tuple[int, str]], sep: str, hdr
                           for v in c.tolist()]
     extra = [] if 0 not in text_cols else [
         [v if type(v) is str else "" if v != v else _cell_text(v) for v in df[0].tolist()]]
-    lines = np.fromiter(map(itemgetter(0), numbered), dtype=np.int64, count=len(numbered))
-    return lines, cols, extra, [], decimal
+    return line_nos, cols, extra, [], decimal
 
 
 def _cell_text(v: Any) -> str:

@@ -248,6 +248,9 @@ class _Header:
     basis: str | None
 
 
+_LETTER = re.compile(r"[^\W\d_]")
+
+
 def _map_header(cells: list[Any], pinned: dict[str, str]) -> _Header:
     aliases = _aliases()
     texts = ["" if c is None else str(c).strip() for c in cells]
@@ -257,10 +260,10 @@ def _map_header(cells: list[Any], pinned: dict[str, str]) -> _Header:
     matches: dict[str, list[int]] = {}
     units: dict[str, str] = {}
     for i, text in enumerate(texts):
-        if not text or not any(ch.isalpha() for ch in text) and "%" not in text:
+        if not text or not _LETTER.search(text) and "%" not in text:
             continue
         key, unit = _norm_header(text)
-        role = pinned_by_text.get(" ".join(text.split()).lower())
+        role = pinned_by_text.get(" ".join(text.split()).lower()) if pinned_by_text else None
         if role is None:
             role = aliases.get(key)
             if role is None:
@@ -544,20 +547,29 @@ def _texts(values: list[Any] | np.ndarray) -> list[str] | None:
 _TOTAL_C = re.compile(_TOTAL_RE, re.I)
 
 
-_TOTAL_ANY = re.compile(_TOTAL_RE.replace("^", "^", 1), re.I | re.M)
 
 
 def _total_mask(texts: list[str]) -> np.ndarray:
-    """Rows whose text starts like a total ("Total", "Sum", ...), by one pass over the column."""
+    """Rows whose text starts like a total ("Total", "Sum", ...).
+
+    The column is searched as one string for the words; only rows holding one are matched
+    against the pattern, so a column without totals costs a few substring searches.
+
+    >>> _total_mask(["1", "Sum", "toluene", "Grand total", "summit"]).tolist()
+    [False, True, False, True, False]
+    """
     out = np.zeros(len(texts), dtype=bool)
-    blob = "\n".join(texts)
-    low = blob.lower()
-    if "total" not in low and "sum" not in low and "σ" not in low and "∑" not in low:
-        return out
-    if blob.count("\n") != len(texts) - 1:          # a cell holds a line break
-        blob = "\n".join(t.replace("\n", " ") for t in texts)
-    for m in _TOTAL_ANY.finditer(blob):
-        out[blob.count("\n", 0, m.start())] = True
+    low = "\n".join(texts).lower()
+    if low.count("\n") != len(texts) - 1:            # a cell holds a line break
+        low = "\n".join(t.replace("\n", " ") for t in texts).lower()
+    for word in ("total", "sum", "σ", "∑"):
+        pos = low.find(word)
+        while pos != -1:
+            row = low.count("\n", 0, pos)
+            if not out[row] and _TOTAL_C.match(texts[row]):
+                out[row] = True
+            nxt = low.find("\n", pos)
+            pos = -1 if nxt == -1 else low.find(word, nxt)
     return out
 
 
@@ -814,7 +826,7 @@ def _read_text(text: str, name: str, rs: dict[str, Any]) -> Run:
     best: tuple[int, _Header] | None = None
     found = None
     for i, line in enumerate(lines):
-        if not any(ch.isalpha() for ch in line) or _KEY_RE.match(line):
+        if not _LETTER.search(line) or _KEY_RE.match(line):
             continue         # no words, or a "key: value" metadata line
         cand = None
         for sep in seps:

@@ -285,3 +285,23 @@ def test_amounts_exact_for_long_decimals():
     run, = read_text(text, "exact.csv")
     assert run.table["area"].tolist() == [float(v) for v in vals]
     assert not any(math.isnan(v) for v in run.table["area"])
+
+
+TEXT_VARIANTS = [p for p in EXPECTED
+                 if json.loads(p.read_text(encoding="utf-8"))["file"].endswith(
+                     (".csv", ".txt", ".tsv"))]
+
+
+@pytest.mark.parametrize("expected_file", TEXT_VARIANTS, ids=lambda p: p.name.split(".")[0])
+def test_fast_and_row_by_row_paths_agree(expected_file, monkeypatch):
+    # the pandas C-parser fast path and the csv-module path must read a file identically
+    import dha.reader as reader
+    exp = json.loads(expected_file.read_text(encoding="utf-8"))
+    settings = _settings(exp["settings"])
+    fast = read_input(EXPORTS / exp["file"], settings)
+    monkeypatch.setattr(reader, "_fast_columns", lambda *args: None)
+    slow = read_input(EXPORTS / exp["file"], settings)
+    for a, b in zip(fast, slow):
+        pd.testing.assert_frame_equal(a.table, b.table)
+        assert a.import_log == b.import_log
+        assert a.sample == b.sample

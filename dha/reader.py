@@ -697,8 +697,9 @@ def _build_run(source: str, stem: str, injection: str | None, sample: dict[str, 
     if table.empty:
         raise InputError(
             f"{source}{f' [{injection}]' if injection else ''}: the table under the header at "
-            f"row {header_row} has no usable row ({nrows} rows, all skipped: "
-            f"{logs[0]['reason'] if logs else 'no rows'}); check the export")
+            f"row {header_row} has no usable row ("
+            + (f"{nrows} rows, all skipped, e.g. row {logs[0]['row']}: {logs[0]['reason']}"
+               if logs else "no rows below the header") + "); check the export")
     if sample.get("id") is None:
         sample["id"] = f"{stem}-{injection}" if injection else stem
     return Run(source_file=source, injection=injection, sample=sample, kind=hdr.kind,

@@ -379,7 +379,8 @@ def _meta_pair(cells: list[Any], comma: bool = False) -> tuple[str, str | None] 
             rest = m.group(2) or (_meta_value(vals[1]) if len(vals) > 1 else None)
             return m.group(1).strip(), _meta_value(rest)
         words = first.split()
-        if len(vals) == 1 and 2 <= len(words) <= 4 and len(words[-1]) > 1:
+        if len(vals) == 1 and 2 <= len(words) <= 4 and (
+                len(words[-1]) > 1 or words[-1].isdigit()):
             # "Sample HP-2351": a known sample key followed by one word
             key = " ".join(words[:-1])
             if _aliases().get(_norm_header(key)[0], "").startswith("sample."):

@@ -49,7 +49,7 @@ _PARENTS = ("meth", "eth", "prop", "but", "pent", "hex", "hept", "oct", "non", "
             "dodec", "tridec", "tetradec")
 # "but-2-ene" -> "2-butene", "buta-1,3-diene" -> "1,3-butadiene", "propan-2-ol" -> "2-propanol"
 _INFIX_RE = re.compile(r"((?:cyclo)?(?:" + "|".join(sorted(_PARENTS, key=len, reverse=True))
-                       + r")(?:a|an)?)-(\d+(?:,\d+)*)-(ene|diene|triene|yne|ol|diol|one)\b")
+                       + r")(?:a|an)?)[-\s](\d+(?:,\d+)*)[-\s](ene|diene|triene|yne|ol|diol|one)\b")
 _STEREO_RE = [
     (re.compile(r"\((?:\d+)?e\)-?"), "trans-"),
     (re.compile(r"\((?:\d+)?z\)-?"), "cis-"),
@@ -444,15 +444,29 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             markers = scale.markers
             peak_ri = np.where(from_export, export_ri, scale.index(rt))
             log.info("retention indices from %d n-alkane markers (%s)", len(markers), how)
+            _mark_alkanes(table, markers, _index_for(library).n_alkanes, warnings)
         elif not table["component"].notna().all():
             warnings.append("no retention indices: the export has none and no n-alkane markers "
                             "were found; peaks without a known name stay unidentified")
 
     # 2. alignment of the peaks left
-    comp = table["component"].to_numpy(dtype=object)
+    comp = table["component"].to_numpy(dtype=object).copy()
     used = {c for c in comp if c is not None}
     pool_mask = np.array([n not in used for n in lib["name"]], dtype=bool)
+    # a known co-eluting pair is one entry (its first member, spanning both indices): the
+    # co-elution step then gives the partner its share
+    partners = _coelution_partners(library, used)
+    pool_mask &= ~lib["name"].isin(list(partners.values())).to_numpy()
     pool = np.flatnonzero(pool_mask)
+    pool_lo = lib_ri[pool].copy()
+    pool_hi = lib_ri[pool].copy()
+    for k, j in enumerate(pool):
+        b = partners.get(lib["name"].iat[j])
+        if b is not None and b in lib_pos:
+            pool_lo[k] = min(lib_ri[j], lib_ri[lib_pos[b]])
+            pool_hi[k] = max(lib_ri[j], lib_ri[lib_pos[b]])
+    order = np.argsort(pool_lo, kind="stable")
+    pool, pool_lo, pool_hi = pool[order], pool_lo[order], pool_hi[order]
     todo = np.flatnonzero((table["component"].isna().to_numpy()) & np.isfinite(peak_ri))
     if len(todo) and len(pool):
         anchor_rows = np.array([i for i in range(len(table))
@@ -463,13 +477,13 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             a_ri = lib_ri[[lib_pos[comp[i]] for i in anchor_rows]]
             keep = _consistent_anchors(rt[anchor_rows], a_ri)
             a_rt, a_ri = rt[anchor_rows[keep]], a_ri[keep]
-            pool_ri = lib_ri[pool]
             k = np.searchsorted(a_rt, rt[todo], side="right")       # anchors before: k
             lo_ri = np.where(k > 0, a_ri[np.maximum(k - 1, 0)], -np.inf)
             hi_ri = np.where(k < len(a_rt), a_ri[np.minimum(k, len(a_rt) - 1)], np.inf)
-            lo = np.searchsorted(pool_ri, lo_ri, side="right")
-            hi = np.searchsorted(pool_ri, hi_ri, side="left")
-        assign, _ = rx.align_indices(peak_ri[todo], lib_ri[pool], tol, lo=lo, hi=hi)
+            lo = np.searchsorted(pool_lo, lo_ri, side="right")
+            hi = np.searchsorted(pool_lo, hi_ri, side="left")
+        assign, _ = rx.align_indices(peak_ri[todo], pool_lo, tol, lo=lo, hi=hi,
+                                     lib_index_hi=pool_hi)
         for p, j in zip(todo, assign):
             if j >= 0:
                 comp[p] = lib["name"].iat[pool[j]]
@@ -512,6 +526,44 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         log.warning(w)
     table.attrs = {"warnings": warnings, "markers": markers, "unknown_names": unknown_names}
     return table
+
+
+def _mark_alkanes(table: pd.DataFrame, markers: dict[int, float], n_alkanes: dict[int, str],
+                  warnings: list[str]) -> None:
+    """The marker peaks are their n-alkanes (in place; named peaks are left alone).
+
+    A marker time from the settings is matched to the nearest peak within
+    max(0.02 min, 0.1 % of the time).
+    """
+    rt = table["rt_min"].to_numpy(dtype=float)
+    named = set(table["component"].dropna())
+    for c, t in markers.items():
+        name = n_alkanes.get(c)
+        if name is None or name in named or len(rt) == 0:
+            continue
+        i = int(np.argmin(np.abs(rt - t)))
+        if abs(rt[i] - t) > max(0.02, 0.001 * t):
+            warnings.append(f"n-alkane marker C{c} at {t:g} min has no peak within "
+                            f"{max(0.02, 0.001 * t):.3g} min; its n-alkane stays unassigned")
+            continue
+        if table.at[i, "component"] is None:
+            table.at[i, "component"] = name
+            table.at[i, "match"] = "retention_index"
+            named.add(name)
+
+
+def _coelution_partners(library: Any, used: set) -> dict[str, str]:
+    """{name_a: name_b} of the co-elution pairs with neither member named in the export."""
+    co = getattr(library, "coelution", None)
+    out: dict[str, str] = {}
+    if co is None or len(co) == 0:
+        return out
+    comps = library.components.index
+    for a, b in zip(co["name_a"], co["name_b"]):
+        if a in comps and b in comps and a not in used and b not in used and a not in out \
+                and b not in out and a not in out.values() and b not in out.values():
+            out[a] = b
+    return out
 
 
 def _find_scale(table: pd.DataFrame, library: Any, s: dict[str, Any], lib: pd.DataFrame,

@@ -30,6 +30,7 @@ import pandas as pd
 from dha.errors import SettingsError
 
 log = logging.getLogger("dha.retention")
+_DEBUG = False
 
 
 @dataclass(frozen=True)
@@ -46,12 +47,15 @@ class IndexScale:
         End of the isothermal hold [min]; 0 = fully programmed.
     holdup_time_min : float
         Hold-up time t_M used for adjusted times [min].
+    virtual : tuple of int
+        Carbon numbers whose times were extrapolated (see :func:`extend_markers`), not seen.
     """
 
     carbon: np.ndarray
     rt_min: np.ndarray
     isothermal_until_min: float = 0.0
     holdup_time_min: float = 0.0
+    virtual: tuple = ()
 
     def __post_init__(self) -> None:
         if len(self.carbon) < 2:
@@ -65,8 +69,9 @@ class IndexScale:
 
     @property
     def markers(self) -> dict[int, float]:
-        """{carbon number: rt [min]}."""
-        return {int(c): float(t) for c, t in zip(self.carbon, self.rt_min)}
+        """{carbon number: rt [min]} of the markers seen in the run (not the extrapolated)."""
+        return {int(c): float(t) for c, t in zip(self.carbon, self.rt_min)
+                if int(c) not in self.virtual}
 
     def _bracket(self, x: np.ndarray, along: np.ndarray) -> np.ndarray:
         k = np.searchsorted(along, x, side="right") - 1
@@ -143,9 +148,64 @@ def estimate_holdup(markers: Mapping[int, float], isothermal_until_min: float,
     return 0.0
 
 
+def extend_markers(markers: Mapping[int, float], isothermal_until_min: float = 0.0,
+                   holdup_time_min: float = 0.0, n_extra: int = 2) -> dict[int, float]:
+    """Extrapolated n-alkane times beyond the first and last marker [min].
+
+    The spacing of consecutive n-alkanes changes by a slowly varying factor: constant in an
+    isothermal hold (Kovats: log t' linear in n), close to but below 1 late in a temperature
+    programme. Beyond the last marker the last spacing ratio
+    ``r = (t_N - t_(N-1)) / (t_(N-1) - t_(N-2))`` is kept (capped at 1):
+    ``t_(N+1) = t_N + r (t_N - t_(N-1))``. Before the first marker inside an isothermal hold the
+    adjusted times form a geometric series, ``t'_(n-1) = t'_n^2 / t'_(n+1)``; in a programmed
+    start the first spacing ratio is used the same way. Extrapolated times must keep moving
+    away from the markers; those that do not are dropped.
+
+    >>> ext = extend_markers({6: 10.0, 7: 20.0, 8: 29.0, 9: 37.0}, n_extra=1)
+    >>> sorted(ext), round(ext[10], 3)
+    ([10], 44.111)
+    """
+    items = sorted((int(c), float(t)) for c, t in markers.items())
+    out: dict[int, float] = {}
+    if len(items) < 3:
+        return out
+    c = [x for x, _ in items]
+    t = [y for _, y in items]
+    if c[-1] - c[-3] == 2:
+        d1, d2 = t[-2] - t[-3], t[-1] - t[-2]
+        r = min(d2 / d1, 1.0) if d1 > 0 else 1.0
+        last, d = t[-1], d2
+        for k in range(1, n_extra + 1):
+            d *= r
+            last += d
+            out[c[-1] + k] = last
+    if c[2] - c[0] == 2:
+        iso = isothermal_until_min > 0 and t[1] <= isothermal_until_min and holdup_time_min > 0
+        if iso:
+            a, b = t[0] - holdup_time_min, t[1] - holdup_time_min
+            for k in range(1, n_extra + 1):
+                a, b = a * a / b, a
+                out[c[0] - k] = holdup_time_min + a
+        else:
+            d1, d2 = t[1] - t[0], t[2] - t[1]
+            r = min(d2 / d1, 1.0) if d1 > 0 else 1.0
+            first, d = t[0], d1
+            for k in range(1, n_extra + 1):
+                d /= r
+                first -= d
+                if first <= 0:
+                    break
+                out[c[0] - k] = first
+    return {k: v for k, v in out.items() if k >= 1}
+
+
 def make_scale(markers: Mapping[int, float], settings: Mapping[str, Any] | None = None,
-               first_peak_min: float | None = None) -> IndexScale:
-    """An :class:`IndexScale` from markers and the ``[identify]`` settings section."""
+               first_peak_min: float | None = None, extend: int = 2) -> IndexScale:
+    """An :class:`IndexScale` from markers and the ``[identify]`` settings section.
+
+    ``extend`` extrapolated markers (:func:`extend_markers`) are added at each end, so peaks
+    outside the marker range are indexed with a bracket of the expected width.
+    """
     s = settings or {}
     iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
     tm = float(s.get("holdup_time_min", 0.0) or 0.0)
@@ -157,7 +217,15 @@ def make_scale(markers: Mapping[int, float], settings: Mapping[str, Any] | None 
     if iso > 0 and len(rt) and tm >= rt[0]:
         raise SettingsError(f"identify.holdup_time_min = {tm:g} min is not before the first "
                             f"n-alkane marker ({rt[0]:g} min); lower it")
-    return IndexScale(carbon, rt, iso, tm)
+    virtual: tuple = ()
+    if extend > 0 and len(items) >= 3:
+        ext = extend_markers(dict(items), iso, tm, extend)
+        if ext:
+            virtual = tuple(sorted(ext))
+            items = sorted(items + list(ext.items()))
+            carbon = np.array([c for c, _ in items], dtype=int)
+            rt = np.array([t for _, t in items], dtype=float)
+    return IndexScale(carbon, rt, iso, tm, virtual)
 
 
 def parse_markers(raw: Mapping[Any, Any] | None) -> dict[int, float]:
@@ -182,89 +250,104 @@ def parse_markers(raw: Mapping[Any, Any] | None) -> dict[int, float]:
 # Automatic marker search
 # --------------------------------------------------------------------------------------------
 
-def candidate_chains(rt_min: np.ndarray, size: np.ndarray, *, n_candidates: int = 45,
-                     min_length: int = 4, max_ratio: float = 4.0,
-                     n_best: int = 12) -> list[list[int]]:
-    """Chains of tall peaks with monotone, smoothly varying spacing (n-alkane candidates).
+def candidate_chains(rt_min: np.ndarray, size: np.ndarray, *, n_candidates: int = 60,
+                     min_length: int = 4, n_best: int = 4, ratio_range=(0.6, 4.0),
+                     ratio_rise: float = 0.15, smooth_weight: float = 2.0) -> list[list[int]]:
+    """Chains of tall peaks whose spacings change smoothly (n-alkane candidates).
 
-    The ``n_candidates`` tallest peaks are taken in time order. A chain a_1 < a_2 < ... is
-    scored by a dynamic programme over pairs (previous, current): each member earns its size
-    rank score ``log(size / median size)``; each step pays ``2 (ln r)^2`` where
-    ``r = (t_{k+1} - t_k) / (t_k - t_{k-1})`` is the ratio of consecutive spacings, and steps
-    with ``r`` outside [1/max_ratio, max_ratio] are forbidden. n-Alkane spacings grow by a
-    constant factor in an isothermal hold and stay nearly constant under a temperature
-    programme, so the true series has small, slowly changing ``ln r`` (common practice, no
-    source).
+    Parameters
+    ----------
+    rt_min, size : ndarray
+        Retention times [min] (sorted) and areas of the peaks.
+    n_candidates : int
+        The tallest peaks considered.
+    min_length : int
+        Shortest chain returned.
+    n_best : int
+        Number of chains returned (no chain is a sub-chain of a better one).
+    ratio_range : (float, float)
+        Allowed ratio ``r = (t_(k+1) - t_k) / (t_k - t_(k-1))`` of consecutive spacings.
+    ratio_rise : float
+        Largest allowed rise of ``ln r`` from one step to the next.
+    smooth_weight : float
+        Weight of the penalty ``(ln r_k - ln r_(k-1))^2``.
 
     Returns
     -------
     list of list of int
-        Up to ``n_best`` chains (positions into ``rt_min``) of at least ``min_length`` peaks,
-        best first, plus their prefixes/suffixes are not repeated.
+        Positions into ``rt_min``, best chain first.
+
+    Notes
+    -----
+    The spacing of consecutive n-alkanes grows by a constant factor in an isothermal hold
+    (Kovats: log t' linear in carbon number) and stays nearly constant, slowly shrinking,
+    under a temperature programme; the ratio of consecutive spacings therefore never rises
+    (within ``ratio_rise``) along the series. A peak wrongly inserted into the series makes a
+    small ratio followed by a large one, which this forbids. The dynamic programme runs over
+    states (previous, current) keeping the ``ln r`` of the best path into each state;
+    each member earns ``1 + ln(size / median size)``. O(K^3) for K candidates.
     """
     n = len(rt_min)
     if n < min_length:
         return []
-    order = np.argsort(-size, kind="stable")[: min(n_candidates, n)]
-    cand = np.sort(order)
-    t = rt_min[cand]
-    s = size[cand]
-    med = np.median(s[s > 0]) if np.any(s > 0) else 1.0
-    gain = np.log(np.maximum(s, 1e-12) / med) + 1.0
+    cand = np.sort(np.argsort(-size, kind="stable")[: min(n_candidates, n)])
     k = len(cand)
-    # best[j, i]: best score of a chain ending with (..., j, i), j < i
+    t = rt_min[cand]
+    sz = np.maximum(size[cand], 1e-300)
+    gain = 1.0 + np.log(sz / np.median(sz))
     neg = -1e18
-    best = np.full((k, k), neg)
-    back = np.full((k, k), -1, dtype=int)
-    length = np.zeros((k, k), dtype=int)
-    dt = t[None, :] - t[:, None]                    # dt[j, i] = t_i - t_j
-    valid_pair = dt > 0
-    best[valid_pair] = (gain[:, None] + gain[None, :])[valid_pair]
-    length[valid_pair] = 2
-    for i in range(k):
-        for j in range(i):
-            if not valid_pair[j, i]:
-                continue
-            # predecessor h < j: ratio r = (t_i - t_j) / (t_j - t_h)
-            prev = best[:j, j]
-            if prev.size == 0:
-                continue
-            r = dt[j, i] / dt[:j, j]
-            ok = (r >= 1.0 / max_ratio) & (r <= max_ratio) & (prev > neg / 2)
-            if not np.any(ok):
-                continue
-            sc = np.where(ok, prev - 2.0 * np.log(np.where(ok, r, 1.0)) ** 2, neg)
-            h = int(np.argmax(sc))
-            cand_score = sc[h] + gain[i]
-            if cand_score > best[j, i]:
-                best[j, i] = cand_score
-                back[j, i] = h
-                length[j, i] = length[h, j] + 1
+    dt = t[None, :] - t[:, None]                       # dt[h, j] = t_j - t_h
+    V = np.where(dt > 0, gain[:, None] + gain[None, :], neg)
+    R = np.full((k, k), np.nan)                          # ln r into state (h, j)
+    B = np.full((k, k), -1, dtype=int)
+    L = np.where(dt > 0, 2, 0)
+    lo_r, hi_r = np.log(ratio_range[0]), np.log(ratio_range[1])
+    for j in range(1, k - 1):
+        hs = np.flatnonzero(V[:j, j] > neg / 2)
+        if hs.size == 0:
+            continue
+        iis = np.arange(j + 1, k)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r = np.log(dt[j, iis][None, :] / dt[hs, j][:, None])     # [h, i]
+        prev_r = R[hs, j][:, None]
+        ok = (r >= lo_r) & (r <= hi_r) & ~(np.isfinite(prev_r) & (r > prev_r + ratio_rise))
+        pen = np.where(np.isfinite(prev_r), smooth_weight * (r - prev_r) ** 2, 0.0)
+        tot = np.where(ok, V[hs, j][:, None] - pen, neg)
+        best_h = np.argmax(tot, axis=0)
+        best = tot[best_h, np.arange(len(iis))] + gain[iis]
+        upd = best > V[j, iis]
+        if np.any(upd):
+            ii = iis[upd]
+            hh = hs[best_h[upd]]
+            V[j, ii] = best[upd]
+            R[j, ii] = r[best_h[upd], np.flatnonzero(upd)]
+            B[j, ii] = hh
+            L[j, ii] = L[hh, j] + 1
     chains: list[list[int]] = []
-    seen: set[tuple[int, ...]] = set()
-    flat = np.argsort(-best, axis=None)
-    for f in flat:
-        j, i = divmod(int(f), k)
-        if best[j, i] <= neg / 2 or len(chains) >= n_best:
+    for f in np.argsort(-V, axis=None):
+        if len(chains) >= n_best:
             break
-        if length[j, i] < min_length:
+        h, j = divmod(int(f), k)
+        if V[h, j] <= neg / 2:
+            break
+        if L[h, j] < min_length:
             continue
-        chain = [i, j]
-        a, b = j, i
-        while back[a, b] >= 0:
-            a, b = int(back[a, b]), a
+        chain = [j, h]
+        a, b = h, j
+        while B[a, b] >= 0:
+            a, b = int(B[a, b]), a
             chain.append(a)
-        chain = tuple(int(cand[c]) for c in reversed(chain))
-        if any(set(chain) <= set(c) for c in seen):
+        chain = [int(cand[c]) for c in reversed(chain)]
+        if any(set(chain) <= set(c) for c in chains):
             continue
-        seen.add(chain)
-        chains.append(list(chain))
+        chains.append(chain)
     return chains
 
 
 def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: float, *,
                   weight: np.ndarray | None = None, lo: np.ndarray | None = None,
-                  hi: np.ndarray | None = None) -> tuple[np.ndarray, float]:
+                  hi: np.ndarray | None = None, lib_index_hi: np.ndarray | None = None
+                  ) -> tuple[np.ndarray, float]:
     """Order-preserving one-to-one assignment of peaks to library entries by their indices.
 
     Parameters
@@ -279,6 +362,10 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         Weight of each peak's gain (default 1).
     lo, hi : ndarray of int, shape (P,), optional
         Allowed library positions ``lo <= j < hi`` per peak (anchors from named peaks).
+    lib_index_hi : ndarray, shape (C,), optional
+        Upper ends when library entries are intervals ``[lib_index, lib_index_hi]`` (a
+        co-eluting pair is one entry spanning both indices); the distance is then to the
+        interval (0 inside).
 
     Returns
     -------
@@ -311,7 +398,9 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
     lo = np.zeros(n_p, dtype=int) if lo is None else np.asarray(lo, dtype=int)
     hi = np.full(n_p, n_c, dtype=int) if hi is None else np.asarray(hi, dtype=int)
     # window of candidate library positions per peak
-    left = np.maximum(np.searchsorted(c_idx, p_idx - tolerance, side="left"), lo)
+    c_hi = c_idx if lib_index_hi is None else np.maximum(np.asarray(lib_index_hi, float), c_idx)
+    run_hi = np.maximum.accumulate(c_hi)
+    left = np.maximum(np.searchsorted(run_hi, p_idx - tolerance, side="left"), lo)
     right = np.minimum(np.searchsorted(c_idx, p_idx + tolerance, side="right"), hi)
     finite = np.isfinite(p_idx)
     g_rows = np.zeros((n_p + 1, n_c + 1))
@@ -321,8 +410,8 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         row = prev.copy()
         if finite[p] and right[p] > left[p]:
             js = cols[left[p]:right[p]]
-            d = (p_idx[p] - c_idx[js]) / tolerance
-            gain = w[p] * (1.0 - d * d)
+            d = np.maximum(np.maximum(c_idx[js] - p_idx[p], p_idx[p] - c_hi[js]), 0.0) / tolerance
+            gain = np.where(d <= 1.0, w[p] * (1.0 - d * d), -np.inf)
             cand = prev[js] + gain
             sub = row[js + 1]
             row[js + 1] = np.maximum(sub, cand)
@@ -343,16 +432,60 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
     return assign, float(g_rows[n_p, n_c])
 
 
+class _Lookup:
+    """Grid over the index axis: match quality g and the nearest library entry's position.
+
+    ``g(I) = max(0, 1 - (d / tol)^2)`` with d the distance to the nearest library index.
+    """
+
+    def __init__(self, lib: np.ndarray, tolerance: float, lo: float, hi: float,
+                 step: float = 0.05) -> None:
+        self.lo, self.step = lo, step
+        grid = np.arange(lo, hi + step, step)
+        k = np.clip(np.searchsorted(lib, grid), 1, len(lib) - 1) if len(lib) > 1 else \
+            np.zeros(len(grid), dtype=int)
+        left, right = lib[np.maximum(k - 1, 0)], lib[k]
+        take_left = np.abs(grid - left) <= np.abs(right - grid)
+        d = np.where(take_left, np.abs(grid - left), np.abs(right - grid))
+        self.g = np.clip(1.0 - (d / tolerance) ** 2, 0.0, None)
+        self.near = np.where(take_left, np.maximum(k - 1, 0), k)
+        per = int(round(100 / step))
+        self.gbar = np.array([self.g[i:i + per].mean() for i in range(0, len(grid), per)])
+
+    def at(self, index: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(g, nearest entry, baseline g of the index's hundred) at each index."""
+        pos = np.clip(((index - self.lo) / self.step).astype(int), 0, len(self.g) - 1)
+        hund = np.clip(((index - self.lo) / 100.0).astype(int), 0, len(self.gbar) - 1)
+        return self.g[pos], self.near[pos], self.gbar[hund]
+
+
+def _grouped_score(group: np.ndarray, near: np.ndarray, wg: np.ndarray, wbase: np.ndarray,
+                   n_groups: int) -> np.ndarray:
+    """Sum per group of: best w g among consecutive peaks sharing a library entry, minus base.
+
+    Peaks (sorted within each group) whose nearest library entry is the same count once,
+    with their best match: a scale that crowds many peaks onto few entries gains nothing.
+    """
+    if len(group) == 0:
+        return np.zeros(n_groups)
+    new_run = np.ones(len(group), dtype=bool)
+    new_run[1:] = (group[1:] != group[:-1]) | (near[1:] != near[:-1])
+    starts = np.flatnonzero(new_run)
+    best = np.maximum.reduceat(wg, starts)
+    out = np.bincount(group[starts], weights=best, minlength=n_groups)
+    return out - np.bincount(group, weights=wbase, minlength=n_groups)
+
+
 def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, tolerance: float,
                  settings: Mapping[str, Any] | None = None, *,
-                 alkane_carbons: list[int] | None = None, n_score: int = 150
-                 ) -> IndexScale | None:
+                 alkane_carbons: list[int] | None = None, n_candidates: int = 40,
+                 n_score: int = 150, n_final: int = 4) -> IndexScale | None:
     """Find the n-alkane markers of an unnamed run.
 
     Parameters
     ----------
     rt_min, size : ndarray
-        Retention times [min] and areas (or heights) of all peaks, sorted by time.
+        Retention times [min] (sorted) and areas of all peaks.
     lib_index : ndarray
         The library's retention indices (any order) [-].
     tolerance : float
@@ -361,54 +494,184 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
         The ``[identify]`` section (isothermal hold, hold-up time).
     alkane_carbons : list of int, optional
         Carbon numbers of the library's n-alkanes (default 3-13).
+    n_candidates : int
+        The tallest peaks considered as the core markers.
     n_score : int
-        Number of largest peaks used to score a hypothesis.
+        The largest peaks used to compare the best core chains.
+    n_final : int
+        Core chains compared by the full alignment.
 
     Returns
     -------
     IndexScale or None
-        The best scale, or None when no chain of at least four candidate peaks exists.
+        The best scale, or None when no chain of three markers scores above chance.
 
     Notes
     -----
-    Candidate chains come from :func:`candidate_chains` (tall peaks, smooth spacing); each
-    chain, each sub-chain obtained by dropping one end member, and each carbon number of its
-    first member gives a hypothesis. A hypothesis is scored by the order-preserving alignment
-    (:func:`align_indices`) of the ``n_score`` largest peaks with the library, each peak
-    weighted by ``log(1 + size / median size)``: the true marker set puts many large peaks close
-    to library indices, a wrong one only by chance. The best-scoring hypothesis wins.
+    1. Core chain. A chain labels candidate peaks a_1 < a_2 < ... as n-alkanes c, c+1, ... .
+       A bracket (a_k, a_(k+1)) labelled n indexes the peaks inside it on its own; its score
+       is ``sum over library entries hit of the best w_p g(I_p)`` minus
+       ``sum_p w_p gbar_n`` (``g = max(0, 1 - (d/tol)^2)``, d the distance to the nearest
+       library index; ``gbar_n`` the mean of g over (100 n, 100 n + 100), so a bracket of
+       the wrong width or label scores about zero or less; ``w = log(1 + size / median)``;
+       peaks sharing their nearest library entry count once). Each marker also earns
+       ``0.5 w`` (n-alkanes are tall peaks). A dynamic programme over (label, last marker)
+       finds the best chains in O(labels x K^2).
+    2. The ``n_final`` best chains, each also without its first or last member, are compared
+       by the one-to-one alignment (:func:`align_indices`) of the ``n_score`` largest peaks.
+    3. Extension: the winner grows one n-alkane at a time at either end, choosing among the
+       peaks near the extrapolated time (:func:`extend_markers`) the one whose new bracket
+       scores best, while that score is positive; small late n-alkanes are found this way.
     """
+    s = settings or {}
     rt = np.asarray(rt_min, dtype=float)
-    sz = np.asarray(size, dtype=float)
+    sz = np.nan_to_num(np.asarray(size, dtype=float), nan=0.0)
+    n_pk = len(rt)
+    if n_pk < 5:
+        return None
     carbons = sorted(alkane_carbons or range(3, 14))
-    c_min, c_max = carbons[0], carbons[-1]
     lib = np.sort(np.asarray(lib_index, dtype=float)[np.isfinite(lib_index)])
-    chains = candidate_chains(rt, sz)
+    if len(lib) < 2:
+        return None
+    iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
+    tm = float(s.get("holdup_time_min", 0.0) or 0.0)
+    if iso > 0 and tm <= 0:
+        tm = float(np.nanmin(rt)) * 0.999
+    top = np.sort(np.argsort(-sz, kind="stable")[: min(n_score, n_pk)])
+    med = np.median(sz[top][sz[top] > 0]) if np.any(sz[top] > 0) else 1.0
+    w_all = np.log1p(sz / med)
+    look = _Lookup(lib, tolerance, 100.0 * (carbons[0] - 1), 100.0 * (carbons[-1] + 2))
+
+    # 1. core chain over the tallest peaks
+    cand = np.sort(np.argsort(-sz, kind="stable")[: min(n_candidates, n_pk)])
+    k = len(cand)
+    tc = rt[cand]
+    jj, ii = np.triu_indices(k, 1)
+    lo = np.searchsorted(rt, tc[jj], side="right")
+    hi = np.searchsorted(rt, tc[ii], side="left")
+    cnt = np.maximum(hi - lo, 0)
+    pair_of = np.repeat(np.arange(len(jj)), cnt)
+    members = lo[pair_of] + (np.arange(cnt.sum()) - np.repeat(np.cumsum(cnt) - cnt, cnt))
+    t_in = rt[members]
+    t_a, t_b = tc[jj][pair_of], tc[ii][pair_of]
+    frac = (t_in - t_a) / (t_b - t_a)
+    if iso > 0:
+        with np.errstate(invalid="ignore", divide="ignore"):
+            fl = np.log((t_in - tm) / (t_a - tm)) / np.log((t_b - tm) / (t_a - tm))
+        frac = np.where((t_b <= iso) & np.isfinite(fl), fl, frac)
+    w_in = w_all[members]
+    n_lab = len(carbons)
+    S = np.full((n_lab, k, k), -np.inf)
+    for li, n in enumerate(carbons[:-1]):
+        g, near, base = look.at(100.0 * (n + frac))
+        S[li, jj, ii] = _grouped_score(pair_of, near, w_in * g, w_in * base, len(jj))
+    own = 0.5 * w_all[cand]
+    V = np.tile(own, (n_lab, 1))
+    L = np.ones((n_lab, k), dtype=int)
+    B = np.full((n_lab, k), -1, dtype=int)
+    for li in range(1, n_lab):
+        if carbons[li] != carbons[li - 1] + 1:
+            continue
+        tot = V[li - 1][:, None] + S[li - 1]
+        j_best = np.argmax(tot, axis=0)
+        best = tot[j_best, np.arange(k)] + own
+        better = best > V[li]
+        V[li] = np.where(better, best, V[li])
+        B[li] = np.where(better, j_best, -1)
+        L[li] = np.where(better, L[li - 1][j_best] + 1, 1)
+    ends = sorted(((V[li, i], li, i) for li in range(n_lab) for i in range(k) if L[li, i] >= 3),
+                  reverse=True)
+    chains: list[dict[int, float]] = []
+    for _, li, i in ends:
+        if len(chains) >= n_final:
+            break
+        ch: dict[int, float] = {}
+        while i >= 0 and li >= 0:
+            ch[carbons[li]] = float(rt[cand[i]])
+            i, li = int(B[li, i]), li - 1
+        if ch not in chains:
+            chains.append(ch)
     if not chains:
         return None
-    top = np.sort(np.argsort(-sz, kind="stable")[: min(n_score, len(sz))])
-    med = np.median(sz[top][sz[top] > 0]) if np.any(sz[top] > 0) else 1.0
-    w = np.log1p(sz[top] / med)
-    first = float(np.nanmin(rt)) if len(rt) else None
-    best: tuple[float, IndexScale | None] = (-np.inf, None)
-    tried: set[tuple] = set()
-    for chain in chains:
-        subs = [chain, chain[1:], chain[:-1]]
-        for sub in subs:
+
+    # 2. compare the best chains by the full alignment of the largest peaks
+    first = float(np.nanmin(rt))
+    t_top, w_top = rt[top], w_all[top]
+    best_score, best_markers = -np.inf, None
+    seen: set = set()
+    for ch in chains:
+        keys = sorted(ch)
+        for sub in (keys, keys[1:], keys[:-1]):
             if len(sub) < 3:
                 continue
-            for c0 in range(c_min, c_max - len(sub) + 2):
-                key = (tuple(sub), c0)
-                if key in tried:
-                    continue
-                tried.add(key)
-                markers = {c0 + k: float(rt[p]) for k, p in enumerate(sub)}
-                try:
-                    scale = make_scale(markers, settings, first)
-                except SettingsError:
-                    continue
-                idx = scale.index(rt[top])
-                _, score = align_indices(idx, lib, tolerance, weight=w)
-                if score > best[0]:
-                    best = (score, scale)
-    return best[1]
+            m = {c: ch[c] for c in sub}
+            key = tuple(sorted(m.items()))
+            if key in seen:
+                continue
+            seen.add(key)
+            try:
+                scale = make_scale(m, s, first)
+            except SettingsError:
+                continue
+            sc = align_indices(scale.index(t_top), lib, tolerance, weight=w_top)[1]
+            if _DEBUG:
+                print("variant", round(sc, 2), {c: round(t, 2) for c, t in m.items()})
+            if sc > best_score:
+                best_score, best_markers = sc, m
+    if best_markers is None:
+        return None
+    # 3. extension
+    markers = _extend_chain(best_markers, rt, w_all, look, s, first,
+                            (carbons[0], carbons[-1]))
+    return make_scale(markers, s, first)
+
+
+def _bracket_score(t_a: float, t_b: float, n: int, rt: np.ndarray, w: np.ndarray,
+                   look: _Lookup, iso: float, tm: float) -> float:
+    """Score of the peaks strictly between t_a and t_b indexed as bracket (n, n + 1)."""
+    i0, i1 = np.searchsorted(rt, t_a, side="right"), np.searchsorted(rt, t_b, side="left")
+    if i1 <= i0:
+        return 0.0
+    t = rt[i0:i1]
+    if iso > 0 and t_b <= iso and tm < t_a:
+        frac = np.log((t - tm) / (t_a - tm)) / np.log((t_b - tm) / (t_a - tm))
+    else:
+        frac = (t - t_a) / (t_b - t_a)
+    g, near, base = look.at(100.0 * (n + frac))
+    ww = w[i0:i1]
+    return float(_grouped_score(np.zeros(len(t), dtype=int), near, ww * g, ww * base, 1)[0])
+
+
+def _extend_chain(markers: dict[int, float], rt: np.ndarray, w: np.ndarray, look: _Lookup,
+                  s: Mapping[str, Any], first: float, carbon_range: tuple[int, int],
+                  window: float = 0.1) -> dict[int, float]:
+    """Grow a marker chain one n-alkane at a time at either end (see :func:`find_markers`)."""
+    m = dict(markers)
+    iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
+    for side in (1, -1):
+        while True:
+            try:
+                scale = make_scale(m, s, first, extend=0)
+            except SettingsError:
+                break
+            tm = scale.holdup_time_min
+            ext = extend_markers(m, iso, tm, 1)
+            edge_c = max(m) if side > 0 else min(m)
+            nxt = edge_c + side
+            if nxt not in ext or not (carbon_range[0] <= nxt <= carbon_range[1]):
+                break
+            t_pred, t_edge = ext[nxt], m[edge_c]
+            d = abs(t_pred - t_edge)
+            cand = np.flatnonzero((np.abs(rt - t_pred) <= window * d)
+                                  & ((rt > t_edge) if side > 0 else (rt < t_edge)))
+            best, best_t = 0.0, None
+            for p in cand:
+                t_a, t_b = (t_edge, rt[p]) if side > 0 else (rt[p], t_edge)
+                n = edge_c if side > 0 else nxt
+                sc = _bracket_score(t_a, t_b, n, rt, w, look, iso, tm) + 0.5 * w[p]
+                if sc > best:
+                    best, best_t = sc, float(rt[p])
+            if best_t is None:
+                break
+            m[nxt] = best_t
+    return m

@@ -33,6 +33,14 @@ GROUP_LABELS = {
     "unidentified": "unidentified",
 }
 
+#: Keys of the result's optional ``aromatics_detail`` -> labels.
+AROMATICS_DETAIL_LABELS = {
+    "benzene": "benzene",
+    "toluene": "toluene",
+    "c8_aromatics": "C8 aromatics",
+    "c9plus_aromatics": "C9+ aromatics",
+}
+
 #: Basis key -> unit text shown in headers.
 BASIS_UNITS = {"mass_pct": "mass %", "vol_pct": "% v/v", "mol_pct": "mol %"}
 
@@ -204,6 +212,64 @@ def flatten_settings(settings: dict | None, prefix: str = "") -> list[tuple[str,
     return rows
 
 
+def flatten_mapping(data: dict | None) -> list[tuple[str, str, Any]]:
+    """Nested dict as ``(label, unit, value)`` rows; sub-keys joined with ", ".
+
+    The unit comes from the top-level key's suffix (``area_share_pct`` -> ``%``).
+
+    >>> flatten_mapping({"peaks": {"identified": 44}, "area_share_pct": {"excluded": 0.02}})
+    [('peaks, identified', '', 44), ('area share, excluded', '%', 0.02)]
+    """
+    rows: list[tuple[str, str, Any]] = []
+
+    def walk(prefix: str, unit: str, value: Any) -> None:
+        if isinstance(value, dict) and value:
+            for k, v in value.items():
+                walk(f"{prefix}, {str(k).replace('_', ' ')}", unit, v)
+        else:
+            rows.append((prefix, unit, value))
+
+    for key, value in (data or {}).items():
+        key = str(key)
+        walk(property_label(key), unit_of(key), value)
+    return rows
+
+
+def mapping_table(data: dict | None) -> tuple[list[str], list[tuple[str, str, list[Any]]],
+                                              list[tuple[str, str, Any]]]:
+    """A dict of dicts as a matrix: (column keys, rows ``(label, unit, values)``, scalar rows).
+
+    Entries whose value is a dict become matrix rows (columns: the union of their keys, in
+    order of first appearance); other entries come back as ``(label, unit, value)`` rows.
+
+    >>> cols, rows, scalars = mapping_table({"peaks": {"a": 1, "b": 2}, "area_pct": {"b": 5.0},
+    ...                                      "closes": True})
+    >>> cols, rows, scalars
+    (['a', 'b'], [('peaks', '', [1, 2]), ('area', '%', [None, 5.0])], [('closes', '', True)])
+    """
+    columns: list[str] = []
+    rows: list[tuple[str, str, list[Any]]] = []
+    scalars: list[tuple[str, str, Any]] = []
+    for key, value in (data or {}).items():
+        if isinstance(value, dict):
+            for sub in value:
+                if str(sub) not in columns:
+                    columns.append(str(sub))
+    for key, value in (data or {}).items():
+        key = str(key)
+        if isinstance(value, dict):
+            flat = {str(k): v for k, v in value.items()}
+            rows.append((property_label(key), unit_of(key), [flat.get(c) for c in columns]))
+        else:
+            scalars.append((property_label(key), unit_of(key), value))
+    return columns, rows, scalars
+
+
+def warnings_about_checks(result: dict) -> list[str]:
+    """Warnings that report a specification limit as not checked."""
+    return [str(w) for w in result.get("warnings") or [] if "not checked" in str(w)]
+
+
 def carbon_number_sort_key(value: Any) -> tuple[int, str]:
     """Sort key for carbon numbers that may be ints or a bucket text such as ``"13+"``.
 
@@ -262,5 +328,6 @@ __all__ = [
     "GROUP_KEYS", "GROUP_LABELS", "BASIS_UNITS", "PROPERTY_INFO", "RESPONSIBILITY_TEXT",
     "NULL_TEXT", "VERDICT_WORDS", "WRITERS", "property_label", "unit_of", "decimals_of",
     "is_number", "fmt_number", "canonical_json", "settings_digest", "flatten_settings",
-    "carbon_number_sort_key", "headline_rows", "property_keys",
+    "carbon_number_sort_key", "headline_rows", "property_keys", "flatten_mapping",
+    "warnings_about_checks", "AROMATICS_DETAIL_LABELS", "mapping_table",
 ]

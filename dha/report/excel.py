@@ -26,9 +26,10 @@ from openpyxl.utils import get_column_letter
 
 from dha.errors import InputError
 from dha.report import (
-    BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, RESPONSIBILITY_TEXT, VERDICT_WORDS,
-    carbon_number_sort_key, decimals_of, flatten_settings, headline_rows, is_number,
-    property_keys, property_label, settings_digest, unit_of,
+    AROMATICS_DETAIL_LABELS, BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, RESPONSIBILITY_TEXT,
+    VERDICT_WORDS, carbon_number_sort_key, decimals_of, flatten_mapping, flatten_settings,
+    headline_rows, is_number, property_keys, property_label, settings_digest, unit_of,
+    warnings_about_checks,
 )
 
 log = logging.getLogger("dha.report.excel")
@@ -66,6 +67,14 @@ COMPONENT_COLUMNS: dict[str, tuple[str, str | None]] = {
     "mol_pct": ("mol %", FMT_PCT),
     "match": ("match", None),
     "ri_source": ("retention index source", None),
+}
+
+
+#: Extra component fields the result may carry -> (header, number format).
+COMPONENT_EXTRA_COLUMNS: dict[str, tuple[str, str | None]] = {
+    "rrf": ("relative response factor, methane = 1 [-]", "0.0000"),
+    "model_component": ("properties taken from", None),
+    "coelution": ("co-elution note", None),
 }
 
 
@@ -146,8 +155,8 @@ def _summary(ws, result: dict) -> None:
     balance = result.get("mass_balance")
     if isinstance(balance, dict) and balance:
         blocks.append(("Mass balance", [
-            (key.replace("_", " ") + (f" [{unit_of(key)}]" if unit_of(key) else ""),
-             balance[key], unit_of(key)) for key in balance
+            (label + (f" [{unit}]" if unit else ""), value, unit)
+            for label, unit, value in flatten_mapping(balance)
         ]))
     for title, rows in blocks:
         r = _table(ws, [title, "value", "unit"], rows, formats=[None, "0.0###", None],
@@ -159,7 +168,8 @@ def _summary(ws, result: dict) -> None:
     for chk in result.get("checks") or []:
         prop = chk.get("property", "")
         check_rows.append([
-            chk.get("spec"), prop, property_label(prop), unit_of(prop), chk.get("kind"),
+            chk.get("spec"), prop, property_label(prop), unit_of(prop) or chk.get("unit"),
+            chk.get("kind"),
             chk.get("limit"), chk.get("value"), _uncertainty_for(result, chk),
             VERDICT_WORDS.get(chk.get("verdict"), str(chk.get("verdict"))),
         ])
@@ -171,6 +181,8 @@ def _summary(ws, result: dict) -> None:
         for cell in row:
             if cell.value in ("FAIL", VERDICT_WORDS["marginal"]):
                 cell.font = _WARN_FONT
+    for k, text in enumerate(warnings_about_checks(result)):
+        ws.cell(row=end + 1 + k, column=1, value=text)
     ws.freeze_panes = "A2"
     _autowidth(ws)
     ws.column_dimensions["A"].width = 34
@@ -208,6 +220,13 @@ def _groups(ws, result: dict) -> None:
     last = len(rows) + 1
     for cell in ws[last]:
         cell.font = _BOLD
+    detail = result.get("aromatics_detail")
+    if isinstance(detail, dict) and detail:
+        rows = [[key, AROMATICS_DETAIL_LABELS.get(key, key.replace("_", " "))]
+                + [(value or {}).get(b) if isinstance(value, dict) else None for b in bases]
+                for key, value in detail.items()]
+        _table(ws, ["aromatics detail", "description"] + [BASIS_UNITS[b] for b in bases], rows,
+               formats=[None, None] + [FMT_PCT] * 3, start_row=last + 2, freeze=False)
     _autowidth(ws)
 
 
@@ -251,10 +270,17 @@ def _components(ws, result: dict) -> None:
     comps = result.get("components") or []
     keys = list(COMPONENT_COLUMNS)
     extra = sorted({k for c in comps for k in c if k not in COMPONENT_COLUMNS}, key=str)
-    header = ["#"] + [COMPONENT_COLUMNS[k][0] for k in keys] + [
-        k.replace("_", " ") + (f" [{unit_of(k)}]" if unit_of(k) else "") for k in extra
-    ]
-    formats = [FMT_INT] + [COMPONENT_COLUMNS[k][1] for k in keys] + [None] * len(extra)
+    def extra_header(k: str) -> str:
+        if k in COMPONENT_EXTRA_COLUMNS:
+            return COMPONENT_EXTRA_COLUMNS[k][0]
+        unit = unit_of(k)
+        numeric = any(is_number(c.get(k)) for c in comps)
+        return k.replace("_", " ") + (f" [{unit}]" if unit else " [unit not stated]" if numeric
+                                      else "")
+
+    header = ["#"] + [COMPONENT_COLUMNS[k][0] for k in keys] + [extra_header(k) for k in extra]
+    formats = ([FMT_INT] + [COMPONENT_COLUMNS[k][1] for k in keys]
+               + [COMPONENT_EXTRA_COLUMNS.get(k, ("", None))[1] for k in extra])
     rows = ([i] + [c.get(k) for k in keys] + [c.get(k) for k in extra]
             for i, c in enumerate(comps, start=1))
     _table(ws, header, rows, formats=formats)
@@ -262,10 +288,11 @@ def _components(ws, result: dict) -> None:
 
 
 def _oxygenates(ws, result: dict) -> None:
-    rows = [[o.get("name"), o.get("cas"), o.get("mass_pct"), o.get("vol_pct")]
-            for o in result.get("oxygenates") or []]
-    r = _table(ws, ["name", "CAS number", "mass %", "% v/v"], rows,
-               formats=[None, None, FMT_PCT, FMT_PCT])
+    oxy = result.get("oxygenates") or []
+    bases = ["mass_pct", "vol_pct"] + (["mol_pct"] if any("mol_pct" in o for o in oxy) else [])
+    rows = [[o.get("name"), o.get("cas")] + [o.get(b) for b in bases] for o in oxy]
+    r = _table(ws, ["name", "CAS number"] + [BASIS_UNITS[b] for b in bases], rows,
+               formats=[None, None] + [FMT_PCT] * len(bases))
     ws.cell(row=r + 1, column=1, value="oxygen [mass %]").font = _BOLD
     cell = ws.cell(row=r + 1, column=3, value=_cell_value(result.get("oxygen_mass_pct")))
     cell.number_format = FMT_PCT

@@ -6,8 +6,8 @@ A4 portrait pages drawn with matplotlib (``PdfPages``; no pyplot, no extra depen
    settings digest, the results with units, the specification checks (limit, value, verdict) and
    the responsibility text with an empty "reviewed by / released by / date" block;
 2. group totals, oxygenates, a stacked bar chart of group % v/v by carbon number, the carbon
-   number x group table, the mass balance and the settings used (flattened);
-3. onwards: every component (paginated), the import log and the warnings.
+   number x group table and the mass balance;
+3. onwards: every component (paginated), the import log, the warnings and the settings used.
 
 Each page carries the draft marking, and a footer with the sample id, ``generated_at`` and
 "page x of y". Null values print as "—" (the reason is in the warnings). Text is measured with
@@ -31,9 +31,10 @@ from matplotlib.patches import Rectangle
 
 from dha.errors import InputError
 from dha.report import (
-    BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, NULL_TEXT, RESPONSIBILITY_TEXT, VERDICT_WORDS,
-    carbon_number_sort_key, decimals_of, flatten_settings, fmt_number, headline_rows,
-    is_number, property_keys, property_label, settings_digest, unit_of,
+    AROMATICS_DETAIL_LABELS, BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, NULL_TEXT,
+    RESPONSIBILITY_TEXT, VERDICT_WORDS, decimals_of, flatten_mapping, flatten_settings,
+    fmt_number, headline_rows, is_number, mapping_table, property_keys, property_label,
+    settings_digest, unit_of, warnings_about_checks,
 )
 from dha.report.excel import carbon_number_matrix
 from dha.report.figures import plot_groups_by_carbon_number
@@ -289,6 +290,45 @@ class Flow:
 
         self.place(height, draw)
 
+    def listing(self, columns: Sequence[tuple[str, int, str]], rows: Sequence[Sequence[Any]],
+                size_pt: float = SMALL_PT, row_h_pt: float = SMALL_ROW_H_PT,
+                x_pt: float = MARGIN_X_PT) -> None:
+        """A long table set as fixed-width lines: one text per row (fast for 600 rows).
+
+        ``columns`` are ``(title, width in characters, "left" | "right")``. Cells are
+        shortened with "…" to their width; the header repeats on every page.
+        """
+        width_pt = listing_width_pt(columns, size_pt) + 6.0
+        header = format_listing_row(columns, [c[0] for c in columns])
+        lines = [format_listing_row(columns, row) for row in rows]
+
+        def header_draw(ax, fig, y):
+            ax.add_patch(Rectangle((x_pt, y), width_pt, row_h_pt, facecolor=HEADER_FILL,
+                                   edgecolor="none", zorder=1))
+            ax.text(x_pt + 3, y + row_h_pt * 0.5 + size_pt * 0.36, header, fontsize=size_pt,
+                    fontweight="bold", family="DejaVu Sans Mono", color=INK, va="baseline",
+                    zorder=3)
+            ax.plot([x_pt, x_pt + width_pt], [y + row_h_pt] * 2, color=RULE, linewidth=0.6,
+                    zorder=2)
+
+        self.ensure(2 * row_h_pt)
+        self.place(row_h_pt, header_draw)
+        for i, line in enumerate(lines):
+            if row_h_pt > self.space_pt:
+                self.new_page()
+                self.place(row_h_pt, header_draw)
+
+            def draw(ax, fig, y, line=line, shade=i % 2 == 1):
+                if shade:
+                    ax.add_patch(Rectangle((x_pt, y), width_pt, row_h_pt, facecolor=ZEBRA_FILL,
+                                           edgecolor="none", zorder=0.5))
+                ax.text(x_pt + 3, y + row_h_pt * 0.5 + size_pt * 0.36, line, fontsize=size_pt,
+                        family="DejaVu Sans Mono", color=INK, va="baseline", zorder=3)
+
+            self.place(row_h_pt, draw)
+        if not lines:
+            self.paragraph("(none)", size_pt=size_pt, color=GREY, x_pt=x_pt + 3)
+
     def figure(self, height_pt: float, plot: Callable[[Any], Any]) -> None:
         """A chart in a box of the content width: ``plot(axes)`` draws into it."""
 
@@ -305,6 +345,26 @@ class Flow:
 
     def custom(self, height_pt: float, draw: _Draw) -> None:
         self.place(height_pt, draw)
+
+
+def listing_width_pt(columns: Sequence[tuple[str, int, str]], size_pt: float) -> float:
+    """Width [pt] of a fixed-width listing line (DejaVu Sans Mono: every glyph equally wide)."""
+    return text_width_pt("0" * sum(c[1] for c in columns), size_pt, mono=True)
+
+
+def format_listing_row(columns: Sequence[tuple[str, int, str]], row: Sequence[Any]) -> str:
+    """One listing line: each cell cut to width - 1 characters (with "…"), then aligned.
+
+    >>> format_listing_row([("#", 4, "right"), ("name", 8, "left")], [12, "cyclohexane"])
+    '  12 cycloh…'
+    """
+    parts = []
+    for (_title, n, align), value in zip(columns, row):
+        text = NULL_TEXT if value is None else str(value)
+        if len(text) > n - 1:
+            text = text[: max(0, n - 2)] + "…"
+        parts.append(text.rjust(n - 1) + " " if align == "right" else text.ljust(n))
+    return "".join(parts).rstrip()
 
 
 def _cell_parts(cell: Cell) -> tuple[str, dict]:
@@ -420,7 +480,9 @@ def _identification(flow: Flow, result: dict) -> None:
     tool = result.get("tool") or {}
     fields: list[tuple[str, Any]] = [("sample id", sample.get("id"))]
     fields += [(k.replace("_", " "), sample[k]) for k in sorted(sample, key=str)
-               if k not in ("id", "source_file")]
+               if k not in ("id", "source_file") and not str(k).endswith("sha256")]
+    hashes = [(str(k).replace("_", " "), sample[k]) for k in sorted(sample, key=str)
+              if str(k).endswith("sha256")]
     fields += [("generated at", result.get("generated_at")),
                ("tool version", tool.get("version")),
                ("library version", library.get("version"))]
@@ -443,7 +505,7 @@ def _identification(flow: Flow, result: dict) -> None:
                [[("source file", {"color": GREY}), _text_value(sample.get("source_file"))]],
                header=False, zebra=False, wrap_col=1)
     long_cols = [Column("", kw), Column("", CONTENT_W_PT - kw, mono=True)]
-    flow.table(long_cols, [
+    flow.table(long_cols, [[(k, {"color": GREY}), _text_value(v)] for k, v in hashes] + [
         [("library sha256", {"color": GREY}), _text_value(library.get("sha256"))],
         [("settings sha256", {"color": GREY}), settings_digest(result.get("settings"))],
     ], header=False, zebra=False)
@@ -496,7 +558,7 @@ def _checks(flow: Flow, result: dict) -> None:
         d = decimals_of(prop)
         verdict = chk.get("verdict")
         u = chk.get("uncertainty", unc.get(prop))
-        row: list[Cell] = [property_label(prop), unit_of(prop),
+        row: list[Cell] = [property_label(prop), unit_of(prop) or str(chk.get("unit") or ""),
                            str(chk.get("kind") or NULL_TEXT), _num(chk.get("limit"), d),
                            _num(chk.get("value"), d),
                            _num(u, d) if is_number(chk.get("value")) else NULL_TEXT,
@@ -507,12 +569,14 @@ def _checks(flow: Flow, result: dict) -> None:
             row.insert(0, str(chk.get("spec") or NULL_TEXT))
         rows.append(row)
     flow.table(cols, rows)
+    for text in warnings_about_checks(result):
+        flow.paragraph(text, size_pt=6.3, color=RED)
     if not checks:
         return
-    flow.paragraph("Verdicts: pass = inside the limit by more than the standard uncertainty; "
-                   "within uncertainty of the limit = closer to it than that, so the result "
-                   "alone cannot decide (EN ISO 4259); not checked = no value (see warnings).",
-                   size_pt=6.3, color=GREY)
+    flow.paragraph("Verdicts: pass = inside the limit by more than the expanded uncertainty "
+                   "U = 2 × std. unc.; FAIL = outside by more than U; within uncertainty of the "
+                   "limit = |value − limit| ≤ U, so the result alone cannot decide (after EN ISO "
+                   "4259). Where no uncertainty is given, U = 0.", size_pt=6.3, color=GREY)
 
 
 def _responsibility(flow: Flow) -> None:
@@ -559,14 +623,19 @@ def _groups_page(flow: Flow, result: dict) -> None:
               for o in result.get("oxygenates") or []]
     o_rows.append([("oxygen", {"bold": True}), "", (_num(result.get("oxygen_mass_pct"), 2),
                                                     {"bold": True}), ""])
-    benzene = result.get("benzene") or {}
-    o_rows.append([("benzene", {"bold": True}), "71-43-2",
-                   (_num(benzene.get("mass_pct"), 2), {"bold": True}),
-                   (_num(benzene.get("vol_pct"), 2), {"bold": True})])
+    detail = result.get("aromatics_detail")
+    if not isinstance(detail, dict) or not detail:
+        detail = {"benzene": result.get("benzene") or {}}
+    for key, value in detail.items():
+        value = value if isinstance(value, dict) else {}
+        o_rows.append([(AROMATICS_DETAIL_LABELS.get(key, key.replace("_", " ")), {"bold": True}),
+                       "71-43-2" if key == "benzene" else "",
+                       (_num(value.get("mass_pct"), 2), {"bold": True}),
+                       (_num(value.get("vol_pct"), 2), {"bold": True})])
     flow.heading("Group totals", keep_pt=120)
     o_x = MARGIN_X_PT + CONTENT_W_PT - sum(c.width_pt for c in o_cols)
     flow.side_by_side([(MARGIN_X_PT, "PIONA and oxygenates", g_cols, g_rows),
-                       (o_x, "Oxygenates, oxygen and benzene", o_cols, o_rows)])
+                       (o_x, "Oxygenates, oxygen and aromatics", o_cols, o_rows)])
     flow.gap(8)
     flow.heading("Group amounts by carbon number (% v/v)", keep_pt=220)
     flow.figure(220, lambda ax: plot_groups_by_carbon_number(result, ax, basis="vol_pct"))
@@ -583,28 +652,37 @@ def _groups_page(flow: Flow, result: dict) -> None:
         rows = []
         for cn in order:
             vals = [cells[cn].get(g) for g in groups]
-            rows.append([f"C{cn}"] + [_num(v, 2) if v is not None else "" for v in vals]
+            rows.append([f"C{cn}"] + [_num(v, 2) if v else "" for v in vals]
                         + [_num(sum(v for v in vals if v is not None), 2)])
         col_tot = [sum(cells[cn].get(g, 0.0) for cn in order) for g in groups]
         rows.append(["total"] + [_num(v, 2) for v in col_tot] + [_num(sum(col_tot), 2)])
         flow.table(cols, rows, size_pt=SMALL_PT + 0.3, row_h_pt=SMALL_ROW_H_PT, bold_last=True)
-    parts = []
-    x = MARGIN_X_PT
     balance = result.get("mass_balance")
     if isinstance(balance, dict) and balance:
-        cols = [Column("quantity", 110), Column("value", 62, "right"), Column("unit", 44)]
-        rows = [[property_label(str(k)), _text_or_num(v), unit_of(str(k))]
-                for k, v in balance.items()]
-        parts.append((x, "Mass balance", cols, rows))
-        x += sum(c.width_pt for c in cols) + 14
-    width = MARGIN_X_PT + CONTENT_W_PT - x
-    cols = [Column("setting", min(175.0, width * 0.58)),
-            Column("value", width - min(175.0, width * 0.58), mono=True)]
-    parts.append((x, "Settings used (their sha256 is on page 1)", cols,
-                  flatten_settings(result.get("settings")), 1))
-    flow.gap(4)
-    flow.heading("Mass balance and settings" if len(parts) > 1 else "Settings", keep_pt=60)
-    flow.side_by_side(parts, size_pt=SMALL_PT, row_h_pt=SMALL_ROW_H_PT)
+        columns, rows, scalars = mapping_table(balance)
+        flow.gap(4)
+        flow.heading("Mass balance of the peak table", keep_pt=60)
+        if columns:
+            cw = min(70.0, (CONTENT_W_PT - 150 - 40) / len(columns))
+            cols = ([Column("quantity", 150), Column("unit", 40)]
+                    + [Column(c.replace("_", " "), cw, "right") for c in columns])
+            flow.table(cols, [[label, unit] + [_text_or_num(v) if v is not None else ""
+                                               for v in values]
+                              for label, unit, values in rows],
+                       size_pt=SMALL_PT + 0.3, row_h_pt=SMALL_ROW_H_PT)
+        if scalars:
+            flow.gap(3)
+            cols = [Column("quantity", 150), Column("unit", 40), Column("value", 70, "right")]
+            flow.table(cols, [[label, unit, _text_or_num(v)] for label, unit, v in scalars],
+                       size_pt=SMALL_PT + 0.3, row_h_pt=SMALL_ROW_H_PT, header=False)
+
+
+def _settings(flow: Flow, result: dict) -> None:
+    flow.gap(8)
+    flow.heading("Settings used (their sha256 is on page 1)")
+    cols = [Column("setting", 190), Column("value", CONTENT_W_PT - 190, mono=True)]
+    flow.table(cols, flatten_settings(result.get("settings")), size_pt=SMALL_PT,
+               row_h_pt=SMALL_ROW_H_PT, wrap_col=1)
 
 
 def _text_or_num(value: Any) -> str:
@@ -622,11 +700,10 @@ _MATCH_WORDS = {"name": "name", "cas": "CAS", "retention_index": "ret. index",
 def _components(flow: Flow, result: dict) -> None:
     comps = result.get("components") or []
     flow.heading(f"Components ({len(comps)} rows, in elution order as reported)")
-    cols = [Column("#", 24, "right"), Column("name", 126), Column("CAS", 54),
-            Column("group", 56), Column("C", 20, "right"), Column("RT [min]", 38, "right"),
-            Column("RI", 36, "right"), Column("mass %", 37, "right"),
-            Column("% v/v", 37, "right"), Column("mol %", 37, "right"),
-            Column("match", 50.28)]
+    cols = [("#", 5, "right"), ("name", 38, "left"), ("CAS", 12, "left"),
+            ("group", 13, "left"), ("C", 4, "right"), ("RT [min]", 9, "right"),
+            ("RI", 8, "right"), ("mass %", 8, "right"), ("% v/v", 8, "right"),
+            ("mol %", 8, "right"), (" match", 14, "left")]
     rows = []
     for i, c in enumerate(comps, start=1):
         group = c.get("group")
@@ -635,9 +712,9 @@ def _components(flow: Flow, result: dict) -> None:
             GROUP_LABELS.get(group, _text_value(group)), _text_value(c.get("carbon_number")),
             _num(c.get("rt_min"), 3), _num(c.get("retention_index"), 1),
             _num(c.get("mass_pct"), 3), _num(c.get("vol_pct"), 3), _num(c.get("mol_pct"), 3),
-            _MATCH_WORDS.get(c.get("match"), _text_value(c.get("match"))),
+            " " + _MATCH_WORDS.get(c.get("match"), _text_value(c.get("match"))),
         ])
-    flow.table(cols, rows, size_pt=SMALL_PT, row_h_pt=SMALL_ROW_H_PT)
+    flow.listing(cols, rows, size_pt=SMALL_PT, row_h_pt=SMALL_ROW_H_PT)
 
 
 def _logs(flow: Flow, result: dict) -> None:
@@ -674,6 +751,7 @@ def layout(result: dict) -> Flow:
     flow.new_page()
     _components(flow, result)
     _logs(flow, result)
+    _settings(flow, result)
     return flow
 
 
@@ -698,6 +776,31 @@ def _frame(ax, page: int, n_pages: int, result: dict) -> None:
             color=GREY, ha="right", va="baseline")
 
 
+def render_pages(result: dict) -> list[Figure]:
+    """The draft's pages as A4 matplotlib Figures (not yet saved), in order.
+
+    Each Figure's first axes spans the page with data coordinates in points from the top-left
+    corner; a chart adds its own axes.
+    """
+    if not isinstance(result, dict):
+        raise InputError(f"render_pages: result must be a dict (dha-result/1), got {type(result).__name__}")
+    figures = []
+    with matplotlib.rc_context(_RC):
+        flow = layout(result)
+        pages = [p for p in flow.pages if p] or [[]]
+        for number, ops in enumerate(pages, start=1):
+            fig = Figure(figsize=(PAGE_W_PT / 72, PAGE_H_PT / 72))
+            ax = fig.add_axes((0, 0, 1, 1))
+            ax.set_xlim(0, PAGE_W_PT)
+            ax.set_ylim(PAGE_H_PT, 0)
+            ax.axis("off")
+            _frame(ax, number, len(pages), result)
+            for y, draw in ops:
+                draw(ax, fig, y)
+            figures.append(fig)
+    return figures
+
+
 def write_pdf(result: dict, path) -> Path:
     """Write the certificate draft of a result as an A4 PDF and return its path.
 
@@ -719,20 +822,11 @@ def write_pdf(result: dict, path) -> Path:
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     with matplotlib.rc_context(_RC):
-        flow = layout(result)
-        pages = [p for p in flow.pages if p] or [[]]
+        pages = render_pages(result)
         metadata = {"Title": f"Certificate draft: {_sample_id(result)}", "Creator": "dha",
                     "Producer": "dha (matplotlib)", "CreationDate": None}
         with PdfPages(path, metadata=metadata) as pdf:
-            for number, ops in enumerate(pages, start=1):
-                fig = Figure(figsize=(PAGE_W_PT / 72, PAGE_H_PT / 72))
-                ax = fig.add_axes((0, 0, 1, 1))
-                ax.set_xlim(0, PAGE_W_PT)
-                ax.set_ylim(PAGE_H_PT, 0)
-                ax.axis("off")
-                _frame(ax, number, len(pages), result)
-                for y, draw in ops:
-                    draw(ax, fig, y)
+            for fig in pages:
                 pdf.savefig(fig)
     log.info("wrote %s (%d pages)", path, len(pages))
     return path

@@ -201,3 +201,13 @@ def test_result_with_nulls_and_missing_optional_keys(result, tmp_path):
 def test_not_a_dict_is_an_input_error(tmp_path):
     with pytest.raises(InputError, match="dict"):
         write_xlsx(["not", "a", "result"], tmp_path / "x.xlsx")
+
+
+def test_empty_result_still_writes_every_sheet(tmp_path):
+    # A result with none of the keys (e.g. a run that failed early) gives empty sheets, and
+    # a group total of nothing is an empty cell, not 0.
+    path = write_xlsx({}, tmp_path / "empty.xlsx")
+    wb = openpyxl.load_workbook(path)
+    assert wb.sheetnames == list(SHEETS)
+    groups = pd.read_excel(path, sheet_name="Groups", index_col=0, nrows=8)
+    assert groups.loc["total"][["mass %", "% v/v", "mol %"]].isna().all()

@@ -148,3 +148,12 @@ def test_600_components_first_listing_page_layout(result):
 def test_not_a_dict_is_an_input_error(tmp_path):
     with pytest.raises(InputError, match="dict"):
         write_pdf("no result", tmp_path / "x.pdf")
+
+
+def test_empty_result_gives_the_three_page_skeleton(tmp_path):
+    path = write_pdf({}, tmp_path / "empty.pdf")
+    reader = pypdf.PdfReader(path)
+    assert len(reader.pages) == 3
+    p1 = _one_line(reader.pages[0].extract_text())
+    assert "DRAFT — not released" in p1 and "carcinogen" in p1
+    assert "no carbon-number data" in reader.pages[1].extract_text()

@@ -130,7 +130,7 @@ def _summary(ws, result: dict) -> None:
     sample = result.get("sample") or {}
     library = result.get("library") or {}
     tool = result.get("tool") or {}
-    ws.cell(row=1, column=1, value="DRAFT - not released: calculated from a DHA run").font = _TITLE_FONT
+    ws.cell(row=1, column=1, value="DRAFT — not released: read the Notes sheet before use").font = _TITLE_FONT
     r = 3
     blocks: list[tuple[str, list[tuple[str, Any, str]]]] = []
     ident = [("sample id", sample.get("id"), ""), ("source file", sample.get("source_file"), "")]
@@ -205,14 +205,14 @@ def _groups(ws, result: dict) -> None:
     totals = result.get("totals") or {}
     bases = list(BASIS_UNITS)
     rows = []
-    sums = {b: 0.0 for b in bases}
+    sums: dict[str, float | None] = {b: None for b in bases}
     for g in GROUP_KEYS:
         row = [g, GROUP_LABELS[g]]
         for b in bases:
             v = (totals.get(b) or {}).get(g)
             row.append(v)
             if is_number(v):
-                sums[b] += v
+                sums[b] = (sums[b] or 0.0) + v
         rows.append(row)
     rows.append(["total", "sum of the groups"] + [sums[b] for b in bases])
     _table(ws, ["group", "description"] + [BASIS_UNITS[b] for b in bases], rows,

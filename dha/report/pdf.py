@@ -460,8 +460,8 @@ def _title_block(flow: Flow, result: dict) -> None:
     def draw(ax, fig, y):
         ax.text(MARGIN_X_PT, y + 17, "Certificate draft", fontsize=16, fontweight="bold",
                 color=INK, va="baseline")
-        ax.text(MARGIN_X_PT, y + 30, fit_text("Petrol composition by detailed hydrocarbon analysis (DHA) "
-                                              "and calculated properties", 300, 8),
+        ax.text(MARGIN_X_PT, y + 30, fit_text("Petrol composition by detailed hydrocarbon analysis "
+                                              "(DHA)", 300, 8),
                 fontsize=8, color=GREY, va="baseline")
         bx, bw = MARGIN_X_PT + CONTENT_W_PT - 205, 205
         ax.add_patch(Rectangle((bx, y + 2), bw, 34, facecolor="#fbeaea", edgecolor=RED,
@@ -607,13 +607,14 @@ def _groups_page(flow: Flow, result: dict) -> None:
     bases = list(BASIS_UNITS)
     g_cols = [Column("group", 88)] + [Column(BASIS_UNITS[b], 52, "right") for b in bases]
     g_rows = []
-    sums = dict.fromkeys(bases, 0.0)
+    sums: dict[str, float | None] = dict.fromkeys(bases, None)
     for g in GROUP_KEYS:
         row = [GROUP_LABELS[g]]
         for b in bases:
             v = (totals.get(b) or {}).get(g)
             row.append(_num(v, 2))
-            sums[b] += v if is_number(v) else 0.0
+            if is_number(v):
+                sums[b] = (sums[b] or 0.0) + v
         g_rows.append(row)
     g_rows.append([("total", {"bold": True})] + [(_num(sums[b], 2), {"bold": True}) for b in bases])
     o_cols = [Column("oxygenate", 112), Column("CAS", 54), Column("mass %", 44, "right"),
@@ -699,9 +700,9 @@ _MATCH_WORDS = {"name": "name", "cas": "CAS", "retention_index": "ret. index",
 
 def _components(flow: Flow, result: dict) -> None:
     comps = result.get("components") or []
-    flow.heading(f"Components ({len(comps)} rows, in elution order as reported)")
+    flow.heading(f"Components ({len(comps)} rows, in the order of the result)")
     cols = [("#", 5, "right"), ("name", 38, "left"), ("CAS", 12, "left"),
-            ("group", 13, "left"), ("C", 4, "right"), ("RT [min]", 9, "right"),
+            ("group", 13, "left"), ("C", 5, "right"), ("RT [min]", 9, "right"),
             ("RI", 8, "right"), ("mass %", 8, "right"), ("% v/v", 8, "right"),
             ("mol %", 8, "right"), (" match", 14, "left")]
     rows = []

@@ -62,7 +62,7 @@ def test_primary_reference_fuels_define_the_scale(library, model, iso_pct):
 def test_default_model_beats_linear_on_held_out_mon(data):
     # KUZ2022_MON + COOPTIMA MON, leave-one-group-out (groups = family x oxygenate added),
     # computed here from the split, nothing read from the parameter file.
-    # The issue asked for a held-out RMSE <= 1.5; the model reaches about 3.2 on these data
+    # The issue asked for a held-out RMSE <= 1.5; the model reaches about 2.7 on these data
     # (see `dha octane validate`), so this checks what it does reach and that it is well
     # below both linear rules. Rows on estimated neat values are excluded (as in the fit).
     def held_rmse(model):
@@ -72,7 +72,7 @@ def test_default_model_beats_linear_on_held_out_mon(data):
 
     inter, lin_vol, lin_mole = (held_rmse(m) for m in ("interaction", "linear_volume",
                                                         "linear_mole"))
-    assert inter <= 3.5
+    assert inter <= 3.2
     assert inter < 0.5 * lin_vol
     assert inter < lin_mole - 1.0
 
@@ -80,9 +80,9 @@ def test_default_model_beats_linear_on_held_out_mon(data):
 def test_ethanol_in_surrogate_ron(data):
     # COOPTIMA S4 + ethanol 10/20/30 % v/v: measured RON 96.2 / 100.4 / 102.0 (NB6022 pg 021).
     # These rows ARE in the RON fit (2 parameters on 15 rows); the held-out value (ethanol
-    # group left out of the fit) is checked. Target of the issue: 1.0 RON. Reached: E10 and
-    # E30 about 0.3 / 1.0, E20 about 1.8 held-out; the source says its blend RONs differ by up
-    # to 1 between its own tables, so we check 1.0 + 1.0 data uncertainty.
+    # group left out of the fit) is checked too. Target of the issue: 1.0 RON. Reached: fitted
+    # +0.3 / -1.0 / -0.1, held-out -0.1 / -1.5 / -0.6 (E10/E20/E30); the source says its blend
+    # RONs differ by up to 1 between its own tables, so we check 1.0 + 1.0 data uncertainty.
     cv = of.cross_validate(data, "interaction", "ron")
     eth = cv[cv["group"] == "S4/ethanol"].sort_values("measured")
     assert list(eth["measured"]) == [96.2, 100.4, 102.0]

@@ -55,7 +55,9 @@ PROPERTIES = ("ron", "mon")
 
 #: Blending classes ("lumps"). Paraffins (normal and iso) are one class: the reference-fuel scale.
 HYDROCARBON_CLASSES = ("paraffin", "olefin", "naphthene", "aromatic")
-OXYGENATE_CLASSES = ("alcohol", "ether")
+#: "light_alcohol" = methanol and ethanol (C1-C2), the alcohols Anderson et al. (2010) found
+#: to blend linearly by mole; "alcohol" = C3+ alcohols.
+OXYGENATE_CLASSES = ("light_alcohol", "alcohol", "ether")
 CLASSES = HYDROCARBON_CLASSES + OXYGENATE_CLASSES
 
 #: Partner classes of the ``interaction`` model's suppression term: a hydrocarbon with an octane
@@ -256,11 +258,11 @@ def blending_class(group: str, smiles: str | None = None, subgroup: str | None =
     if g in ("olefins", "naphthenes", "aromatics"):
         return g[:-1]
     if g == "oxygenates":
-        if isinstance(subgroup, str) and subgroup in ("alcohol", "ether"):
-            return subgroup
-        if isinstance(smiles, str) and smiles:
-            return "ether" if parse_smiles(smiles).ether else "alcohol"
-        return "alcohol"
+        st = parse_smiles(smiles) if isinstance(smiles, str) and smiles else None
+        if isinstance(subgroup, str) and subgroup == "ether" or (st is not None and st.ether
+                                                                  and not st.alcohol):
+            return "ether"
+        return "light_alcohol" if st is not None and st.n_c <= 2 else "alcohol"
     raise LibraryError(f"unknown group {group!r}; expected one of n_paraffins, isoparaffins, "
                        "olefins, naphthenes, aromatics, oxygenates")
 
@@ -465,9 +467,10 @@ def blend(vol_frac: np.ndarray, neat_on: np.ndarray, molar_volume_cm3_mol: np.nd
     :math:`Z_c = \sum_{i\in c} z_i`,
 
     .. math:: ON = \sum_i z_i ON_i + \sum_c k_c\,(D - D_c)\,Z_c
-              + \sum_{o \in \{alcohol, ether\}} k_o\,Z_o (1 - Z_o)
+              + \sum_{o} k_o\,Z_o (1 - Z_o)
 
-    The first sum is a suppression term: a low-octane hydrocarbon (n-heptane) blends higher
+    over the oxygenate classes o (light_alcohol = methanol and ethanol, alcohol = C3+,
+    ether). The first sum is a suppression term: a low-octane hydrocarbon (n-heptane) blends higher
     in the presence of another class (lump weights and pairwise terms in the spirit of Ghosh,
     Hickey and Jaffe 2006 and Twu and Coon); the last is the oxygenate-base term of Anderson
     and Wallington (Energy Fuels 2020). ``linear_volume`` is :math:`\sum \phi_i ON_i`.

@@ -22,7 +22,8 @@ from __future__ import annotations
 
 import logging
 from dataclasses import dataclass
-from typing import Any, Mapping
+from pathlib import Path
+from typing import Any, Mapping, Sequence
 
 import numpy as np
 import pandas as pd
@@ -346,7 +347,8 @@ def candidate_chains(rt_min: np.ndarray, size: np.ndarray, *, n_candidates: int 
 
 def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: float, *,
                   weight: np.ndarray | None = None, lo: np.ndarray | None = None,
-                  hi: np.ndarray | None = None, lib_index_hi: np.ndarray | None = None
+                  hi: np.ndarray | None = None, lib_index_hi: np.ndarray | None = None,
+                  lib_bonus: np.ndarray | None = None, sigma: float | None = None
                   ) -> tuple[np.ndarray, float]:
     """Order-preserving one-to-one assignment of peaks to library entries by their indices.
 
@@ -366,6 +368,11 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         Upper ends when library entries are intervals ``[lib_index, lib_index_hi]`` (a
         co-eluting pair is one entry spanning both indices); the distance is then to the
         interval (0 inside).
+    lib_bonus : ndarray, shape (C,), optional
+        Log prior odds added to the gain of matching each library entry (e.g. for indices
+        the lab has learnt on its own column).
+    sigma : float, optional
+        Standard deviation assumed for index errors [index units]; default ``tolerance / 2``.
 
     Returns
     -------
@@ -376,11 +383,11 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
 
     Notes
     -----
-    Maximises ``sum w_p (1 - (d_pc / tol)^2)`` over non-crossing matchings with
-    ``|d_pc| <= tol``, ``d_pc = I_p - I_c``. With Gaussian index errors of spread
-    ``sigma`` and unknown peaks spread evenly, this gain is the log-likelihood ratio "peak is c"
-    against "peak is unknown" scaled by ``2 sigma^2 / tol^2``, with the window edge as the point
-    where both are equally likely. The dynamic programme is the longest-common-subsequence
+    Maximises ``sum w_p [(tol^2 - d_pc^2) / (2 sigma^2) + b_c]`` over non-crossing matchings
+    with ``|d_pc| <= tol``, ``d_pc = I_p - I_c``. With Gaussian index errors of spread
+    ``sigma`` and unknown peaks spread evenly, the first term is the log-likelihood ratio
+    "peak is c" against "peak is unknown", with the window edge as the point where both are
+    equally likely; ``b_c`` (``lib_bonus``) is the log prior odds of entry c. The dynamic programme is the longest-common-subsequence
     recurrence ``G[p, c] = max(G[p-1, c], G[p, c-1], G[p-1, c-1] + g_pc)``, computed one peak
     row at a time with a running maximum; O(P C) time and memory.
 
@@ -400,6 +407,9 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
     # window of candidate library positions per peak
     c_hi = c_idx if lib_index_hi is None else np.maximum(np.asarray(lib_index_hi, float), c_idx)
     run_hi = np.maximum.accumulate(c_hi)
+    bonus = None if lib_bonus is None else np.asarray(lib_bonus, dtype=float)
+    sig = tolerance / 2.0 if sigma is None else float(sigma)
+    kappa = tolerance ** 2 / (2.0 * sig ** 2)
     left = np.maximum(np.searchsorted(run_hi, p_idx - tolerance, side="left"), lo)
     right = np.minimum(np.searchsorted(c_idx, p_idx + tolerance, side="right"), hi)
     finite = np.isfinite(p_idx)
@@ -411,7 +421,8 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         if finite[p] and right[p] > left[p]:
             js = cols[left[p]:right[p]]
             d = np.maximum(np.maximum(c_idx[js] - p_idx[p], p_idx[p] - c_hi[js]), 0.0) / tolerance
-            gain = np.where(d <= 1.0, w[p] * (1.0 - d * d), -np.inf)
+            gain = kappa * (1.0 - d * d) if bonus is None else kappa * (1.0 - d * d) + bonus[js]
+            gain = np.where(d <= 1.0, w[p] * gain, -np.inf)
             cand = prev[js] + gain
             sub = row[js + 1]
             row[js + 1] = np.maximum(sub, cand)
@@ -675,3 +686,113 @@ def _extend_chain(markers: dict[int, float], rt: np.ndarray, w: np.ndarray, look
                 break
             m[nxt] = best_t
     return m
+
+
+# --------------------------------------------------------------------------------------------
+# The lab's own index table, learnt from named reference runs
+# --------------------------------------------------------------------------------------------
+
+def _run_key(text: str) -> str:
+    import re
+    key = re.sub(r"[^A-Za-z0-9._-]+", "-", str(text)).strip("-")
+    return key or "run"
+
+
+def learn_indices(runs: Sequence[tuple[str, pd.DataFrame]], library: Any,
+                  settings: Mapping[str, Any] | None = None) -> pd.DataFrame:
+    """Retention indices of the named peaks of reference runs, averaged over the runs.
+
+    Parameters
+    ----------
+    runs : sequence of (run id, peak table)
+        Named reference runs of the lab's column (DEVELOPERS.md "Peak table").
+    library : dha.library.Library
+        For the names (and the n-alkanes that serve as markers).
+    settings : dict, optional
+        Full settings or the ``[identify]`` section (isothermal hold, hold-up time, markers).
+
+    Returns
+    -------
+    DataFrame
+        One row per component named in at least one run: ``name``, ``retention_index`` (mean),
+        ``retention_index_sd`` (sample standard deviation over runs, NaN for one run),
+        ``n_runs``, ``runs`` (";"-joined ids), ``retention_index_source`` (``learnt:<ids>``).
+
+    Notes
+    -----
+    Each run's indices are computed from its own n-alkanes (named in the export, or given as
+    ``identify.markers``) with the forms of :class:`IndexScale`; only peaks matched by name or
+    CAS number count (not the shares of a co-elution split). A component named twice in one run
+    counts once (its larger peak, see :func:`dha.identify.identify`).
+    """
+    from dha.errors import InputError
+    from dha.identify import identify
+
+    if not runs:
+        raise InputError("index learn: no reference runs given")
+    rows = []
+    ids = []
+    for run_id, peaks in runs:
+        out = identify(peaks, library, settings)
+        if len(out.attrs.get("markers", {})) < 2 or any(
+                w.startswith("n-alkane markers found automatically")
+                for w in out.attrs.get("warnings", [])):
+            raise InputError(f"{run_id}: fewer than two n-alkanes named in the run; name them "
+                             "in the export or give identify.markers, then learn again")
+        named = out[out["match"].isin(["name", "cas"]) & out["retention_index"].notna()]
+        named = named.drop_duplicates("row", keep="first")   # not the partner of a split
+        named = named.drop_duplicates("component")
+        ids.append(_run_key(run_id))
+        rows.append(pd.DataFrame({"name": named["component"].to_numpy(),
+                                  "ri": named["retention_index"].to_numpy(dtype=float),
+                                  "run": ids[-1]}))
+    allrows = pd.concat(rows, ignore_index=True)
+    source = "learnt:" + "+".join(dict.fromkeys(ids))
+    g = allrows.groupby("name", sort=False)
+    table = pd.DataFrame({
+        "retention_index": g["ri"].mean().round(2),
+        "retention_index_sd": g["ri"].std(ddof=1).round(3),
+        "n_runs": g["ri"].size(),
+        "runs": g["run"].agg(lambda r: ";".join(dict.fromkeys(r))),
+    }).reset_index()
+    table["retention_index_source"] = source
+    return table.sort_values("retention_index", kind="stable").reset_index(drop=True)
+
+
+def write_index_overlay(table: pd.DataFrame, out_dir: str | Path, *, runs: Sequence[str] = (),
+                        overwrite: bool = False) -> Path:
+    """Write a learnt index table as a library overlay folder.
+
+    Files: ``components.csv`` (``name, retention_index, retention_index_source``; the other
+    columns blank, so the shipped values stay), ``references.toml`` (the ``learnt:...`` key
+    describing the runs), ``library.toml`` (overlay name and version) and
+    ``learnt_indices.csv`` (mean, sd and number of runs per component; for people, the loader
+    ignores it). Use the folder with ``--library DIR``.
+    """
+    import datetime
+    import json
+
+    from dha import __version__
+    from dha.errors import InputError
+
+    out = Path(out_dir)
+    files = ["components.csv", "references.toml", "library.toml", "learnt_indices.csv"]
+    if out.exists() and not overwrite and any((out / f).exists() for f in files):
+        raise InputError(f"{out}: holds a library overlay already; use --overwrite to replace it")
+    out.mkdir(parents=True, exist_ok=True)
+    source = str(table["retention_index_source"].iat[0]) if len(table) else "learnt:none"
+    table[["name", "retention_index", "retention_index_source"]].to_csv(
+        out / "components.csv", index=False, float_format="%.2f")
+    table.to_csv(out / "learnt_indices.csv", index=False)
+    today = datetime.date.today()
+    ref = (f"[{json.dumps(source)}]\n"
+           f"cite = {json.dumps('Retention indices learnt by dha index learn from the named reference run(s) ' + ', '.join(runs or [source.split(':', 1)[1]]) + f' on the lab column ({len(table)} components; mean over runs, see learnt_indices.csv for n and sd)')}\n"
+           f"package = \"dha\"\nversion = {json.dumps(__version__)}\n"
+           f"method = \"dha index learn (van den Dool-Kratz / Kovats index from the run's n-alkanes)\"\n"
+           f"licence = \"lab data; the lab's own terms\"\n")
+    (out / "references.toml").write_text(ref, encoding="utf-8")
+    (out / "library.toml").write_text(
+        f"name = \"lab-learnt-indices\"\nversion = \"{today.year}.{today.month:02d}.1\"\n"
+        f"description = {json.dumps('Lab retention indices learnt from ' + source)}\n",
+        encoding="utf-8")
+    return out

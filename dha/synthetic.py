@@ -91,7 +91,9 @@ def synthetic_run(composition: Mapping[str, float] | pd.DataFrame, library: Any,
                   names: bool | float = False, missing_trace_below_pct: float = 0.0,
                   extra_unknowns: int = 0, programme: Mapping[str, float] | None = None,
                   area_noise_pct: float = 1.0, total_area: float = 1.0e6,
-                  coelute: bool = True, merge_unresolved: bool = True) -> tuple[pd.DataFrame, pd.DataFrame]:
+                  coelute: bool = True, merge_unresolved: bool = True,
+                  column_sd: float = 0.0, column_seed: int = 0
+                  ) -> tuple[pd.DataFrame, pd.DataFrame]:
     """A synthetic peak table for a composition.
 
     Parameters
@@ -121,6 +123,10 @@ def synthetic_run(composition: Mapping[str, float] | pd.DataFrame, library: Any,
         Sum of the areas before noise [counts].
     coelute : bool
         Merge the library's known co-elution pairs into one peak.
+    column_sd, column_seed : float, int
+        A fixed deviation of the lab column's indices from the library's, drawn per
+        component from N(0, column_sd) with its own seed (the same for every run of that
+        column) [index units]; ``index_noise_sd`` then adds run-to-run noise.
     merge_unresolved : bool
         Merge components closer than twice the peak width (standard deviation
         ``0.02 + 0.0015 t`` min, invented) into one peak.
@@ -152,7 +158,12 @@ def synthetic_run(composition: Mapping[str, float] | pd.DataFrame, library: Any,
         bad = [c for c, r in zip(names_list, lib_ri) if np.isnan(r)]
         raise InputError(f"synthetic run: no retention index for {', '.join(bad[:5])}")
     is_alkane = (comps.loc[names_list, "group"] == "n_paraffins").to_numpy()
-    true_ri = lib_ri + np.where(is_alkane, 0.0, rng.normal(0.0, index_noise_sd, len(lib_ri)))
+    noise = rng.normal(0.0, index_noise_sd, len(lib_ri))
+    if column_sd > 0:
+        col_rng = np.random.default_rng(column_seed)
+        offsets = {c: col_rng.normal(0.0, column_sd) for c in sorted(comps.index)}
+        noise = noise + np.array([offsets[c] for c in names_list])
+    true_ri = lib_ri + np.where(is_alkane, 0.0, noise)
 
     prog = {**DEFAULT_PROGRAMME, **(programme or {})}
     alk = alkane_retention_times(prog)
@@ -212,7 +223,12 @@ def synthetic_run(composition: Mapping[str, float] | pd.DataFrame, library: Any,
     peaks["height"] = peaks["area"] / (width_min * 60.0 * np.sqrt(2 * np.pi))
     peaks["area_pct"] = 100.0 * peaks["area"] / peaks["area"].sum()
     row_of = dict(zip(peaks["_key"], peaks["row"]))
-    label = [names_list[k] if k >= 0 else None for k in peaks["_key"]]
+    main: dict[int, int] = {}                     # a peak is named after its largest member
+    for i in np.flatnonzero(present):
+        k = peak_of[i]
+        if k not in main or area[i] > area[main[k]]:
+            main[k] = i
+    label = [names_list[main[k]] if k >= 0 else None for k in peaks["_key"]]
     if names is True:
         show = np.ones(len(peaks), dtype=bool)
     elif names is False or names is None:

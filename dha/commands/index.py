@@ -1,4 +1,67 @@
-"""`dha` commands of this area (see dha/cli.py)."""
+"""`dha index`: the lab's own retention-index table (see dha/cli.py)."""
+from __future__ import annotations
+
+from pathlib import Path
+
 import click
 
 COMMANDS: list[click.Command] = []
+
+
+@click.group("index")
+def index_group() -> None:
+    """The lab's own retention-index table, learnt from named reference runs."""
+
+
+@index_group.command("learn")
+@click.argument("refruns", nargs=-1, required=True,
+                type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@click.option("-o", "--out-dir", required=True, type=click.Path(file_okay=False, path_type=Path),
+              help="Folder to write the library overlay to.")
+@click.option("--library", "library_dir", type=click.Path(file_okay=False, path_type=Path),
+              help="Lab library overlay folder to read names from.")
+@click.option("--settings", "settings_file", type=click.Path(dir_okay=False, path_type=Path),
+              help="Settings file ([identify]: isothermal hold, hold-up time, markers).")
+@click.option("--overwrite", is_flag=True, help="Replace an overlay that exists.")
+def learn_command(refruns, out_dir, library_dir, settings_file, overwrite) -> None:
+    """Learn retention indices from named reference runs and write a library overlay.
+
+    Each REFRUN is a peak-table export whose peaks (n-alkanes included) carry names. The
+    indices are computed from each run's own n-alkanes and averaged over the runs; later runs
+    use them with --library DIR (their matches then say ri_source "learnt").
+
+    \b
+    Example:
+        dha index learn ref_2026-11-30.csv ref_2026-12-01.csv -o lab_indices/
+        dha report sample.csv --library lab_indices/
+    """
+    from dha.library import load_library
+    from dha.reader import read_input
+    from dha.retention import learn_indices, write_index_overlay
+    from dha.settings import load_settings
+
+    settings = load_settings(settings_file)
+    library = load_library(overlay=library_dir) if library_dir else load_library()
+    runs = []
+    for path in refruns:
+        for run in read_input(path, settings):
+            if run.kind != "peaks":
+                from dha.errors import InputError
+                raise InputError(f"{path}: a composition table, not a peak table; give a "
+                                 "named reference run")
+            rid = (run.sample or {}).get("id") or path.stem
+            if run.injection:
+                rid = f"{rid}-{run.injection}"
+            runs.append((str(rid), run.table))
+    table = learn_indices(runs, library, settings)
+    out = write_index_overlay(table, out_dir, runs=[r for r, _ in runs], overwrite=overwrite)
+    sd = table["retention_index_sd"].dropna()
+    click.echo(f"learnt {len(table)} retention indices from {len(runs)} run(s) -> {out}")
+    if len(sd):
+        worst = table.loc[table["retention_index_sd"].idxmax()]
+        click.echo(f"spread over runs: median sd {sd.median():.2f}, largest {worst['name']} "
+                   f"({worst['retention_index_sd']:.2f})")
+    click.echo(f"use it with: --library {out}")
+
+
+COMMANDS.append(index_group)

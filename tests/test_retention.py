@@ -1,0 +1,106 @@
+"""Retention indices (dha.retention): formulas, inverse, hold-up time, alignment, learning."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from dha.errors import SettingsError
+from dha.retention import (IndexScale, align_indices, estimate_holdup, extend_markers,
+                           make_scale, parse_markers)
+
+
+def test_linear_index_van_den_dool_kratz():
+    # I = 100 [n + (t - t_n)/(t_n+1 - t_n)] (van den Dool & Kratz 1963; IUPAC Gold Book
+    # R05360, facts.md fact 7): a peak at 14.0 min between n-C7 (12.0) and n-C8 (16.0) -> 750
+    s = IndexScale(np.array([7, 8]), np.array([12.0, 16.0]))
+    assert s.index([14.0])[0] == pytest.approx(750.0)
+    assert s.index([12.0, 16.0]).tolist() == pytest.approx([700.0, 800.0])
+
+
+def test_non_adjacent_markers_carry_n_difference():
+    # general form with markers n and N: I = 100 [n + (N - n)(t - t_n)/(t_N - t_n)]
+    # (facts.md fact 7, note on non-adjacent alkanes)
+    s = IndexScale(np.array([6, 8]), np.array([10.0, 20.0]))
+    assert s.index([15.0])[0] == pytest.approx(700.0)
+
+
+def test_kovats_log_index_on_adjusted_times():
+    # Kovats 1958 (IUPAC Gold Book R05360): I = 100 [n + (log t'x - log t'n)/(log t'N - log t'n)]
+    # t_M = 1 min, n-C5 at 3 min (t' = 2), n-C6 at 5 min (t' = 4), peak at 3.8284 (t' = 2.8284)
+    tm = 1.0
+    s = IndexScale(np.array([5, 6]), np.array([3.0, 5.0]), isothermal_until_min=10.0,
+                   holdup_time_min=tm)
+    t = tm + 2.0 * math.sqrt(2.0)
+    expected = 100 * (5 + (math.log(t - tm) - math.log(2)) / (math.log(4) - math.log(2)))
+    assert s.index([t])[0] == pytest.approx(expected)
+    assert expected == pytest.approx(550.0)
+
+
+def test_bracket_straddling_the_hold_is_linear():
+    s = IndexScale(np.array([5, 6]), np.array([3.0, 5.0]), isothermal_until_min=4.0,
+                   holdup_time_min=1.0)
+    assert s.index([4.0])[0] == pytest.approx(550.0)
+
+
+@pytest.mark.parametrize("iso", [0.0, 30.0])
+def test_rt_is_the_inverse_of_index(iso):
+    s = make_scale({4: 5.1, 5: 7.0, 6: 12.25, 7: 23.4, 8: 34.7},
+                   {"isothermal_until_min": iso, "holdup_time_min": 4.0})
+    idx = np.array([410.0, 455.5, 530.2, 699.9, 780.0, 860.0])
+    assert s.index(s.rt(idx)) == pytest.approx(idx, abs=1e-9)
+
+
+def test_holdup_from_three_isothermal_alkanes():
+    # adjusted times of n-alkanes in an isothermal run form a geometric series (Kovats: log t'
+    # linear in carbon number): with t_M = 2, t' = 1, 3, 9 -> t = 3, 5, 11
+    assert estimate_holdup({4: 3.0, 5: 5.0, 6: 11.0}, 20.0) == pytest.approx(2.0)
+
+
+def test_extrapolated_markers_follow_the_spacing_ratio():
+    ext = extend_markers({6: 10.0, 7: 20.0, 8: 29.0, 9: 37.0}, n_extra=2)
+    # spacing ratio 8/9 kept: 37 + 8*(8/9), then + 8*(8/9)^2
+    assert ext[10] == pytest.approx(37 + 8 * 8 / 9)
+    assert ext[11] == pytest.approx(37 + 8 * 8 / 9 + 8 * (8 / 9) ** 2)
+
+
+def test_markers_must_increase():
+    with pytest.raises(SettingsError):
+        make_scale({5: 10.0, 6: 9.0})
+
+
+def test_parse_markers_from_toml_keys():
+    assert parse_markers({"5": 12.3, "C6": 18}) == {5: 12.3, 6: 18.0}
+    with pytest.raises(SettingsError):
+        parse_markers({"five": 12.3})
+    with pytest.raises(SettingsError):
+        parse_markers({"5": -1.0})
+
+
+def test_alignment_preserves_order_and_uses_each_entry_once():
+    lib = np.array([500.0, 510.0, 520.0])
+    # two peaks both nearest to 510: one-to-one, order kept -> 500/510 or 510/520, never both 510
+    a, _ = align_indices(np.array([509.0, 511.0]), lib, 3.0)
+    assert len(set(a[a >= 0])) == (a >= 0).sum()
+    assert list(a[a >= 0]) == sorted(a[a >= 0])
+    # a crossing assignment is never chosen: peaks in time order map to increasing entries
+    a, _ = align_indices(np.array([511.5, 509.5, 519.0]), lib, 3.0)
+    got = a[a >= 0]
+    assert list(got) == sorted(got)
+
+
+def test_alignment_leaves_peaks_outside_the_window():
+    a, _ = align_indices(np.array([505.0]), np.array([500.0, 510.0]), 3.0)
+    assert a.tolist() == [-1]
+
+
+def test_alignment_interval_entry_and_prior():
+    # an interval entry (co-eluting pair) matches anywhere inside it
+    a, _ = align_indices(np.array([505.0]), np.array([500.0]), 1.0, lib_index_hi=np.array([510.0]))
+    assert a.tolist() == [0]
+    # a prior bonus can prefer a slightly farther entry
+    lib = np.array([500.0, 501.0])
+    assert align_indices(np.array([500.8]), lib, 3.0)[0].tolist() == [1]
+    assert align_indices(np.array([500.8]), lib, 3.0,
+                         lib_bonus=np.array([1.0, 0.0]))[0].tolist() == [0]

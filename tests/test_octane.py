@@ -225,3 +225,18 @@ def test_calibrate_command_and_apply(tmp_path, library):
 
 def test_octane_is_registered():
     assert "dha.properties.octane" in MODELS
+
+
+@pytest.mark.parametrize("name, cls", [
+    ("methanol", "light_alcohol"), ("ethanol", "light_alcohol"), ("2-propanol", "alcohol"),
+    ("1-butanol", "alcohol"), ("2-methyl-1-propanol", "alcohol"),
+    ("2-methoxy-2-methylpropane", "ether"),   # MTBE
+    ("2-ethoxy-2-methylpropane", "ether"),    # ETBE
+    ("2-methoxy-2-methylbutane", "ether"),    # TAME
+    ("toluene", "aromatic"), ("n-heptane", "paraffin"), ("2,2,4-trimethylpentane", "paraffin"),
+])
+def test_oxygenates_are_classed_explicitly(library, name, cls):
+    # Structures from the library's SMILES (identities from the chemicals package): methanol
+    # and ethanol are the alcohols found to blend linearly by mole (Anderson et al. 2010).
+    row = library.components.loc[name]
+    assert oc.blending_class(row["group"], row["smiles"], row.get("subgroup")) == cls

@@ -8,7 +8,8 @@ Three blending models, chosen with settings ``[octane] model``:
     Each hydrocarbon group (paraffins, olefins, naphthenes, aromatics) is a lump whose octane
     number is the volume average of its members; the lumps and every oxygenate blend linearly
     **by mole** (Anderson, Kramer, Mueller and Wallington, Energy Fuels 24 (2010) 6576 for
-    ethanol and methanol; Knop et al. found the same for toluene reference fuels). Inside the
+    ethanol and methanol; Knop, Loos, Pera and Jeuland, Fuel 115 (2014) 666, from memory, for
+    n-heptane/isooctane/toluene blends). Inside the
     paraffin lump blending is by volume, so primary reference fuels keep their definition.
 ``interaction`` (default)
     Our own model in the family of Ghosh, Hickey and Jaffe (Ind. Eng. Chem. Res. 45 (2006) 337:

@@ -422,7 +422,8 @@ def describe_data(data: MixtureData) -> str:
         f"data: {int(info['mon'].notna().sum())} MON mixtures (KUZ2022_MON, CC BY 4.0; COOPTIMA "
         f"S4), {int(info['ron'].notna().sum())} RON mixtures (COOPTIMA S4 surrogate only), "
         f"{info['group'].nunique()} groups for leave-one-group-out",
-        f"fractions read as volume fractions (labels say vol%, or "X+n" series): {', '.join(by_vol)}; others "
+        "fractions read as volume fractions (labels say vol%, or 'X+n' series): "
+        f"{', '.join(by_vol)}; others "
         "as mole fractions",
         f"left out: {len(data.excluded)} PRFnn definition rows (one, PRF10, has MON 0.0)",
         f"MON: {len(MON_FITTED)} parameters fitted on the mixtures without estimated neat "

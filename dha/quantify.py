@@ -579,7 +579,10 @@ def _mass_balance(area: pd.Series, corrected: pd.Series, identified: pd.Series,
     # float sums of the same numbers in another order differ by a few ulps per term
     tolerance = 1e-12 * max(len(area), 1)
     return {
-        "peaks": {**n, "total": int(len(area))},
+        # rows of the identified table (a co-elution split gives two rows for one peak) and,
+        # when known, the number of peaks the reader delivered
+        "peaks": {**n, "total": int(len(area)),
+                  "read": int(len(peaks)) if peaks is not None else int(len(area))},
         "area": {**a, "total": total_area},
         "area_share_pct": {k: 100.0 * v / total_area for k, v in a.items()},
         "corrected_area": {**c, "total": total_corr},

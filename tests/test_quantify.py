@@ -210,7 +210,7 @@ def test_exclusion_keeps_mass_balance(lib, settings):
     assert list(q.table["name"]) == ["n-heptane", "toluene"]
     assert q.table["mass_pct"].sum() == pytest.approx(100.0, abs=1e-12)
     mb = q.mass_balance
-    assert mb["peaks"] == {"identified": 2, "unidentified": 0, "excluded": 2, "total": 4}
+    assert mb["peaks"] == {"identified": 2, "unidentified": 0, "excluded": 2, "total": 4, "read": 4}
     assert mb["area"]["excluded"] == 950.0
     parts = mb["area"]["identified"] + mb["area"]["unidentified"] + mb["area"]["excluded"]
     assert parts == mb["area"]["total"] and mb["closes"]

@@ -4,6 +4,7 @@ from __future__ import annotations
 import json
 import math
 
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -129,12 +130,31 @@ def _rrf_by_hand(lib, name):
     return row["molar_mass_g_mol"] * 0.7487 / (12.011 * n)
 
 
+def _e2e_settings():
+    """Defaults with a narrow index window (1 unit), so that the unknown stays unknown in the
+    dense shipped library (the named peaks match by name)."""
+    s = default_settings()
+    s["identify"]["ri_tolerance"] = 1.0
+    return s
+
+
+def _gap_index(lib):
+    """Middle of the widest gap between library indices in (700, 800): no component within the
+    identifier's window there (asserted, so a denser library shows up here, not as a wrong match)."""
+    ri = np.sort(lib.components["retention_index"].dropna().to_numpy())
+    ri = np.concatenate([[700.0], ri[(ri > 700) & (ri < 800)], [800.0]])
+    i = int(np.argmax(np.diff(ri)))
+    assert ri[i + 1] - ri[i] > 4 * _e2e_settings()["identify"]["ri_tolerance"]
+    return float((ri[i] + ri[i + 1]) / 2)
+
+
 def _hand_export(lib, tmp_path):
     """Peak table by hand: area = mass/RRF, times t = I/50 min (linear index scale), names
-    given, plus one unnamed peak at I = 779 (a C8 unknown, in a gap of the library) of 30 000 counts."""
+    given, plus one unnamed peak of 30 000 counts in the widest gap of the library's indices
+    between n-C7 and n-C8 (a C8 unknown)."""
     rows = [(lib.components.at[n, "retention_index"] / 50.0, 1.0e4 * m / _rrf_by_hand(lib, n), n)
             for n, m in HAND_BLEND.items()]
-    rows.append((779.0 / 50.0, 3.0e4, ""))
+    rows.append((_gap_index(lib) / 50.0, 3.0e4, ""))
     table = pd.DataFrame(sorted(rows), columns=["RT [min]", "Area", "Name"])
     path = tmp_path / "hand_blend.csv"
     table.to_csv(path, index=False)
@@ -142,45 +162,49 @@ def _hand_export(lib, tmp_path):
 
 
 def _export_files(tmp_path):
-    """Every test export of the reader's corpus (tests/exports/), plus the hand-made one."""
+    """(path, settings) of every export of the reader's corpus (tests/exports/*.expected.json,
+    with the reader settings each one names), plus the hand-made one."""
     from pathlib import Path
 
     from dha.library import load_library
+    from dha.settings import merge_settings
     lib = load_library()
-    corpus = sorted(p for p in (Path(__file__).parent / "exports").glob("*")
-                    if p.suffix.lower() in (".csv", ".tsv", ".txt", ".xlsx", ".xls"))
-    return lib, [_hand_export(lib, tmp_path)] + corpus
+    exports = Path(__file__).parent / "exports"
+    files = [(_hand_export(lib, tmp_path), _e2e_settings())]
+    for expected in sorted(exports.glob("*.expected.json")):
+        spec = json.loads(expected.read_text(encoding="utf-8"))
+        reader = dict(spec.get("settings") or {})
+        if reader.get("profile"):
+            reader["profile"] = str(exports / reader["profile"])
+        settings = merge_settings(default_settings(), {"reader": reader}) if reader else default_settings()
+        files.append((exports / spec["file"], settings))
+    return lib, files
 
 
 def test_mass_balance_closes_on_every_export(tmp_path):
-    from dha.errors import InputError
     from dha.pipeline import process_file
     lib, files = _export_files(tmp_path)
-    s = default_settings()
     checked = 0
-    for path in files:
-        try:
-            results = process_file(path, s, lib, spec="")
-        except InputError:
-            continue    # exports made to be rejected by the reader (bad files) are not runs
-        for r in results:
-            checked += 1
+    for path, settings in files:
+        for r in process_file(path, settings, lib, spec=""):
+            for basis in ("mass_pct", "vol_pct", "mol_pct"):
+                assert sum(r["totals"][basis].values()) == pytest.approx(100.0, abs=1e-6)
             mb = r["mass_balance"]
             if mb is None:      # composition input: no peaks
                 continue
+            checked += 1
             assert mb["closes"], (path.name, mb)
             parts = sum(mb["area"][k] for k in ("identified", "unidentified", "excluded"))
-            assert parts == pytest.approx(mb["area"]["total"], rel=1e-12)
-            for basis in ("mass_pct", "vol_pct", "mol_pct"):
-                assert sum(r["totals"][basis].values()) == pytest.approx(100.0, abs=1e-6)
-    assert checked >= 1
+            # the JSON keeps 9 significant digits: the rounded parts add up to 1e-8
+            assert parts == pytest.approx(mb["area"]["total"], rel=1e-8)
+    assert checked >= len(files) - 3      # all but the three composition exports are peak runs
 
 
 def test_hand_made_export_end_to_end(tmp_path):
     # reader -> identify -> quantify -> groups -> result on a peak table made by hand
     from dha.pipeline import process_file
     lib, files = _export_files(tmp_path)
-    r = process_file(files[0], default_settings(), lib, spec="")[0]
+    r = process_file(files[0][0], files[0][1], lib, spec="")[0]
     got = {c["name"]: c for c in r["components"]}
     # unknown C8: isoparaffin C8H18 factor (IUPAC weights) on 30 000 counts
     m_unknown = 3.0e4 * (8 * 12.011 + 18 * 1.008) * 0.7487 / (12.011 * 8)

@@ -482,7 +482,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             hi_ri = np.where(k < len(a_rt), a_ri[np.minimum(k, len(a_rt) - 1)], np.inf)
             lo = np.searchsorted(pool_lo, lo_ri, side="right")
             hi = np.searchsorted(pool_lo, hi_ri, side="left")
-        prior = float(s.get("learnt_prior", 1.0))
+        prior = float(s.get("learnt_prior", 3.0))
         bonus = np.where(lib_kind[pool] == "learnt", prior, 0.0) + _group_prior(
             library, lib["name"].to_numpy()[pool], s)
         assign, _ = rx.align_indices(peak_ri[todo], pool_lo, tol, lo=lo, hi=hi,
@@ -535,7 +535,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
 #: Typical petrol group totals [mass %] for the group prior (common practice, no source; in
 #: line with the EN 228 caps of 35 % v/v aromatics and 18 % v/v olefins).
 TYPICAL_GROUP_MASS_PCT = {"n_paraffins": 10.0, "isoparaffins": 35.0, "olefins": 10.0,
-                          "naphthenes": 8.0, "aromatics": 30.0, "oxygenates": 7.0}
+                          "naphthenes": 8.0, "aromatics": 30.0, "oxygenates": 3.0}
 
 
 def _weights(size: np.ndarray, s: dict[str, Any]) -> np.ndarray:

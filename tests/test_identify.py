@@ -130,3 +130,127 @@ def test_coelution_split_when_partner_has_no_peak(lib):
     assert sum(got.values()) == pytest.approx(1000.0)
     assert out["coelution"].notna().all()
     assert any("co-elute" in w for w in out.attrs["warnings"])
+
+
+# --------------------------------------------------------------------------------------------
+# Retention-index identification on synthetic runs (dha.synthetic; the library's indices are
+# the truth there, so these tests measure the algorithm, not the shipped estimates)
+# --------------------------------------------------------------------------------------------
+
+import dataclasses  # noqa: E402
+
+from dha.synthetic import (EXAMPLE_KINDS, example_composition,  # noqa: E402
+                           identification_accuracy, synthetic_run)
+
+# the synthetic runs' method: 35 degC hold 15 min, t_M = 4 min (dha.synthetic.DEFAULT_PROGRAMME)
+_METHOD = {"isothermal_until_min": 15.0, "holdup_time_min": 4.0}
+
+
+def _settings(**identify):
+    s = default_settings()
+    s["identify"].update(_METHOD, **identify)
+    return s
+
+
+def _alkane_markers(truth, lib):
+    """The run's n-alkane times, as a lab enters them from its alkane standard."""
+    out = {}
+    for c, i, t in zip(truth["component"], truth["true_index"], truth["rt_min"]):
+        if c is not None and lib.components.at[c, "group"] == "n_paraffins":
+            out[str(int(round(i / 100)))] = float(t)
+    return out
+
+
+def _resolvable(lib, gap=2.0):
+    """The library thinned to entries at least ``gap`` index units apart (n-alkanes kept)."""
+    comps = lib.components.sort_values("retention_index")
+    keep, last = [], -1e9
+    for name, ri, grp in zip(comps.index, comps["retention_index"], comps["group"]):
+        if grp == "n_paraffins" or ri - last >= gap:
+            keep.append(name)
+            last = ri
+    sub = lib.components.loc[sorted(keep)]
+    co = lib.coelution[lib.coelution["name_a"].isin(sub.index) & lib.coelution["name_b"].isin(sub.index)]
+    return dataclasses.replace(lib, components=sub, coelution=co)
+
+
+def _accuracies(lib, sd, drift, tol, seeds=(0, 1)):
+    out = {}
+    for kind in EXAMPLE_KINDS:
+        comp = example_composition(kind, lib)
+        for seed in seeds:
+            peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=sd, drift_pct=drift)
+            s = _settings(ri_tolerance=tol, markers=_alkane_markers(truth, lib))
+            out[(kind, seed)] = identification_accuracy(identify(peaks, lib, s), truth)
+    return out
+
+
+def test_unnamed_runs_resolvable_library_sigma_0_5(lib):
+    # Target of issue 5: >= 99 % of the mass identified at index noise sd 0.5. Met where the
+    # library's entries are resolvable (>= 2 index units apart, 4 sd): measured 0.992-1.000
+    acc = _accuracies(_resolvable(lib), 0.5, 0.0, 3.0)
+    assert np.mean(list(acc.values())) >= 0.99, acc
+    assert min(acc.values()) >= 0.985, acc
+
+
+def test_unnamed_runs_resolvable_library_sigma_1_5_drift(lib):
+    # Target of issue 5: >= 97 % at sd 1.5 with 0.5 % drift. NOT met: measured mean ~0.97,
+    # single runs down to ~0.83 when a large component lands 2 sd off and a neighbour is
+    # nearer (window widened to 3 sd, ri_tolerance 4.5). Asserted: what the method achieves.
+    acc = _accuracies(_resolvable(lib), 1.5, 0.5, 4.5)
+    assert np.mean(list(acc.values())) >= 0.93, acc
+
+
+def test_unnamed_runs_shipped_library_sigma_0_5(lib):
+    # With every shipped entry (estimated indices, median spacing ~1 index unit, 2x denser
+    # than sd 0.5 noise resolves) the 99 % target is NOT met: a nearer absent component often
+    # takes a peak. Measured 0.955-0.993 over seeds 0-3; asserted what the method achieves.
+    acc = _accuracies(lib, 0.5, 0.0, 3.0)
+    assert np.mean(list(acc.values())) >= 0.96, acc
+    assert min(acc.values()) >= 0.94, acc
+
+
+def test_identify_is_order_preserving_and_one_to_one(lib):
+    comp = example_composition("e10", lib)
+    peaks, truth = synthetic_run(comp, lib, seed=4, index_noise_sd=0.5, extra_unknowns=10)
+    out = identify(peaks, lib, _settings(markers=_alkane_markers(truth, lib)))
+    ri = out[out["match"] == "retention_index"]
+    assert not out.loc[out["component"].notna()].duplicated("component").any()
+    assert (ri["ri_delta"].abs() <= 3.0 + 1e-9).all()
+    # unknowns carry the carbon number of their n-alkane bracket: ceil(I / 100)
+    # (between n-C6 and n-C7 -> C7; common practice, no source)
+    unk = out[out["match"] == "unidentified"]
+    assert (unk["carbon_number"] == np.ceil(unk["retention_index"] / 100 - 1e-9)).all()
+    assert set(out["ri_source"].dropna()) <= {"estimated", "learnt", "export"}
+
+
+def test_learnt_overlay_reproduces_the_named_run(lib, tmp_path):
+    # A lab column whose indices differ from the shipped estimates (sd 1.5, fixed per
+    # component); a named reference run is learnt, then a later unnamed run of the same column
+    # (run-to-run sd 0.1, 0.3 % drift) is identified with the learnt overlay. Target of
+    # issue 5: the same peak -> component assignment for >= 99 % of the mass.
+    from dha.retention import learn_indices, write_index_overlay
+    comp = example_composition("reformate", lib)
+    kw = dict(column_sd=1.5, column_seed=11, index_noise_sd=0.1)
+    ref, _ = synthetic_run(comp, lib, seed=1, names=True, **kw)
+    table = learn_indices([("REF-1", ref)], lib, _settings())
+    write_index_overlay(table, tmp_path / "lab", runs=["REF-1"])
+    lab = load_library(tmp_path / "lab")
+    assert lab.components.loc[table["name"], "retention_index_source"].str.startswith("learnt:").all()
+    run, truth = synthetic_run(comp, lib, seed=2, drift_pct=0.3, **kw)
+    out = identify(run, lab, _settings(markers=_alkane_markers(truth, lib)))
+    assert identification_accuracy(out, truth) >= 0.99
+    assert (out["ri_source"] == "learnt").sum() > 0.8 * out["ri_source"].notna().sum()
+    # without the learnt table the same run is identified much worse
+    plain = identify(run, lib, _settings(markers=_alkane_markers(truth, lib)))
+    assert identification_accuracy(plain, truth) < identification_accuracy(out, truth)
+
+
+def test_export_indices_are_used(lib):
+    peaks = _peaks([(10.0, 100.0, None), (20.0, 100.0, None)])
+    ri = lib.components.loc[["benzene", "ethylbenzene"], "retention_index"].to_numpy()
+    peaks["retention_index"] = ri + 0.2
+    out = identify(peaks, lib, default_settings())
+    assert out["component"].tolist() == ["benzene", "ethylbenzene"]
+    assert out["ri_source"].tolist() == ["export", "export"]
+    assert out["ri_delta"].to_numpy() == pytest.approx([0.2, 0.2])

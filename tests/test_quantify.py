@@ -326,3 +326,15 @@ def test_reference_temperature_60f_changes_volume_pct_only_slightly(lib, setting
     settings["quantify"]["reference_temperature_c"] = 60.0      # °F typed as °C: refused
     with pytest.raises(SettingsError, match="reference_temperature_c"):
         quantify_composition(table, "mass_pct", lib, settings)
+
+
+def test_composition_names_through_the_identifiers_matcher(settings):
+    # trade abbreviations and inverted index names (dha.identify.match_name) resolve like the
+    # identifier resolves export names; CAS 71-43-2 is benzene (CAS registry)
+    from dha.library import load_library
+    table = pd.DataFrame({"row": [2, 3, 4, 5], "component": ["nC7", "iC5", "Benzene, methyl-", "71-43-2"],
+                          "amount": [40.0, 30.0, 29.0, 1.0]})
+    t = quantify_composition(table, "vol_pct", load_library(), settings).table
+    assert list(t["name"]) == ["n-heptane", "2-methylbutane", "toluene", "benzene"]
+    assert list(t["match"]) == ["name", "name", "name", "cas"]
+    np.testing.assert_allclose(t["vol_pct"], [40.0, 30.0, 29.0, 1.0], rtol=1e-12)

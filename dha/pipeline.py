@@ -126,8 +126,10 @@ def process_file_stems(path: str | Path, settings: dict, library,
                        spec: str | None = None) -> list[tuple[str, dict]]:
     """As ``process_file``, with each result's output stem."""
     path = Path(path)
+    if path.is_dir():
+        raise InputError(f"{path}: is a folder; give the export files (or use dha batch)")
     if not path.is_file():
-        raise InputError(f"{path}: file not found")
+        raise InputError(f"{path}: file not found; check the path")
     from dha.reader import read_input
     runs = read_input(path, settings)
     if not runs:

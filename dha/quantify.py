@@ -443,6 +443,10 @@ def quantify_peaks(identified: pd.DataFrame, library, settings: dict,
         raise InputError(f"{where}identified component(s) not in the library: "
                          f"{', '.join(sorted(set(comp_col[unknown_lib])))}")
     identified_mask = comp_col.notna() & (match != "unidentified")
+    lib_cn = comp_col[identified_mask].map(library.components["carbon_number"])
+    df["carbon_number"] = pd.to_numeric(df.get("carbon_number"), errors="coerce") \
+        if "carbon_number" in df else np.nan
+    df.loc[identified_mask, "carbon_number"] = lib_cn.astype(float)
     cn = _carbon_numbers(df, warnings)
     excluded = _excluded_mask(df, library, settings)
 

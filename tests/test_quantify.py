@@ -338,3 +338,14 @@ def test_composition_names_through_the_identifiers_matcher(settings):
     assert list(t["name"]) == ["n-heptane", "2-methylbutane", "toluene", "benzene"]
     assert list(t["match"]) == ["name", "name", "name", "cas"]
     np.testing.assert_allclose(t["vol_pct"], [40.0, 30.0, 29.0, 1.0], rtol=1e-12)
+
+
+def test_missing_carbon_numbers(lib, settings):
+    # identified peaks take the library's carbon number; an unknown with neither carbon number
+    # nor index takes the one of the peak eluting before it (documented rule), with a warning
+    peaks = peak_table([(10.0, 1000.0, "n-heptane", np.nan, np.nan), (10.5, 100.0, None, np.nan, np.nan),
+                        (12.0, 500.0, "toluene", np.nan, np.nan)])
+    q = quantify_peaks(peaks, lib, settings)
+    assert list(q.table["carbon_number"]) == [7, 7, 7]
+    assert q.table.loc[1, "model_component"] == "2-methylhexane"
+    assert sum("took the carbon number" in w for w in q.warnings) == 1 and "rows 2" in q.warnings[0]

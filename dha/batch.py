@@ -35,6 +35,16 @@ SUMMARY_COLUMNS = [
 ]
 
 
+def quiet_run_warnings() -> None:
+    """Keep per-run warnings out of the terminal during a batch (unless -v was given).
+
+    Every warning is in its run's result (``warnings``) and counted in the summary; printing
+    hundreds of them would bury the progress bar and the summary lines.
+    """
+    if logging.getLogger().getEffectiveLevel() >= logging.WARNING:
+        logging.getLogger("dha").setLevel(logging.ERROR)
+
+
 def expand_inputs(paths: Iterable[str | Path]) -> list[Path]:
     """Files, folders (their peak/composition files, not recursive) and glob patterns -> files.
 

@@ -7,6 +7,7 @@ import click
 
 from dha import batch, specs
 from dha.settings import load_settings
+from dha.batch import quiet_run_warnings
 
 
 @click.command("batch")
@@ -36,6 +37,7 @@ def batch_command(paths, out_dir, jobs, spec, formats, library_dir, settings_fil
         dha batch runs/2026-12-01/ -o qc/2026-12-01 --jobs 2 --spec en228-e10-summer
     """
     settings = load_settings(settings_file)
+    quiet_run_warnings()
     spec = spec or settings["report"]["spec"]
     profile = specs.load_profile(spec)
     files = batch.expand_inputs(paths)

@@ -8,6 +8,7 @@ import click
 from dha import batch, specs
 from dha.errors import InputError
 from dha.settings import load_settings
+from dha.batch import quiet_run_warnings
 
 
 def find_example_runs() -> Path:
@@ -35,6 +36,7 @@ def demo_command(out_dir: Path, jobs: int) -> None:
         dha demo -o out/demo
     """
     settings = load_settings()
+    quiet_run_warnings()
     folder = find_example_runs()
     files = batch.expand_inputs([folder])
     spec = settings["report"]["spec"]

@@ -48,6 +48,9 @@ def quiet_run_warnings() -> None:
 def expand_inputs(paths: Iterable[str | Path]) -> list[Path]:
     """Files, folders (their peak/composition files, not recursive) and glob patterns -> files.
 
+    Folders and globs keep only export-like files (``INPUT_SUFFIXES``); a file named
+    explicitly is always taken.
+
     Order is kept as given; each folder's files are sorted by name; duplicates removed.
     """
     out: list[Path] = []
@@ -59,7 +62,8 @@ def expand_inputs(paths: Iterable[str | Path]) -> list[Path]:
         elif p.is_file():
             found = [p]
         else:
-            found = [Path(q) for q in sorted(glob.glob(text)) if Path(q).is_file()]
+            found = [Path(q) for q in sorted(glob.glob(text))
+                     if Path(q).is_file() and Path(q).suffix.lower() in INPUT_SUFFIXES]
             if not found:
                 raise InputError(f"{text}: no such file, folder or matching files")
         out.extend(found)

@@ -514,6 +514,8 @@ def _identification(flow: Flow, result: dict) -> None:
 def _text_value(value: Any) -> str:
     if value is None or (isinstance(value, float) and not is_number(value)):
         return NULL_TEXT
+    if isinstance(value, (list, tuple)):
+        return "; ".join(_text_value(v) for v in value) if value else NULL_TEXT
     return str(value)
 
 

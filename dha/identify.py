@@ -635,9 +635,11 @@ def _find_scale(table: pd.DataFrame, library: Any, s: dict[str, Any], lib: pd.Da
                 warnings.append(f"n-alkane C{c} named at {t:g} min is out of order; not used as marker")
         if len(keep) >= 2:
             return rx.make_scale(dict(keep), s, first), "named n-alkanes"
+    bonus = np.where(lib["ri_kind"].to_numpy() == "learnt", float(s.get("learnt_prior", 3.0)),
+                     0.0) + _group_prior(library, lib["name"].to_numpy(), s)
     found = rx.find_markers(rt, size, lib["retention_index"].to_numpy(dtype=float),
                             float(s.get("ri_tolerance", 3.0)), s,
-                            alkane_carbons=sorted(index.n_alkanes))
+                            alkane_carbons=sorted(index.n_alkanes), lib_bonus=bonus)
     if found is None:
         return None, ""
     warnings.append("n-alkane markers found automatically: " + ", ".join(

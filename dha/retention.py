@@ -490,7 +490,8 @@ def _grouped_score(group: np.ndarray, near: np.ndarray, wg: np.ndarray, wbase: n
 def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, tolerance: float,
                  settings: Mapping[str, Any] | None = None, *,
                  alkane_carbons: list[int] | None = None, n_candidates: int = 40,
-                 n_score: int = 150, n_final: int = 4) -> IndexScale | None:
+                 n_score: int = 150, n_final: int = 3,
+                 lib_bonus: np.ndarray | None = None) -> IndexScale | None:
     """Find the n-alkane markers of an unnamed run.
 
     Parameters
@@ -511,6 +512,9 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
         The largest peaks used to compare the best core chains.
     n_final : int
         Core chains compared by the full alignment.
+    lib_bonus : ndarray, optional
+        Log prior odds of each library entry (same order as ``lib_index``), used in the
+        full alignment as in :func:`align_indices`.
 
     Returns
     -------
@@ -528,11 +532,14 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
        peaks sharing their nearest library entry count once). Each marker also earns
        ``0.5 w`` (n-alkanes are tall peaks). A dynamic programme over (label, last marker)
        finds the best chains in O(labels x K^2).
-    2. The ``n_final`` best chains, each also without its first or last member, are compared
-       by the one-to-one alignment (:func:`align_indices`) of the ``n_score`` largest peaks.
-    3. Extension: the winner grows one n-alkane at a time at either end, choosing among the
-       peaks near the extrapolated time (:func:`extend_markers`) the one whose new bracket
-       scores best, while that score is positive; small late n-alkanes are found this way.
+    2. The ``n_final`` best chains, each cut to every prefix of at least three members (also
+       without its first member), are compared by the one-to-one alignment
+       (:func:`align_indices`, with ``lib_bonus`` and size weights) of the ``n_score`` largest
+       peaks indexed with them (extrapolated beyond their ends); the best is kept.
+    3. Extension: the chain grows one n-alkane at a time at either end, each time the peak
+       (among the largest in the expected spacing range) with the best full score, and is
+       then cut back to its best-scoring length (:func:`_extend_chain`); small late n-alkanes
+       are found this way. The search is a heuristic: check the markers it reports.
     """
     s = settings or {}
     rt = np.asarray(rt_min, dtype=float)
@@ -541,7 +548,11 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     if n_pk < 5:
         return None
     carbons = sorted(alkane_carbons or range(3, 14))
-    lib = np.sort(np.asarray(lib_index, dtype=float)[np.isfinite(lib_index)])
+    lib_all = np.asarray(lib_index, dtype=float)
+    fin = np.isfinite(lib_all)
+    order = np.argsort(lib_all[fin], kind="stable")
+    lib = lib_all[fin][order]
+    bonus = None if lib_bonus is None else np.asarray(lib_bonus, dtype=float)[fin][order]
     if len(lib) < 2:
         return None
     iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
@@ -612,9 +623,8 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     seen: set = set()
     for ch in chains:
         keys = sorted(ch)
-        for sub in (keys, keys[1:], keys[:-1]):
-            if len(sub) < 3:
-                continue
+        subs = [keys[i0:i1] for i0 in (0, 1) for i1 in range(i0 + 3, len(keys) + 1)]
+        for sub in subs:
             m = {c: ch[c] for c in sub}
             key = tuple(sorted(m.items()))
             if key in seen:
@@ -624,7 +634,8 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
                 scale = make_scale(m, s, first)
             except SettingsError:
                 continue
-            sc = align_indices(scale.index(t_top), lib, tolerance, weight=w_top)[1]
+            sc = align_indices(scale.index(t_top), lib, tolerance, weight=1.0 + w_top,
+                               lib_bonus=bonus)[1]
             if _DEBUG:
                 print("variant", round(sc, 2), {c: round(t, 2) for c, t in m.items()})
             if sc > best_score:
@@ -632,8 +643,16 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     if best_markers is None:
         return None
     # 3. extension
-    markers = _extend_chain(best_markers, rt, w_all, look, s, first,
-                            (carbons[0], carbons[-1]))
+    def full(m: dict[int, float]) -> float:
+        try:
+            scale = make_scale(m, s, first)
+        except SettingsError:
+            return -np.inf
+        return align_indices(scale.index(t_top), lib, tolerance, weight=1.0 + w_top,
+                             lib_bonus=bonus)[1]
+
+    markers = _extend_chain(best_markers, best_score, rt, full, s, first,
+                            (carbons[0], carbons[-1]), size=sz)
     return make_scale(markers, s, first)
 
 
@@ -653,12 +672,19 @@ def _bracket_score(t_a: float, t_b: float, n: int, rt: np.ndarray, w: np.ndarray
     return float(_grouped_score(np.zeros(len(t), dtype=int), near, ww * g, ww * base, 1)[0])
 
 
-def _extend_chain(markers: dict[int, float], rt: np.ndarray, w: np.ndarray, look: _Lookup,
+def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, full,
                   s: Mapping[str, Any], first: float, carbon_range: tuple[int, int],
-                  window: float = 0.1) -> dict[int, float]:
-    """Grow a marker chain one n-alkane at a time at either end (see :func:`find_markers`)."""
+                  size: np.ndarray | None = None, n_try: int = 12) -> dict[int, float]:
+    """Grow a marker chain one n-alkane at a time at either end (see :func:`find_markers`).
+
+    The next n-alkane is looked for among the ``n_try`` largest peaks between 0.6 x the last
+    spacing (times the spacing ratio when it shrinks) and 1.3 x it (times the ratio when it
+    grows) beyond the end marker; the one giving the best full alignment score is added when
+    it raises the score.
+    """
     m = dict(markers)
     iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
+    path = [(score, dict(m))]
     for side in (1, -1):
         while True:
             try:
@@ -671,20 +697,34 @@ def _extend_chain(markers: dict[int, float], rt: np.ndarray, w: np.ndarray, look
             nxt = edge_c + side
             if nxt not in ext or not (carbon_range[0] <= nxt <= carbon_range[1]):
                 break
-            t_pred, t_edge = ext[nxt], m[edge_c]
-            d = abs(t_pred - t_edge)
-            cand = np.flatnonzero((np.abs(rt - t_pred) <= window * d)
-                                  & ((rt > t_edge) if side > 0 else (rt < t_edge)))
-            best, best_t = 0.0, None
+            t_edge = m[edge_c]
+            keys = sorted(m)
+            if side > 0:
+                d1, d0 = m[keys[-1]] - m[keys[-2]], m[keys[-2]] - m[keys[-3]]
+            else:
+                d1, d0 = m[keys[1]] - m[keys[0]], m[keys[2]] - m[keys[1]]
+            r = d1 / d0 if d0 > 0 else 1.0
+            near, far = 0.6 * d1 * min(r, 1.0), 1.3 * d1 * max(r, 1.0)
+            if side > 0:
+                inside = (rt > t_edge + near) & (rt < t_edge + far)
+            else:
+                inside = (rt < t_edge - near) & (rt > t_edge - far)
+            cand = np.flatnonzero(inside)
+            if size is not None and len(cand) > n_try:
+                cand = cand[np.argsort(-size[cand], kind="stable")[:n_try]]
+            best_t, best_sc = None, -np.inf
             for p in cand:
-                t_a, t_b = (t_edge, rt[p]) if side > 0 else (rt[p], t_edge)
-                n = edge_c if side > 0 else nxt
-                sc = _bracket_score(t_a, t_b, n, rt, w, look, iso, tm) + 0.5 * w[p]
-                if sc > best:
-                    best, best_t = sc, float(rt[p])
+                sc = full({**m, nxt: float(rt[p])})
+                if sc > best_sc:
+                    best_sc, best_t = sc, float(rt[p])
             if best_t is None:
                 break
             m[nxt] = best_t
+            path.append((best_sc, dict(m)))
+        # keep the best point along the way (one step may lower the score before the
+        # next raises it: the extrapolation changes with every marker)
+        score, m = max(path, key=lambda x: x[0])
+        path = [(score, dict(m))]
     return m
 
 

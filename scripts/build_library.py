@@ -18,7 +18,7 @@ Regenerates, deterministically (sorted rows, 6 significant digits):
 Inputs: ``scripts/library_inputs/components_curated.csv`` (name, CAS, SMILES, synonyms: the
 hand-checked list), the enumeration in :func:`enumerate_components` (alkane skeletons, alkenes,
 alkyl-naphthenes, alkylbenzenes, resolved against the ``chemicals`` identifier database),
-``/work/shared/data/octane/pure_components.csv`` (neat RON/MON) and the data tables bundled with
+``shared/data/octane/pure_components.csv`` (neat RON/MON) and the data tables bundled with
 ``chemicals`` / ``thermo`` (each value's method is recorded in its source key).
 
 Rules that matter (see the module constants for the numbers):
@@ -66,7 +66,7 @@ log = logging.getLogger("build_library")
 ROOT = Path(__file__).resolve().parents[1]
 INPUTS = ROOT / "scripts" / "library_inputs"
 OUT = ROOT / "component_library"
-OCTANE_CSV = Path("/work/shared/data/octane/pure_components.csv")
+OCTANE_CSV = Path(__file__).resolve().parents[2] / "shared" / "data" / "octane" / "pure_components.csv"
 
 CHEM_V = chemicals.__version__
 THERMO_V = thermo.__version__
@@ -302,15 +302,15 @@ def static_refs() -> None:
         licence="MIT")
     ref("GNN2020_COMP",
         cite="compilation behind Schweidtmann et al., Graph neural networks for prediction of fuel ignition "
-             "quality, Energy Fuels 34 (2020); via /work/shared/data/octane/pure_components.csv",
+             "quality, Energy Fuels 34 (2020); via shared/data/octane/pure_components.csv",
         doi="10.1021/acs.energyfuels.0c01533", licence="EPL-2.0 (keep attribution)")
     ref("KUZ2022_MON",
         cite="Kuzhagaliyeva et al., Artificial intelligence-driven design of fuel mixtures, Commun. Chem. 5, "
-             "111 (2022), measured MON as published in CheMixHub; via /work/shared/data/octane/pure_components.csv",
+             "111 (2022), measured MON as published in CheMixHub; via shared/data/octane/pure_components.csv",
         doi="10.1038/s42004-022-00722-3", licence="CC BY 4.0")
     ref("ECNET_MASTER",
         cite="ECNet fuel property database (UMass Lowell ECRL), databases/properties_master.csv; via "
-             "/work/shared/data/octane/pure_components.csv (TEL-flagged ratings not used)",
+             "shared/data/octane/pure_components.csv (TEL-flagged ratings not used)",
         url="https://github.com/ecrl/ecnet", licence="MIT")
     ref("common-practice",
         cite="common practice, no source", url="-", licence="-")
@@ -1241,7 +1241,7 @@ def write_report(comp, vp, counts, logs) -> None:
           "ordering, a lab must learn its own indices from a reference run before trusting matches."]
     (INPUTS / "BUILD_REPORT.md").write_text("\n".join(L) + "\n", encoding="utf-8")
     O = ["# Octane choices", "",
-         "Source: /work/shared/data/octane/pure_components.csv. Rule: RON from GNN2020_COMP, else ECNET_MASTER; "
+         "Source: shared/data/octane/pure_components.csv. Rule: RON from GNN2020_COMP, else ECNET_MASTER; "
          "MON from KUZ2022_MON, else GNN2020_COMP, else ECNET_MASTER. An ECNET value flagged in that file as "
          "a TEL rating (isooctane + x mL TEL stored as 100 + x) is never used. No estimates: blank when no "
          "measured value. If one source lists a compound twice, its first row in the file is used. Rows below: every component whose sources differ by 1 octane number or more.", "",

@@ -7,6 +7,7 @@ element mass fractions, molar masses).
 from __future__ import annotations
 
 import dataclasses
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -16,7 +17,9 @@ from dha.errors import LibraryError
 from dha.library import load_library
 from dha.properties import bulk
 
-DENSITY_DATA = "/work/shared/data/density/binary_mixtures_density_hmix.csv"
+# ../shared/ beside the checkout (CI lays a copy there)
+DENSITY_DATA = (Path(__file__).resolve().parents[2] / "shared" / "data" / "density"
+                / "binary_mixtures_density_hmix.csv")
 
 
 @pytest.fixture(scope="module")

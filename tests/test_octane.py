@@ -15,7 +15,7 @@ import pytest
 from click.testing import CliRunner
 
 from dha.cli import cli
-from dha.errors import CalibrationError
+from dha.errors import CalibrationError, SettingsError
 from dha.library import load_library
 from dha.properties import MODELS
 from dha.properties import octane as oc
@@ -62,9 +62,12 @@ def test_primary_reference_fuels_define_the_scale(library, model, iso_pct):
 def test_default_model_beats_linear_on_held_out_mon(data):
     # KUZ2022_MON + COOPTIMA MON, leave-one-group-out (groups = family x oxygenate added),
     # computed here from the split, nothing read from the parameter file.
-    # The issue asked for a held-out RMSE <= 1.5; the model reaches about 2.7 on these data
-    # (see `dha octane validate`), so this checks what it does reach and that it is well
-    # below both linear rules. Rows on estimated neat values are excluded (as in the fit).
+    # The issue asked for a held-out RMSE <= 1.5: NOT met. The model reaches 2.44 on these data
+    # (see `dha octane validate`; 2.73 before PRF+ was read by mole and the aromatic*paraffin
+    # term was added); even a 50-parameter variant only *fits* them to 1.5 (conflicting
+    # sources: octane_fit.VOLUME_BASIS_FAMILIES). So this checks what the model does reach
+    # (2.6 = 2.44 + margin for library updates) and that it is well below both linear rules.
+    # Rows on estimated neat values are excluded (as in the fit).
     def held_rmse(model):
         cv = of.cross_validate(data, model, "mon")
         cv = cv[~cv["estimated_neat"]]
@@ -72,7 +75,7 @@ def test_default_model_beats_linear_on_held_out_mon(data):
 
     inter, lin_vol, lin_mole = (held_rmse(m) for m in ("interaction", "linear_volume",
                                                         "linear_mole"))
-    assert inter <= 3.2
+    assert inter <= 2.6
     assert inter < 0.5 * lin_vol
     assert inter < lin_mole - 1.0
 
@@ -240,3 +243,41 @@ def test_oxygenates_are_classed_explicitly(library, name, cls):
     # and ethanol are the alcohols found to blend linearly by mole (Anderson et al. 2010).
     row = library.components.loc[name]
     assert oc.blending_class(row["group"], row["smiles"], row.get("subgroup")) == cls
+
+
+def test_prf_plus_series_reads_by_mole(data):
+    # KUZ2022_MON, raw fractions: the MON gain of 0.10 ethanol over the PRF base falls smoothly
+    # with the base's octane number when PRF+ is read on the same (mole) basis as the TPRF and
+    # PRF ethanol series: PRF+10 (PRF40) 53.0, TPRF 4+9 (PRF 55.6) 66.8, TPRF 4+14 (PRF 66.7)
+    # 76.7, PRF100-E10 99.9. The loader must read PRF+ by mole (octane_fit docstring).
+    info = data.info
+    assert (info.loc[info["family"] == "PRF+", "basis_read_as"] == "mol").all()
+    mol = data.mol_frac
+    iso, hep, eth = "540-84-1", "142-82-5", "64-17-5"
+    gains = []
+    for label in ("PRF+10", "TPRF 4 + 9", "TPRF 4 + 14", "PRF100-E10"):
+        mid = info.index[info["label"].str.strip() == label][0]
+        x = mol.loc[mid]
+        assert x[eth] == pytest.approx(0.10, abs=1e-6)
+        base_on = 100.0 * x[iso] / (x[iso] + x[hep])      # PRF number of the base
+        gains.append((base_on, info.loc[mid, "mon"] - base_on))
+    gains.sort()
+    assert [g for _, g in gains] == sorted((g for _, g in gains), reverse=True)
+
+
+def test_aromatic_paraffin_term_and_unknown_terms(library):
+    # Toluene + isooctane blend below their mole average (KUZ2022_MON TPRF 66: toluene 0.5 +
+    # isooctane 0.5 by mole, MON 99.3; linear by mole 102.0): the fitted pair term is negative
+    # and the model is within 1.5 of the measured value. Unknown term names are refused.
+    p = oc.model_params("interaction", "mon")
+    assert p["k"]["aromatic*paraffin"] < 0
+    names = ["toluene", "2,2,4-trimethylpentane"]
+    vm = library.components.loc[names, "molar_mass_g_mol"].astype(float) / \
+        library.components.loc[names, "density_15c_kg_m3"].astype(float)
+    vol = 0.5 * vm.to_numpy() / (0.5 * vm.to_numpy()).sum()
+    comp = _composition(dict(zip(names, 100.0 * vol)))
+    res = oc.compute(comp, library, _settings("interaction"))
+    assert abs(res.values["mon"] - 99.3) <= 1.5
+    with pytest.raises(SettingsError, match="unknown interaction term"):
+        oc.blend(np.array([0.5, 0.5]), np.array([100.0, 0.0]), np.array([165.0, 147.0]),
+                 ["paraffin", "paraffin"], "interaction", {"k": {"paraffin*paraffin": 5.0}})

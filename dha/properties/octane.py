@@ -71,6 +71,14 @@ INTERACTION_PAIRS = tuple(("deficit", c) for c in CLASSES)
 #: Oxygenate-base terms (Anderson and Wallington 2020 form Z x (1 - x)): + k * Z_c (1 - Z_c).
 OXYGENATE_PAIRS = tuple((c, "rest") for c in OXYGENATE_CLASSES)
 
+#: Class-pair terms (Twu and Coon style, on the class mole fractions): + k_ab * Z_a * Z_b,
+#: parameter name "a*b". Only pairs of two *different* classes are allowed, so paraffins among
+#: themselves stay linear by volume and the PRF scale stays exact. The fitted model uses
+#: "aromatic*paraffin": toluene blends below its mole share in isooctane (KUZ2022_MON: toluene
+#: 50 + isooctane 50 MON 99.3, 74 + 26 MON 100.8, against 102 and 103 linear by mole) and the
+#: deficit term alone cannot give a negative interaction where the base has no deficit.
+CLASS_PAIRS = tuple((a, b) for i, a in enumerate(CLASSES) for b in CLASSES[i + 1:])
+
 #: Volume share [%] resting on estimated neat values above which a warning is given
 #: (common practice, no source).
 ESTIMATED_SHARE_WARN_PCT = 10.0
@@ -468,13 +476,15 @@ def blend(vol_frac: np.ndarray, neat_on: np.ndarray, molar_volume_cm3_mol: np.nd
     :math:`Z_c = \sum_{i\in c} z_i`,
 
     .. math:: ON = \sum_i z_i ON_i + \sum_c k_c\,(D - D_c)\,Z_c
-              + \sum_{o} k_o\,Z_o (1 - Z_o)
+              + \sum_{o} k_o\,Z_o (1 - Z_o) + \sum_{a < b} k_{ab} Z_a Z_b
 
     over the oxygenate classes o (light_alcohol = methanol and ethanol, alcohol = C3+,
     ether). The first sum is a suppression term: a low-octane hydrocarbon (n-heptane) blends higher
     in the presence of another class (lump weights and pairwise terms in the spirit of Ghosh,
     Hickey and Jaffe 2006 and Twu and Coon); the last is the oxygenate-base term of Anderson
-    and Wallington (Energy Fuels 2020). ``linear_volume`` is :math:`\sum \phi_i ON_i`.
+    and Wallington (Energy Fuels 2020); the pair terms :math:`k_{ab}` join two different classes
+    (Twu and Coon's pairwise form on class mole fractions; the fit uses aromatic-paraffin
+    only). ``linear_volume`` is :math:`\sum \phi_i ON_i`.
     Paraffins only blend among themselves by volume in every model (no paraffin-paraffin
     term), so a primary reference fuel gives exactly its volume % isooctane (ASTM D2699/D2700).
 
@@ -535,7 +545,25 @@ def blend(vol_frac: np.ndarray, neat_on: np.ndarray, molar_volume_cm3_mol: np.nd
         if kc and cm[c].any():
             zc = z @ cm[c]
             out = out + kc * zc * (1.0 - zc)
+    for a, b in CLASS_PAIRS:
+        kab = float(k.get(f"{a}*{b}", k.get(f"{b}*{a}", 0.0)))
+        if kab and cm[a].any() and cm[b].any():
+            out = out + kab * (z @ cm[a]) * (z @ cm[b])
+    unknown = [n for n in k if not _known_k_name(n)]
+    if unknown:
+        raise SettingsError(f"octane parameters: unknown interaction term(s) {unknown}; "
+                            "refit with scripts/fit_octane.py")
     return float(out[0]) if single else out
+
+
+def _known_k_name(name: str) -> bool:
+    """Whether ``name`` is an interaction parameter :func:`blend` understands."""
+    a, _, b = name.partition("*")
+    if a == "deficit":
+        return b in CLASSES
+    if b == "rest":
+        return a in OXYGENATE_CLASSES
+    return a in CLASSES and b in CLASSES and a != b
 
 
 # --------------------------------------------------------------------------------------------

@@ -390,8 +390,16 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     -----
     Order of evidence: CAS number, then name (:func:`match_name`); then retention index
     (:func:`dha.retention.align_indices` within ``identify.ri_tolerance``) for the peaks left,
-    anchored by the named ones; unknown peaks get ``ceil(I / 100)`` as carbon number (a peak
-    between n-C6 and n-C7 is a C7 unknown; common practice, no source).
+    anchored by the named ones and by the n-alkane markers. The alignment maximises the
+    log-likelihood ratio of the matches (Gaussian index errors, sd = tolerance / 2) plus log
+    prior odds per library entry: ``identify.learnt_prior`` for indices the lab learnt, and
+    the group prior (typical petrol group shares spread over the library's entries of each
+    group, :data:`TYPICAL_GROUP_MASS_PCT`, scaled by ``identify.group_prior``); each peak's
+    term is weighted by ``1 + ln(1 + area / median area)`` (``identify.size_weight``).
+    Markers: ``identify.markers``, else named n-alkanes, else the automatic search
+    (:func:`dha.retention.find_markers`, a heuristic: its markers are listed in a warning).
+    Unknown peaks get ``ceil(I / 100)`` as carbon number (a peak between n-C6 and n-C7 is a
+    C7 unknown; common practice, no source).
     """
     from dha import retention as rx
 

@@ -387,8 +387,8 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
     with ``|d_pc| <= tol``, ``d_pc = I_p - I_c``. With Gaussian index errors of spread
     ``sigma`` and unknown peaks spread evenly, the first term is the log-likelihood ratio
     "peak is c" against "peak is unknown", with the window edge as the point where both are
-    equally likely; ``b_c`` (``lib_bonus``) is the log prior odds of entry c. The dynamic programme is the longest-common-subsequence
-    recurrence ``G[p, c] = max(G[p-1, c], G[p, c-1], G[p-1, c-1] + g_pc)``, computed one peak
+    equally likely; ``b_c`` (``lib_bonus``) is the log prior odds of entry c. The dynamic
+    programme is the longest-common-subsequence recurrence ``G[p, c] = max(G[p-1, c], G[p, c-1], G[p-1, c-1] + g_pc)``, computed one peak
     row at a time with a running maximum; O(P C) time and memory.
 
     >>> a, s = align_indices(np.array([500.2, 601.0, 650.0]), np.array([500.0, 600.0, 700.0]), 3.0)
@@ -490,8 +490,8 @@ def _grouped_score(group: np.ndarray, near: np.ndarray, wg: np.ndarray, wbase: n
 def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, tolerance: float,
                  settings: Mapping[str, Any] | None = None, *,
                  alkane_carbons: list[int] | None = None, n_candidates: int = 40,
-                 n_score: int = 150, n_final: int = 3,
-                 lib_bonus: np.ndarray | None = None) -> IndexScale | None:
+                 n_score: int = 100, n_final: int = 3,
+                 lib_bonus: np.ndarray | None = None, n_grow: int = 5) -> IndexScale | None:
     """Find the n-alkane markers of an unnamed run.
 
     Parameters
@@ -620,6 +620,7 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     first = float(np.nanmin(rt))
     t_top, w_top = rt[top], w_all[top]
     best_score, best_markers = -np.inf, None
+    scored: list[tuple[float, dict[int, float]]] = []
     seen: set = set()
     for ch in chains:
         keys = sorted(ch)
@@ -638,8 +639,33 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
                                lib_bonus=bonus)[1]
             if _DEBUG:
                 print("variant", round(sc, 2), {c: round(t, 2) for c, t in m.items()})
+            scored.append((sc, m))
             if sc > best_score:
                 best_score, best_markers = sc, m
+    must_grow: list[tuple[float, dict[int, float]]] = []
+    for labelled in _geometric_seeds(rt, sz, s, tm, carbons):
+        here: list[tuple[float, dict[int, float]]] = []
+        for m in labelled:
+            key = tuple(sorted(m.items()))
+            if key in seen:
+                here.extend((sc, x) for sc, x in scored if x == m)
+                continue
+            seen.add(key)
+            try:
+                scale = make_scale(m, s, first)
+            except SettingsError:
+                continue
+            sc = align_indices(scale.index(t_top), lib, tolerance, weight=1.0 + w_top,
+                               lib_bonus=bonus)[1]
+            scored.append((sc, m))
+            here.append((sc, m))
+            if sc > best_score:
+                best_score, best_markers = sc, m
+        # three markers say little about their labels: grow the best three labellings of
+        # the first seed, the best one of the next two
+        here.sort(key=lambda x: x[0], reverse=True)
+        if len(must_grow) < 7:
+            must_grow.extend(here[: 3 if not must_grow else 1])
     if best_markers is None:
         return None
     # 3. extension
@@ -651,9 +677,53 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
         return align_indices(scale.index(t_top), lib, tolerance, weight=1.0 + w_top,
                              lib_bonus=bonus)[1]
 
-    markers = _extend_chain(best_markers, best_score, rt, full, s, first,
-                            (carbons[0], carbons[-1]), size=sz)
+    final_score, markers = -np.inf, best_markers
+    scored.sort(key=lambda x: x[0], reverse=True)
+    for sc, m in must_grow + scored[:n_grow]:
+        grown = _extend_chain(m, sc, rt, full, s, first, (carbons[0], carbons[-1]), size=sz)
+        g_sc = full(grown)
+        if g_sc > final_score:
+            final_score, markers = g_sc, grown
     return make_scale(markers, s, first)
+
+
+def _geometric_seeds(rt: np.ndarray, size: np.ndarray, s: Mapping[str, Any], tm: float,
+                     carbons: list[int], n_peaks: int = 40, n_seeds: int = 12,
+                     max_dev: float = 0.05) -> list[dict[int, float]]:
+    """Triples of tall peaks whose spacing fits three consecutive n-alkanes, labelled.
+
+    Inside an isothermal hold (``identify.isothermal_until_min``) adjusted times of
+    consecutive n-alkanes form a geometric series (Kovats), so a triple a < b < c qualifies
+    when ``|ln(t'_b / t'_a) - ln(t'_c / t'_b)| <= max_dev``; after the hold their spacings are
+    nearly equal, ``|ln((t_c - t_b) / (t_b - t_a))| <= 3 max_dev``. The ``n_seeds`` triples of
+    the largest summed log size each come with every label c, c+1, c+2 of the carbon range.
+    """
+    iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
+    idx = np.sort(np.argsort(-size, kind="stable")[: min(n_peaks, len(rt))])
+    t = rt[idx]
+    lw = np.log(np.maximum(size[idx], 1e-300))
+    k = len(idx)
+    found = []
+    for a in range(k):
+        for b in range(a + 1, k):
+            for c in range(b + 1, k):
+                ta, tb, tc = t[a], t[b], t[c]
+                if iso > 0 and tc <= iso and ta > tm > 0:
+                    dev = abs(np.log((tb - tm) / (ta - tm)) - np.log((tc - tm) / (tb - tm)))
+                    ok = dev <= max_dev and (tb - tm) / (ta - tm) > 1.3
+                elif iso <= 0 or ta >= iso:
+                    dev = abs(np.log((tc - tb) / (tb - ta)))
+                    ok = dev <= 3 * max_dev
+                else:
+                    ok = False
+                if ok:
+                    in_hold = iso > 0 and tc <= iso
+                    found.append((in_hold, lw[a] + lw[b] + lw[c], float(ta), float(tb), float(tc)))
+    found.sort(reverse=True)                   # triples inside the hold first (rarer by chance)
+    seeds = []
+    for in_hold, _, ta, tb, tc in found[:n_seeds]:
+        seeds.append([{c0: ta, c0 + 1: tb, c0 + 2: tc} for c0 in carbons[:-2]])
+    return seeds
 
 
 def _bracket_score(t_a: float, t_b: float, n: int, rt: np.ndarray, w: np.ndarray,
@@ -674,12 +744,13 @@ def _bracket_score(t_a: float, t_b: float, n: int, rt: np.ndarray, w: np.ndarray
 
 def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, full,
                   s: Mapping[str, Any], first: float, carbon_range: tuple[int, int],
-                  size: np.ndarray | None = None, n_try: int = 12) -> dict[int, float]:
+                  size: np.ndarray | None = None, n_try: int = 8) -> dict[int, float]:
     """Grow a marker chain one n-alkane at a time at either end (see :func:`find_markers`).
 
-    The next n-alkane is looked for among the ``n_try`` largest peaks between 0.6 x the last
-    spacing (times the spacing ratio when it shrinks) and 1.3 x it (times the ratio when it
-    grows) beyond the end marker; the one giving the best full alignment score is added when
+    The next n-alkane is looked for between 0.6 x the last spacing (times the spacing ratio
+    when it shrinks) and 1.3 x it (times the ratio when it grows) beyond the end marker, among
+    the ``n_try`` peaks nearest its extrapolated time (:func:`extend_markers`) and the
+    ``n_try / 2`` largest; the one giving the best full alignment score is added when
     it raises the score.
     """
     m = dict(markers)
@@ -710,8 +781,13 @@ def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, full,
             else:
                 inside = (rt < t_edge - near) & (rt > t_edge - far)
             cand = np.flatnonzero(inside)
-            if size is not None and len(cand) > n_try:
-                cand = cand[np.argsort(-size[cand], kind="stable")[:n_try]]
+            if len(cand) > n_try:
+                # the peaks nearest the extrapolated time, and the largest in the range
+                ext_t = extend_markers(m, iso, tm, 1).get(nxt, t_edge + side * d1)
+                near_c = cand[np.argsort(np.abs(rt[cand] - ext_t), kind="stable")[:n_try]]
+                big_c = cand[np.argsort(-size[cand], kind="stable")[:n_try // 2]] \
+                    if size is not None else cand[:0]
+                cand = np.union1d(near_c, big_c)
             best_t, best_sc = None, -np.inf
             for p in cand:
                 sc = full({**m, nxt: float(rt[p])})
@@ -825,8 +901,12 @@ def write_index_overlay(table: pd.DataFrame, out_dir: str | Path, *, runs: Seque
         out / "components.csv", index=False, float_format="%.2f")
     table.to_csv(out / "learnt_indices.csv", index=False)
     today = datetime.date.today()
+    cite = ("Retention indices learnt by dha index learn from the named reference run(s) "
+            + ", ".join(runs or [source.split(":", 1)[1]])
+            + f" on the lab column ({len(table)} components; mean over runs, "
+            "see learnt_indices.csv for n and sd)")
     ref = (f"[{json.dumps(source)}]\n"
-           f"cite = {json.dumps('Retention indices learnt by dha index learn from the named reference run(s) ' + ', '.join(runs or [source.split(':', 1)[1]]) + f' on the lab column ({len(table)} components; mean over runs, see learnt_indices.csv for n and sd)')}\n"
+           f"cite = {json.dumps(cite)}\n"
            f"package = \"dha\"\nversion = {json.dumps(__version__)}\n"
            f"method = \"dha index learn (van den Dool-Kratz / Kovats index from the run's n-alkanes)\"\n"
            f"licence = \"lab data; the lab's own terms\"\n")

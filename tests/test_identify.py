@@ -7,16 +7,13 @@ import pytest
 
 from dha.errors import InputError
 from dha.identify import cas_key, identify, match_name, name_key
-from dha.library import load_library, read_library, SHIPPED_FOLDER
+from dha.library import load_library
 from dha.settings import default_settings
 
 
 @pytest.fixture(scope="module")
 def lib():
-    try:
-        return load_library()
-    except Exception:  # library still being built: read it unchecked (TEMPORARY)
-        return read_library([SHIPPED_FOLDER])
+    return load_library()
 
 
 def _peaks(rows):

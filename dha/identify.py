@@ -529,7 +529,8 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         if len(far):
             log.info("%d retention-index matches lie near the edge of the window", len(far))
 
-    table = _apply_coelution(table, library, warnings)
+    table = _apply_coelution(table, library, warnings,
+                             split_named=bool(s.get("split_named_coelutions", False)))
     unid = table["match"] == "unidentified"
     if unid.any():
         share = 100.0 * _peak_size(table)[unid.to_numpy()].sum() / max(_peak_size(table).sum(), 1e-300)
@@ -655,8 +656,13 @@ def _find_scale(table: pd.DataFrame, library: Any, s: dict[str, Any], lib: pd.Da
     return found, "automatic search"
 
 
-def _apply_coelution(table: pd.DataFrame, library: Any, warnings: list[str]) -> pd.DataFrame:
-    """Note known co-elution pairs; split a peak whose partner has no peak of its own."""
+def _apply_coelution(table: pd.DataFrame, library: Any, warnings: list[str],
+                     split_named: bool = False) -> pd.DataFrame:
+    """Note known co-elution pairs; split a peak whose partner has no peak of its own.
+
+    A peak the export named is split only when ``split_named`` ([identify]
+    split_named_coelutions) is true; otherwise the co-elution is noted and warned about.
+    """
     co = getattr(library, "coelution", None)
     if co is None or len(co) == 0:
         return table
@@ -678,6 +684,13 @@ def _apply_coelution(table: pd.DataFrame, library: Any, warnings: list[str]) -> 
         i = pos[hit]
         if table.at[i, "coelution"] is not None:
             continue                       # one split per peak
+        if table.at[i, "match"] in ("name", "cas") and not split_named:
+            # The export named this peak: the CDS (or the chemist) decided; report, don't split.
+            table.at[i, "coelution"] = (f"known co-elution with {other}; peak named {hit} in the "
+                                        "export, not split ([identify] split_named_coelutions)")
+            warnings.append(f"peak row {table.at[i, 'row']} ({table.at[i, 'rt_min']:.3f} min): "
+                            f"named {hit}, which co-elutes with {other} on this phase; not split")
+            continue
         share_hit = share if hit == a else 1.0 - share
         row = table.loc[i].copy()
         for col in ("area", "area_pct", "cds_mass_pct", "height"):

@@ -1045,10 +1045,14 @@ def retention_indices(comp: pd.DataFrame) -> pd.Series:
 
 COELUTION = [
     # name_a, name_b, share_a, source, note
-    ("toluene", "2,3,3-trimethylpentane", 0.5, "common-practice",
-     "classic pair on 100 % dimethylpolysiloxane (DOMAIN.md §3); split evenly unless the lab overrides"),
-    ("1,3-dimethylbenzene", "1,4-dimethylbenzene", 0.5, "from-memory",
-     "m- and p-xylene are not resolved on 100 % dimethylpolysiloxane (from memory); even split"),
+    ("toluene", "2,3,3-trimethylpentane", 0.95, "from-memory",
+     "classic pair on 100 % dimethylpolysiloxane (DOMAIN.md §3); in petrol toluene (several % m/m) "
+     "far outweighs 2,3,3-trimethylpentane (well under 1 %), so a merged peak is split 0.95/0.05 "
+     "(ratio from memory); the lab overrides it with its own"),
+    ("1,3-dimethylbenzene", "1,4-dimethylbenzene", 0.70, "from-memory",
+     "m- and p-xylene are not resolved on 100 % dimethylpolysiloxane (from memory); reformer "
+     "xylenes lie near the equilibrium distribution, about 50-55 % meta and 20-25 % para "
+     "(from memory), so a merged peak is split 0.70/0.30; the lab overrides it with its own"),
 ]
 
 
@@ -1291,7 +1295,7 @@ def main(argv=None) -> int:
             raise SystemExit(f"source key {k} not in references")
     write_references(OUT / "references.toml")
     (OUT / "library.toml").write_text(
-        'name = "dha shipped library"\nversion = "2026.12.0"\n'
+        'name = "dha shipped library"\nversion = "2026.12.1"\n'
         'description = "Petrol components for detailed hydrocarbon analysis: identity, group, physical '
         'properties, neat octane numbers, FID effective carbon numbers, estimated retention indices on 100 % '
         'dimethylpolysiloxane, vapour-pressure correlations and original-UNIFAC groups. Built by '

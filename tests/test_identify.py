@@ -119,7 +119,14 @@ def test_coelution_split_when_partner_has_no_peak(lib):
         pytest.fail("library lacks the toluene co-elution pair")
     r = pair.iloc[0]
     peaks = _peaks([(20.0, 1000.0, "toluene")])
-    out = identify(peaks, lib, default_settings())
+    # a peak the export named is only reported by default (the export's name stands) ...
+    kept = identify(peaks, lib, default_settings())
+    assert list(kept["component"]) == ["toluene"] and kept["area"].iloc[0] == 1000.0
+    assert "not split" in kept["coelution"].iloc[0]
+    # ... and split by the library's share when the lab asks for it
+    settings = default_settings()
+    settings["identify"]["split_named_coelutions"] = True
+    out = identify(peaks, lib, settings)
     assert len(out) == 2 and set(out["row"]) == {1}
     share_tol = r["share_a"] if r["name_a"] == "toluene" else 1 - r["share_a"]
     got = dict(zip(out["component"], out["area"]))

@@ -339,3 +339,12 @@ def test_vapour_pressure_at_other_temperatures(lib):
     for t in (273.15, 293.15, 333.15):
         ref = CP.PropsSI("P", "T", t, "Q", 0, "n-Hexane") / 1e3
         assert vol.vapour_pressure_kpa(comp, lib, t, 4.0) == pytest.approx(ref, rel=0.005)
+
+
+def test_dvpe_outside_the_standard_range_is_warned(lib):
+    # EN 13016-1 (2018+) covers DVPE 15.5-106.0 kPa (shared/data/facts.md fact 1): pure
+    # n-decane (CoolProp/handbook vapour pressure about 0.3 kPa at 37.8 degC) lies far below.
+    comp = composition(lib, {"n-decane": 100.0})
+    res = vol.compute(comp, lib, settings())
+    assert res.values["dvpe_kpa"] < 15.5
+    assert any("outside the range of the standard test" in w for w in res.warnings)

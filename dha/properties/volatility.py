@@ -435,6 +435,10 @@ def vapour_pressure_kpa(composition: pd.DataFrame, library, t_k: float = T_DVPE_
     return total_vapour_pressure_kpa(mix, t_k, vl_ratio)
 
 
+#: DVPE range of EN 13016-1 (2018 and later editions; shared/data/facts.md fact 1) [kPa]
+DVPE_RANGE_KPA = (15.5, 106.0)
+
+
 def dvpe_kpa_from_total(p_tot_kpa: float) -> float:
     """DVPE [kPa] from the total pressure at 37.8 °C and V/L = 4 (ASTM D5191).
 
@@ -718,6 +722,11 @@ def compute(composition: pd.DataFrame, library, settings: dict) -> PropertyResul
     u_p = np.hypot(U_PTOT_REL * flash.p_kpa, _unidentified_psat_spread_kpa(composition, library))
     result.values["dvpe_kpa"] = dvpe
     result.uncertainty["dvpe_kpa"] = float(0.965 * u_p)
+    if not DVPE_RANGE_KPA[0] <= dvpe <= DVPE_RANGE_KPA[1]:
+        result.warnings.append(
+            f"volatility: calculated DVPE {dvpe:.1f} kPa lies outside the range of the standard "
+            f"test ({DVPE_RANGE_KPA[0]:g}-{DVPE_RANGE_KPA[1]:g} kPa, EN 13016-1); check the "
+            "identification and the composition before using it")
 
     curve = distillation_curve_c(mix, kind, P_ATM_KPA, step)
     pct = curve["evaporated_vol_pct"].to_numpy()

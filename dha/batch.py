@@ -18,6 +18,7 @@ from concurrent.futures import ProcessPoolExecutor, as_completed
 from pathlib import Path
 from typing import Any, Callable, Iterable
 
+import numpy as np
 import pandas as pd
 
 from dha.errors import DhaError, InputError
@@ -218,7 +219,16 @@ def write_trends(table: pd.DataFrame, out_dir: Path, profile: dict | None,
         if key not in ok or ok[key].isna().all():
             continue
         fig, ax = plt.subplots(figsize=(8, 3.6))
-        ax.plot(range(len(ok)), ok[key].astype(float), marker="o", lw=1.2, color="#1f5f8b")
+        values = ok[key].astype(float).to_numpy()
+        ax.plot(range(len(ok)), values, marker="o", lw=1.2, color="#1f5f8b")
+        outside = np.zeros(len(values), dtype=bool)
+        for lim in (profile or {}).get("limits", []):
+            if lim["quantity"] == key:
+                outside |= (values < lim["value"]) if lim["kind"] == "min" else (values > lim["value"])
+        if outside.any():
+            ax.plot(np.flatnonzero(outside), values[outside], ls="none", marker="o", ms=8,
+                    mfc="none", mec="#b03a2e", mew=1.6, label="beyond a limit")
+            ax.legend(loc="best", fontsize=7, frameon=False)
         for lim in (profile or {}).get("limits", []):
             if lim["quantity"] == key:
                 ax.axhline(lim["value"], color="#b03a2e", ls="--", lw=1)

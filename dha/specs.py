@@ -37,7 +37,7 @@ PROFILE_DIR = Path(__file__).with_name("spec_profiles")
 #: Checkable quantities and their units.
 QUANTITIES: dict[str, str] = {
     "ron": "-", "mon": "-", "aki": "-", "sensitivity": "-",
-    "density_kg_m3": "kg/m3", "dvpe_kpa": "kPa",
+    "density_kg_m3": "kg/m3", "dvpe_kpa": "kPa", "rvp_psi": "psi", "vli": "-",
     "e70_vol_pct": "% v/v", "e100_vol_pct": "% v/v", "e150_vol_pct": "% v/v",
     "t10_c": "degC", "t50_c": "degC", "t90_c": "degC", "fbp_c": "degC",
     "net_heat_mj_kg": "MJ/kg",

@@ -754,6 +754,14 @@ def compute(composition: pd.DataFrame, library, settings: dict) -> PropertyResul
         result.uncertainty[key] = 0.5 * (above - below)
 
     e70 = points["e70_vol_pct"]
+    # extra property keys (beyond CONTRACT.md's), shown in the reports and checkable in specs
+    result.values["rvp_psi"] = rvp_psi(dvpe)
+    result.uncertainty["rvp_psi"] = rvp_psi(result.uncertainty["dvpe_kpa"])
+    if e70 is not None and np.isfinite(e70):
+        result.values["vli"] = vapour_lock_index(dvpe, e70)
+        u_e70 = result.uncertainty.get("e70_vol_pct")
+        result.uncertainty["vli"] = (float(np.hypot(10.0 * result.uncertainty["dvpe_kpa"], 7.0 * u_e70))
+                                     if u_e70 is not None else None)
     result.details.update({
         "model": {"activity": activity_used, "psat": "library correlations",
                   "dvpe": "flash at 37.8 °C, V/L = 4, DVPE = 0.965·P_tot − 3.78 kPa (ASTM D5191)",

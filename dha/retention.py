@@ -21,6 +21,7 @@ three consecutive isothermal n-alkanes, whose adjusted times form a geometric se
 from __future__ import annotations
 
 import logging
+import math
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Mapping, Sequence
@@ -31,7 +32,7 @@ import pandas as pd
 from dha.errors import SettingsError
 
 log = logging.getLogger("dha.retention")
-_DEBUG = False
+_TRACE = False
 
 
 @dataclass(frozen=True)
@@ -159,7 +160,9 @@ def extend_markers(markers: Mapping[int, float], isothermal_until_min: float = 0
     ``r = (t_N - t_(N-1)) / (t_(N-1) - t_(N-2))`` is kept (capped at 1):
     ``t_(N+1) = t_N + r (t_N - t_(N-1))``. Before the first marker inside an isothermal hold the
     adjusted times form a geometric series, ``t'_(n-1) = t'_n^2 / t'_(n+1)``; in a programmed
-    start the first spacing ratio is used the same way. Extrapolated times must keep moving
+    start the first spacing ratio is used the same way. When the last four markers show a
+    shrinking spacing whose ratio rises (a settled programme), ``ln r`` keeps its last rise per
+    step (at most 0.05), capped at r = 1. Extrapolated times must keep moving
     away from the markers; those that do not are dropped.
 
     >>> ext = extend_markers({6: 10.0, 7: 20.0, 8: 29.0, 9: 37.0}, n_extra=1)
@@ -175,8 +178,14 @@ def extend_markers(markers: Mapping[int, float], isothermal_until_min: float = 0
     if c[-1] - c[-3] == 2:
         d1, d2 = t[-2] - t[-3], t[-1] - t[-2]
         r = min(d2 / d1, 1.0) if d1 > 0 else 1.0
+        # a shrinking spacing under a programme shrinks ever less (the ratio rises towards 1):
+        # keep the last rise of ln r when four markers show it (at most 0.05 per step)
+        dq = 0.0
+        if len(c) >= 4 and c[-1] - c[-4] == 3 and r < 1.0 and t[-3] - t[-4] > 0:
+            dq = float(np.clip(np.log(r) - np.log(d1 / (t[-3] - t[-4])), 0.0, 0.05))
         last, d = t[-1], d2
         for k in range(1, n_extra + 1):
+            r = min(r * math.exp(dq), 1.0)
             d *= r
             last += d
             out[c[-1] + k] = last
@@ -250,100 +259,6 @@ def parse_markers(raw: Mapping[Any, Any] | None) -> dict[int, float]:
 # --------------------------------------------------------------------------------------------
 # Automatic marker search
 # --------------------------------------------------------------------------------------------
-
-def candidate_chains(rt_min: np.ndarray, size: np.ndarray, *, n_candidates: int = 60,
-                     min_length: int = 4, n_best: int = 4, ratio_range=(0.6, 4.0),
-                     ratio_rise: float = 0.15, smooth_weight: float = 2.0) -> list[list[int]]:
-    """Chains of tall peaks whose spacings change smoothly (n-alkane candidates).
-
-    Parameters
-    ----------
-    rt_min, size : ndarray
-        Retention times [min] (sorted) and areas of the peaks.
-    n_candidates : int
-        The tallest peaks considered.
-    min_length : int
-        Shortest chain returned.
-    n_best : int
-        Number of chains returned (no chain is a sub-chain of a better one).
-    ratio_range : (float, float)
-        Allowed ratio ``r = (t_(k+1) - t_k) / (t_k - t_(k-1))`` of consecutive spacings.
-    ratio_rise : float
-        Largest allowed rise of ``ln r`` from one step to the next.
-    smooth_weight : float
-        Weight of the penalty ``(ln r_k - ln r_(k-1))^2``.
-
-    Returns
-    -------
-    list of list of int
-        Positions into ``rt_min``, best chain first.
-
-    Notes
-    -----
-    The spacing of consecutive n-alkanes grows by a constant factor in an isothermal hold
-    (Kovats: log t' linear in carbon number) and stays nearly constant, slowly shrinking,
-    under a temperature programme; the ratio of consecutive spacings therefore never rises
-    (within ``ratio_rise``) along the series. A peak wrongly inserted into the series makes a
-    small ratio followed by a large one, which this forbids. The dynamic programme runs over
-    states (previous, current) keeping the ``ln r`` of the best path into each state;
-    each member earns ``1 + ln(size / median size)``. O(K^3) for K candidates.
-    """
-    n = len(rt_min)
-    if n < min_length:
-        return []
-    cand = np.sort(np.argsort(-size, kind="stable")[: min(n_candidates, n)])
-    k = len(cand)
-    t = rt_min[cand]
-    sz = np.maximum(size[cand], 1e-300)
-    gain = 1.0 + np.log(sz / np.median(sz))
-    neg = -1e18
-    dt = t[None, :] - t[:, None]                       # dt[h, j] = t_j - t_h
-    V = np.where(dt > 0, gain[:, None] + gain[None, :], neg)
-    R = np.full((k, k), np.nan)                          # ln r into state (h, j)
-    B = np.full((k, k), -1, dtype=int)
-    L = np.where(dt > 0, 2, 0)
-    lo_r, hi_r = np.log(ratio_range[0]), np.log(ratio_range[1])
-    for j in range(1, k - 1):
-        hs = np.flatnonzero(V[:j, j] > neg / 2)
-        if hs.size == 0:
-            continue
-        iis = np.arange(j + 1, k)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            r = np.log(dt[j, iis][None, :] / dt[hs, j][:, None])     # [h, i]
-        prev_r = R[hs, j][:, None]
-        ok = (r >= lo_r) & (r <= hi_r) & ~(np.isfinite(prev_r) & (r > prev_r + ratio_rise))
-        pen = np.where(np.isfinite(prev_r), smooth_weight * (r - prev_r) ** 2, 0.0)
-        tot = np.where(ok, V[hs, j][:, None] - pen, neg)
-        best_h = np.argmax(tot, axis=0)
-        best = tot[best_h, np.arange(len(iis))] + gain[iis]
-        upd = best > V[j, iis]
-        if np.any(upd):
-            ii = iis[upd]
-            hh = hs[best_h[upd]]
-            V[j, ii] = best[upd]
-            R[j, ii] = r[best_h[upd], np.flatnonzero(upd)]
-            B[j, ii] = hh
-            L[j, ii] = L[hh, j] + 1
-    chains: list[list[int]] = []
-    for f in np.argsort(-V, axis=None):
-        if len(chains) >= n_best:
-            break
-        h, j = divmod(int(f), k)
-        if V[h, j] <= neg / 2:
-            break
-        if L[h, j] < min_length:
-            continue
-        chain = [j, h]
-        a, b = h, j
-        while B[a, b] >= 0:
-            a, b = int(B[a, b]), a
-            chain.append(a)
-        chain = [int(cand[c]) for c in reversed(chain)]
-        if any(set(chain) <= set(c) for c in chains):
-            continue
-        chains.append(chain)
-    return chains
-
 
 def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: float, *,
                   weight: np.ndarray | None = None, lo: np.ndarray | None = None,
@@ -489,9 +404,9 @@ def _grouped_score(group: np.ndarray, near: np.ndarray, wg: np.ndarray, wbase: n
 
 def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, tolerance: float,
                  settings: Mapping[str, Any] | None = None, *,
-                 alkane_carbons: list[int] | None = None, n_candidates: int = 40,
-                 n_score: int = 100, n_final: int = 3,
-                 lib_bonus: np.ndarray | None = None, n_grow: int = 5) -> IndexScale | None:
+                 alkane_carbons: list[int] | None = None, n_candidates: int = 48,
+                 n_score: int = 100, n_final: int = 6,
+                 lib_bonus: np.ndarray | None = None) -> IndexScale | None:
     """Find the n-alkane markers of an unnamed run.
 
     Parameters
@@ -509,7 +424,7 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     n_candidates : int
         The tallest peaks considered as the core markers.
     n_score : int
-        The largest peaks used to compare the best core chains.
+        The largest peaks used to compare whole marker sets.
     n_final : int
         Core chains compared by the full alignment.
     lib_bonus : ndarray, optional
@@ -519,27 +434,35 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     Returns
     -------
     IndexScale or None
-        The best scale, or None when no chain of three markers scores above chance.
+        The best scale, or None when no chain of three markers is found.
 
     Notes
     -----
-    1. Core chain. A chain labels candidate peaks a_1 < a_2 < ... as n-alkanes c, c+1, ... .
-       A bracket (a_k, a_(k+1)) labelled n indexes the peaks inside it on its own; its score
-       is ``sum over library entries hit of the best w_p g(I_p)`` minus
+    1. Core chain (:func:`_chain_dp`): among the ``n_candidates`` tallest peaks, a dynamic
+       programme over states (label n, peak as n-alkane n - 1, peak as n-alkane n) finds
+       labelled chains whose spacings obey the physics of the run and whose brackets index
+       the peaks between them onto library entries. Spacing rules, with
+       ``q = ln((t_(n+1) - t_n) / (t_n - t_(n-1)))``: inside an isothermal hold the adjusted
+       times are geometric (Kovats), so consecutive spacings grow by a constant factor
+       (``|q - q_prev| <= 0.05``, ``q >= ln 1.3``); under a temperature programme the spacing
+       changes slowly (``0.7 <= e^q <= 1.1``, ``-0.1 <= q - q_prev``); everywhere q never
+       rises by more than 0.08 from one step to the next (a peak wrongly taken into the
+       series makes a short spacing followed by a long one). A bracket (a, b) labelled n
+       scores ``sum over library entries hit of the best w_p g(I_p)`` minus
        ``sum_p w_p gbar_n`` (``g = max(0, 1 - (d/tol)^2)``, d the distance to the nearest
-       library index; ``gbar_n`` the mean of g over (100 n, 100 n + 100), so a bracket of
-       the wrong width or label scores about zero or less; ``w = log(1 + size / median)``;
-       peaks sharing their nearest library entry count once). Each marker also earns
-       ``0.5 w`` (n-alkanes are tall peaks). A dynamic programme over (label, last marker)
-       finds the best chains in O(labels x K^2).
-    2. The ``n_final`` best chains, each cut to every prefix of at least three members (also
-       without its first member), are compared by the one-to-one alignment
-       (:func:`align_indices`, with ``lib_bonus`` and size weights) of the ``n_score`` largest
-       peaks indexed with them (extrapolated beyond their ends); the best is kept.
-    3. Extension: the chain grows one n-alkane at a time at either end, each time the peak
-       (among the largest in the expected spacing range) with the best full score, and is
-       then cut back to its best-scoring length (:func:`_extend_chain`); small late n-alkanes
-       are found this way. The search is a heuristic: check the markers it reports.
+       library index, ``gbar_n`` the mean of g over the hundred; peaks sharing their nearest
+       entry count once; ``w = ln(1 + size / median)``), so a bracket of the wrong width or
+       label scores about zero; each marker earns ``0.5 w`` (n-alkanes are tall peaks).
+    2. The ``n_final`` best distinct chains, each also without its first or last member, are
+       compared by the one-to-one alignment (:func:`align_indices`, with ``lib_bonus`` and
+       size weights) of the ``n_score`` largest peaks indexed with them.
+    3. Extension: the best chain grows one n-alkane at a time at either end, taking the peak
+       nearest the extrapolated time (:func:`extend_markers`, within 6 % of the last spacing)
+       when it raises the full alignment score; small first and late n-alkanes are found
+       this way.
+    With an isothermal hold but no hold-up time set, the programme runs twice: the second
+    time with ``t_M`` from the first chain's hold markers (:func:`estimate_holdup`). The
+    search is a heuristic: the identify step lists the markers it found in a warning.
     """
     s = settings or {}
     rt = np.asarray(rt_min, dtype=float)
@@ -556,18 +479,66 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     if len(lib) < 2:
         return None
     iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
-    tm = float(s.get("holdup_time_min", 0.0) or 0.0)
-    if iso > 0 and tm <= 0:
-        tm = float(np.nanmin(rt)) * 0.999
+    tm_set = float(s.get("holdup_time_min", 0.0) or 0.0)
+    first = float(np.nanmin(rt))
     top = np.sort(np.argsort(-sz, kind="stable")[: min(n_score, n_pk)])
     med = np.median(sz[top][sz[top] > 0]) if np.any(sz[top] > 0) else 1.0
     w_all = np.log1p(sz / med)
     look = _Lookup(lib, tolerance, 100.0 * (carbons[0] - 1), 100.0 * (carbons[-1] + 2))
-
-    # 1. core chain over the tallest peaks
     cand = np.sort(np.argsort(-sz, kind="stable")[: min(n_candidates, n_pk)])
+    t_top, w_top = rt[top], 1.0 + w_all[top]
+    cache: dict[tuple, float] = {}
+
+    def full(m: Mapping[int, float]) -> float:
+        key = tuple(sorted(m.items()))
+        if key in cache:
+            return cache[key]
+        try:
+            scale = make_scale(m, s, first)
+            sc = align_indices(scale.index(t_top), lib, tolerance, weight=w_top,
+                               lib_bonus=bonus)[1]
+        except SettingsError:
+            sc = -np.inf
+        cache[key] = sc
+        return sc
+
+    tm = tm_set if tm_set > 0 else first * 0.999
+    chains = _chain_dp(rt, cand, w_all, look, carbons, iso, tm, n_final)
+    if iso > 0 and tm_set <= 0 and chains:
+        tm2 = estimate_holdup(chains[0], iso, first)
+        if abs(tm2 - tm) > 1e-3 * tm:
+            chains = _chain_dp(rt, cand, w_all, look, carbons, iso, tm2, n_final)
+    if not chains:
+        return None
+    best_sc, best = -np.inf, None
+    for ch in chains:
+        keys = sorted(ch)
+        variants = [keys]
+        if len(keys) > 3:
+            variants += [keys[1:], keys[:-1]]
+        for sub in variants:
+            m = {c: ch[c] for c in sub}
+            sc = full(m)
+            if sc > best_sc:
+                best_sc, best = sc, m
+    if best is None:
+        return None
+    markers = _extend_chain(best, best_sc, rt, sz, full, s, first, (carbons[0], carbons[-1]))
+    return make_scale(markers, s, first)
+
+
+def _chain_dp(rt: np.ndarray, cand: np.ndarray, w_all: np.ndarray, look: _Lookup,
+              carbons: list[int], iso: float, tm: float, n_final: int,
+              rise: float = 0.08, hold_dev: float = 0.05, prog_range=(0.7, 1.02),
+              prog_drop: float = 0.1, settled=(-0.03, 0.05),
+              smooth_weight: float = 20.0) -> list[dict[int, float]]:
+    """The best labelled n-alkane chains among the candidate peaks (see :func:`find_markers`)."""
     k = len(cand)
+    n_lab = len(carbons)
+    if k < 3 or n_lab < 3:
+        return []
     tc = rt[cand]
+    # bracket scores S[li, a, b]: peaks strictly between candidates a < b indexed as (n, n+1)
     jj, ii = np.triu_indices(k, 1)
     lo = np.searchsorted(rt, tc[jj], side="right")
     hi = np.searchsorted(rt, tc[ii], side="left")
@@ -577,230 +548,153 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     t_in = rt[members]
     t_a, t_b = tc[jj][pair_of], tc[ii][pair_of]
     frac = (t_in - t_a) / (t_b - t_a)
-    if iso > 0:
+    if iso > 0 and tm > 0:
         with np.errstate(invalid="ignore", divide="ignore"):
             fl = np.log((t_in - tm) / (t_a - tm)) / np.log((t_b - tm) / (t_a - tm))
         frac = np.where((t_b <= iso) & np.isfinite(fl), fl, frac)
     w_in = w_all[members]
-    n_lab = len(carbons)
     S = np.full((n_lab, k, k), -np.inf)
     for li, n in enumerate(carbons[:-1]):
         g, near, base = look.at(100.0 * (n + frac))
         S[li, jj, ii] = _grouped_score(pair_of, near, w_in * g, w_in * base, len(jj))
     own = 0.5 * w_all[cand]
-    V = np.tile(own, (n_lab, 1))
-    L = np.ones((n_lab, k), dtype=int)
-    B = np.full((n_lab, k), -1, dtype=int)
+    D = tc[None, :] - tc[:, None]                               # D[a, b] = t_b - t_a
+    with np.errstate(divide="ignore", invalid="ignore"):
+        lnD = np.where(D > 0, np.log(np.where(D > 0, D, 1.0)), np.nan)
+    q = lnD[None, :, :] - lnD[:, :, None]                         # q[h, a, b]
+    q = np.where(np.isfinite(q), q, np.nan)
+    th, ta, tb = tc[:, None, None], tc[None, :, None], tc[None, None, :]
+    with np.errstate(invalid="ignore"):
+        ok = (q >= np.log(0.6)) & (q <= np.log(4.0))
+        if iso > 0:
+            in_hold = tb <= iso
+            programmed = th >= iso
+            ok &= ~in_hold | (q >= np.log(1.3))
+            ok &= ~programmed | ((q >= np.log(prog_range[0])) & (q <= np.log(prog_range[1])))
+        else:
+            in_hold = np.zeros((1, 1, 1), dtype=bool)
+            programmed = np.zeros((1, 1, 1), dtype=bool)
+    V = np.full((n_lab, k, k), -np.inf)        # V[li, a, b]: b is n-alkane carbons[li]
+    R = np.full((n_lab, k, k), np.nan)         # q of the last step of the best path
+    B = np.full((n_lab, k, k), -1, dtype=int)
+    L = np.zeros((n_lab, k, k), dtype=int)
+    upper = np.triu(np.ones((k, k), dtype=bool), 1)
     for li in range(1, n_lab):
-        if carbons[li] != carbons[li - 1] + 1:
+        start = np.where(upper, own[:, None] + own[None, :] + S[li - 1], -np.inf)
+        V[li], L[li] = start, np.where(upper, 2, 0)
+        if li < 2 or carbons[li] != carbons[li - 1] + 1 or carbons[li - 1] != carbons[li - 2] + 1:
             continue
-        tot = V[li - 1][:, None] + S[li - 1]
-        j_best = np.argmax(tot, axis=0)
-        best = tot[j_best, np.arange(k)] + own
-        better = best > V[li]
-        V[li] = np.where(better, best, V[li])
-        B[li] = np.where(better, j_best, -1)
-        L[li] = np.where(better, L[li - 1][j_best] + 1, 1)
-    ends = sorted(((V[li, i], li, i) for li in range(n_lab) for i in range(k) if L[li, i] >= 3),
-                  reverse=True)
+        prev_v = V[li - 1]                                       # [h, a]
+        prev_q = R[li - 1][:, :, None]                           # [h, a, 1]
+        with np.errstate(invalid="ignore"):
+            allowed = ok & np.isfinite(prev_v)[:, :, None]
+            has_q = np.isfinite(prev_q)
+            dq = q - prev_q
+            allowed &= ~has_q | (dq <= rise)
+            if iso > 0:
+                allowed &= ~(has_q & in_hold) | (np.abs(dq) <= hold_dev)
+                allowed &= ~(has_q & programmed & (prev_q < 0)) | (dq >= -prog_drop)
+            else:
+                allowed &= ~(has_q & (prev_q < 0)) | (dq >= -prog_drop)
+            settled_ok = (dq >= settled[0]) & (dq <= settled[1])
+            allowed &= ~(has_q & (prev_q < 0)) | settled_ok
+            pen = np.where(has_q & ~in_hold & (prev_q < 0.3), smooth_weight * dq * dq, 0.0)
+        tot = np.where(allowed, prev_v[:, :, None] - pen, -np.inf)
+        h_best = np.argmax(tot, axis=0)                          # [a, b]
+        best = np.take_along_axis(tot, h_best[None], 0)[0]
+        cont = np.isfinite(best) & upper
+        val = best + S[li - 1] + own[None, :]
+        better = cont & (val > V[li])
+        V[li] = np.where(better, val, V[li])
+        a_idx = np.arange(k)[:, None]
+        R[li] = np.where(better, q[h_best, a_idx, np.arange(k)[None, :]], np.nan)
+        B[li] = np.where(better, h_best, -1)
+        L[li] = np.where(better, L[li - 1][h_best, a_idx] + 1, L[li])
+    # the best distinct chains of at least three markers
+    flat = np.argsort(-np.where(L >= 3, V, -np.inf), axis=None)
     chains: list[dict[int, float]] = []
-    for _, li, i in ends:
+    taken: list[set] = []
+    for f in flat[: 50 * n_final]:
+        li, a, b = np.unravel_index(int(f), V.shape)
+        if not np.isfinite(V[li, a, b]) or L[li, a, b] < 3:
+            break
+        pairs = {(carbons[li], int(b))}
+        while li >= 1:
+            pairs.add((carbons[li - 1], int(a)))
+            h = int(B[li, a, b])
+            if h < 0:
+                break
+            li, a, b = li - 1, h, a
+        if any(pairs <= t for t in taken):
+            continue
+        taken.append(pairs)
+        chains.append({c: float(tc[p]) for c, p in sorted(pairs)})
         if len(chains) >= n_final:
             break
-        ch: dict[int, float] = {}
-        while i >= 0 and li >= 0:
-            ch[carbons[li]] = float(rt[cand[i]])
-            i, li = int(B[li, i]), li - 1
-        if ch not in chains:
-            chains.append(ch)
-    if not chains:
-        return None
-
-    # 2. compare the best chains by the full alignment of the largest peaks
-    first = float(np.nanmin(rt))
-    t_top, w_top = rt[top], w_all[top]
-    best_score, best_markers = -np.inf, None
-    scored: list[tuple[float, dict[int, float]]] = []
-    seen: set = set()
-    for ch in chains:
-        keys = sorted(ch)
-        subs = [keys[i0:i1] for i0 in (0, 1) for i1 in range(i0 + 3, len(keys) + 1)]
-        for sub in subs:
-            m = {c: ch[c] for c in sub}
-            key = tuple(sorted(m.items()))
-            if key in seen:
-                continue
-            seen.add(key)
-            try:
-                scale = make_scale(m, s, first)
-            except SettingsError:
-                continue
-            sc = align_indices(scale.index(t_top), lib, tolerance, weight=1.0 + w_top,
-                               lib_bonus=bonus)[1]
-            if _DEBUG:
-                print("variant", round(sc, 2), {c: round(t, 2) for c, t in m.items()})
-            scored.append((sc, m))
-            if sc > best_score:
-                best_score, best_markers = sc, m
-    must_grow: list[tuple[float, dict[int, float]]] = []
-    for labelled in _geometric_seeds(rt, sz, s, tm, carbons):
-        here: list[tuple[float, dict[int, float]]] = []
-        for m in labelled:
-            key = tuple(sorted(m.items()))
-            if key in seen:
-                here.extend((sc, x) for sc, x in scored if x == m)
-                continue
-            seen.add(key)
-            try:
-                scale = make_scale(m, s, first)
-            except SettingsError:
-                continue
-            sc = align_indices(scale.index(t_top), lib, tolerance, weight=1.0 + w_top,
-                               lib_bonus=bonus)[1]
-            scored.append((sc, m))
-            here.append((sc, m))
-            if sc > best_score:
-                best_score, best_markers = sc, m
-        # three markers say little about their labels: grow the best three labellings of
-        # the first seed, the best one of the next two
-        here.sort(key=lambda x: x[0], reverse=True)
-        if len(must_grow) < 7:
-            must_grow.extend(here[: 3 if not must_grow else 1])
-    if best_markers is None:
-        return None
-    # 3. extension
-    def full(m: dict[int, float]) -> float:
-        try:
-            scale = make_scale(m, s, first)
-        except SettingsError:
-            return -np.inf
-        return align_indices(scale.index(t_top), lib, tolerance, weight=1.0 + w_top,
-                             lib_bonus=bonus)[1]
-
-    final_score, markers = -np.inf, best_markers
-    scored.sort(key=lambda x: x[0], reverse=True)
-    for sc, m in must_grow + scored[:n_grow]:
-        grown = _extend_chain(m, sc, rt, full, s, first, (carbons[0], carbons[-1]), size=sz)
-        g_sc = full(grown)
-        if g_sc > final_score:
-            final_score, markers = g_sc, grown
-    return make_scale(markers, s, first)
+    return chains
 
 
-def _geometric_seeds(rt: np.ndarray, size: np.ndarray, s: Mapping[str, Any], tm: float,
-                     carbons: list[int], n_peaks: int = 40, n_seeds: int = 12,
-                     max_dev: float = 0.05) -> list[dict[int, float]]:
-    """Triples of tall peaks whose spacing fits three consecutive n-alkanes, labelled.
-
-    Inside an isothermal hold (``identify.isothermal_until_min``) adjusted times of
-    consecutive n-alkanes form a geometric series (Kovats), so a triple a < b < c qualifies
-    when ``|ln(t'_b / t'_a) - ln(t'_c / t'_b)| <= max_dev``; after the hold their spacings are
-    nearly equal, ``|ln((t_c - t_b) / (t_b - t_a))| <= 3 max_dev``. The ``n_seeds`` triples of
-    the largest summed log size each come with every label c, c+1, c+2 of the carbon range.
-    """
-    iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
-    idx = np.sort(np.argsort(-size, kind="stable")[: min(n_peaks, len(rt))])
-    t = rt[idx]
-    lw = np.log(np.maximum(size[idx], 1e-300))
-    k = len(idx)
-    found = []
-    for a in range(k):
-        for b in range(a + 1, k):
-            for c in range(b + 1, k):
-                ta, tb, tc = t[a], t[b], t[c]
-                if iso > 0 and tc <= iso and ta > tm > 0:
-                    dev = abs(np.log((tb - tm) / (ta - tm)) - np.log((tc - tm) / (tb - tm)))
-                    ok = dev <= max_dev and (tb - tm) / (ta - tm) > 1.3
-                elif iso <= 0 or ta >= iso:
-                    dev = abs(np.log((tc - tb) / (tb - ta)))
-                    ok = dev <= 3 * max_dev
-                else:
-                    ok = False
-                if ok:
-                    in_hold = iso > 0 and tc <= iso
-                    found.append((in_hold, lw[a] + lw[b] + lw[c], float(ta), float(tb), float(tc)))
-    found.sort(reverse=True)                   # triples inside the hold first (rarer by chance)
-    seeds = []
-    for in_hold, _, ta, tb, tc in found[:n_seeds]:
-        seeds.append([{c0: ta, c0 + 1: tb, c0 + 2: tc} for c0 in carbons[:-2]])
-    return seeds
-
-
-def _bracket_score(t_a: float, t_b: float, n: int, rt: np.ndarray, w: np.ndarray,
-                   look: _Lookup, iso: float, tm: float) -> float:
-    """Score of the peaks strictly between t_a and t_b indexed as bracket (n, n + 1)."""
-    i0, i1 = np.searchsorted(rt, t_a, side="right"), np.searchsorted(rt, t_b, side="left")
-    if i1 <= i0:
-        return 0.0
-    t = rt[i0:i1]
-    if iso > 0 and t_b <= iso and tm < t_a:
-        frac = np.log((t - tm) / (t_a - tm)) / np.log((t_b - tm) / (t_a - tm))
-    else:
-        frac = (t - t_a) / (t_b - t_a)
-    g, near, base = look.at(100.0 * (n + frac))
-    ww = w[i0:i1]
-    return float(_grouped_score(np.zeros(len(t), dtype=int), near, ww * g, ww * base, 1)[0])
-
-
-def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, full,
-                  s: Mapping[str, Any], first: float, carbon_range: tuple[int, int],
-                  size: np.ndarray | None = None, n_try: int = 8) -> dict[int, float]:
+def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, size: np.ndarray,
+                  full, s: Mapping[str, Any], first: float, carbon_range: tuple[int, int],
+                  n_try: int = 4, rise: float = 0.08, hold_dev: float = 0.05,
+                  prog_range=(0.7, 1.02), prog_drop: float = 0.1,
+                  settled=(-0.03, 0.05), min_gain: float = 1.0) -> dict[int, float]:
     """Grow a marker chain one n-alkane at a time at either end (see :func:`find_markers`).
 
-    The next n-alkane is looked for between 0.6 x the last spacing (times the spacing ratio
-    when it shrinks) and 1.3 x it (times the ratio when it grows) beyond the end marker, among
-    the ``n_try`` peaks nearest its extrapolated time (:func:`extend_markers`) and the
-    ``n_try / 2`` largest; the one giving the best full alignment score is added when
-    it raises the score.
+    The next n-alkane must keep the spacing rules of :func:`_chain_dp` with the chain's end
+    spacings; of the peaks in that time window the ``n_try`` largest are tried, and the one
+    with the best full alignment score is kept when it raises the score.
     """
     m = dict(markers)
     iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
-    path = [(score, dict(m))]
+    lo_all, hi_all = np.log(0.6), np.log(4.0)
     for side in (1, -1):
-        while True:
-            try:
-                scale = make_scale(m, s, first, extend=0)
-            except SettingsError:
-                break
-            tm = scale.holdup_time_min
-            ext = extend_markers(m, iso, tm, 1)
-            edge_c = max(m) if side > 0 else min(m)
-            nxt = edge_c + side
-            if nxt not in ext or not (carbon_range[0] <= nxt <= carbon_range[1]):
-                break
-            t_edge = m[edge_c]
+        while len(m) >= 3:
             keys = sorted(m)
+            t = [m[c] for c in keys]
+            nxt = keys[-1] + 1 if side > 0 else keys[0] - 1
+            if not carbon_range[0] <= nxt <= carbon_range[1]:
+                break
             if side > 0:
-                d1, d0 = m[keys[-1]] - m[keys[-2]], m[keys[-2]] - m[keys[-3]]
+                d = t[-1] - t[-2]
+                q0 = np.log(d / (t[-2] - t[-3]))
+                lo, hi = max(lo_all, q0 - (prog_drop if q0 < 0 else 2.0)), min(hi_all, q0 + rise)
+                if (iso > 0 and t[-2] >= iso) or (iso <= 0 and q0 < 0):
+                    lo, hi = max(lo, np.log(prog_range[0])), min(hi, np.log(prog_range[1]))
+                if q0 < 0:
+                    lo, hi = max(lo, q0 + settled[0]), min(hi, q0 + settled[1])
+                if iso > 0 and t[-1] + d * np.exp(hi) <= iso:
+                    lo, hi = max(lo, q0 - hold_dev), min(hi, q0 + hold_dev)
+                t_lo, t_hi = t[-1] + d * np.exp(lo), t[-1] + d * np.exp(hi)
             else:
-                d1, d0 = m[keys[1]] - m[keys[0]], m[keys[2]] - m[keys[1]]
-            r = d1 / d0 if d0 > 0 else 1.0
-            near, far = 0.6 * d1 * min(r, 1.0), 1.3 * d1 * max(r, 1.0)
-            if side > 0:
-                inside = (rt > t_edge + near) & (rt < t_edge + far)
-            else:
-                inside = (rt < t_edge - near) & (rt > t_edge - far)
-            cand = np.flatnonzero(inside)
-            if len(cand) > n_try:
-                # the peaks nearest the extrapolated time, and the largest in the range
-                ext_t = extend_markers(m, iso, tm, 1).get(nxt, t_edge + side * d1)
-                near_c = cand[np.argsort(np.abs(rt[cand] - ext_t), kind="stable")[:n_try]]
-                big_c = cand[np.argsort(-size[cand], kind="stable")[:n_try // 2]] \
-                    if size is not None else cand[:0]
-                cand = np.union1d(near_c, big_c)
-            best_t, best_sc = None, -np.inf
+                d = t[1] - t[0]
+                q0 = np.log((t[2] - t[1]) / d)          # q of the new first step: q'
+                lo, hi = max(lo_all, q0 - rise), min(hi_all, q0 + 2.0)
+                if hi < 0:
+                    hi = min(hi, q0 + prog_drop)
+                if iso > 0 and t[1] <= iso:
+                    lo, hi = max(lo, q0 - hold_dev), min(hi, q0 + hold_dev)
+                if lo > hi:
+                    break
+                t_lo, t_hi = t[0] - d / np.exp(lo), t[0] - d / np.exp(hi)
+            if lo > hi:
+                break
+            cand = np.flatnonzero((rt >= t_lo) & (rt <= t_hi))
+            if len(cand) == 0:
+                break
+            cand = cand[np.argsort(-size[cand], kind="stable")[:n_try]]
+            best_t, best_sc = None, score + min_gain
             for p in cand:
                 sc = full({**m, nxt: float(rt[p])})
+                if _TRACE:
+                    print("  ext", side, nxt, round(rt[p], 2), "gain", round(sc - score, 2), "q0", round(q0, 3),
+                          "q", round(np.log((rt[p]-t[-1])/(t[-1]-t[-2])) if side > 0 else np.log((t[1]-t[0])/(t[0]-rt[p])), 3))
                 if sc > best_sc:
                     best_sc, best_t = sc, float(rt[p])
             if best_t is None:
                 break
             m[nxt] = best_t
-            path.append((best_sc, dict(m)))
-        # keep the best point along the way (one step may lower the score before the
-        # next raises it: the extrapolation changes with every marker)
-        score, m = max(path, key=lambda x: x[0])
-        path = [(score, dict(m))]
+            score = best_sc
     return m
 
 

@@ -260,22 +260,43 @@ def test_export_indices_are_used(lib):
     assert out["ri_delta"].to_numpy() == pytest.approx([0.2, 0.2])
 
 
-def test_automatic_markers_on_alkane_rich_runs(lib):
-    # The automatic n-alkane search (dha.retention.find_markers) is a heuristic. Measured on
-    # runs whose n-alkanes are prominent (the example petrols plus 4 mass % of each n-C4..C11,
-    # as in straight-run-rich blends): mass identified correctly 0.95-1.00 in all six runs
-    # below (seeds 1-2); with seed 0 the figures are 0.90, 0.97 and 0.39 (e10: a wrong start
-    # of the chain). On the plain example petrols it mostly fails (0-0.97, most runs < 0.5):
-    # give identify.markers there.
-    good = 0
+def _true_marker_times(peaks, truth, lib):
+    """{carbon number: rt of the n-alkane's own peak} of a synthetic run."""
+    rt = peaks["rt_min"].to_numpy()
+    out = {}
+    for c, i, r in zip(truth["component"], truth["true_index"], truth["row"]):
+        if c is not None and pd.notna(r) and lib.components.at[c, "group"] == "n_paraffins":
+            out[int(round(i / 100))] = float(rt[int(r) - 1])
+    return out
+
+
+def test_automatic_markers_on_unnamed_petrols(lib):
+    # Issue 5: n-alkane markers found automatically on unnamed runs of ordinary petrols
+    # (reformate-, alkylate-, E10-type; index noise sd 0.5, 0.5 % retention-time drift). The
+    # search (dha.retention.find_markers) was tuned on seeds 100-109 (29/30 correct there);
+    # these are seeds 0-9. Measured: 30/30 runs with every reported marker on its n-alkane's
+    # peak and C5-C8 among them (the issue's requirement: met on these seeds). The search
+    # often stops before the small late n-alkanes (C10, C11), so peaks beyond the last marker
+    # are indexed by extrapolation: mass identified correctly with the found markers, mean
+    # 0.981 / 0.977 / 0.964 (reformate / alkylate / E10) against 0.983 / 0.975 / 0.975 with all
+    # true markers; largest loss in one run 0.033. Asserted: markers all correct, loss <= 0.04
+    # per run, mean >= 0.96.
+    bad, acc = [], []
     for kind in EXAMPLE_KINDS:
         comp = example_composition(kind, lib)
-        for a in ("n-butane", "n-pentane", "n-hexane", "n-heptane", "n-octane", "n-nonane",
-                  "n-decane", "n-undecane"):
-            comp[a] = comp.get(a, 0.0) + 4.0
-        for seed in (1, 2):
-            peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=0.5)
+        for seed in range(10):
+            peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=0.5, drift_pct=0.5)
             out = identify(peaks, lib, _settings())
             assert any("found automatically" in w for w in out.attrs["warnings"])
-            good += identification_accuracy(out, truth) >= 0.94
-    assert good >= 5
+            true = _true_marker_times(peaks, truth, lib)
+            found = out.attrs["markers"]
+            if not (set(range(5, 9)) <= set(found)
+                    and all(abs(true.get(c, -1.0) - t) < 1e-9 for c, t in found.items())):
+                bad.append((kind, seed, found))
+                continue
+            ref = identify(peaks, lib, _settings(markers=_alkane_markers(truth, lib)))
+            acc.append(identification_accuracy(out, truth))
+            if acc[-1] < identification_accuracy(ref, truth) - 0.04:
+                bad.append((kind, seed, "accuracy", acc[-1]))
+    assert not bad, bad
+    assert np.mean(acc) >= 0.96, acc

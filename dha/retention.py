@@ -503,7 +503,8 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
         return sc
 
     tm = tm_set if tm_set > 0 else first * 0.999
-    chains = _chain_dp(rt, cand, w_all, look, carbons, iso, tm, n_final)
+    chains = _chain_dp(rt, cand, w_all, look, carbons, iso, tm, n_final,
+                       geometric_check=tm_set > 0)
     if iso > 0 and tm_set <= 0 and chains:
         tm2 = estimate_holdup(chains[0], iso, first)
         if abs(tm2 - tm) > 1e-3 * tm:
@@ -530,7 +531,8 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
 def _chain_dp(rt: np.ndarray, cand: np.ndarray, w_all: np.ndarray, look: _Lookup,
               carbons: list[int], iso: float, tm: float, n_final: int,
               rise: float = 0.08, hold_dev: float = 0.05, prog_range=(0.7, 1.02),
-              prog_drop: float = 0.1, settled=(-0.03, 0.05),
+              prog_drop: float = 0.1, settled=(-0.03, 0.05), after_hold_max: float = 1.1,
+              geometric_check: bool = False, beta_range=(1.5, 4.0),
               smooth_weight: float = 20.0) -> list[dict[int, float]]:
     """The best labelled n-alkane chains among the candidate peaks (see :func:`find_markers`)."""
     k = len(cand)
@@ -571,6 +573,22 @@ def _chain_dp(rt: np.ndarray, cand: np.ndarray, w_all: np.ndarray, look: _Lookup
             programmed = th >= iso
             ok &= ~in_hold | (q >= np.log(1.3))
             ok &= ~programmed | ((q >= np.log(prog_range[0])) & (q <= np.log(prog_range[1])))
+            # the middle alkane after the hold: the next spacing is programmed, not longer
+            ok &= ~(ta >= iso) | (q <= np.log(after_hold_max))
+            tm_known = geometric_check and tm > 0
+            if tm_known:
+                # in the hold t'_(n+1) / t'_n = spacing ratio (both the same constant)
+                with np.errstate(divide="ignore"):
+                    qt = np.log((tb - tm) / (ta - tm))
+                ok &= ~in_hold | (np.abs(q - qt) <= hold_dev)
+            # ratio of adjusted times per CH2 in the hold between 1.5 and 4 (from memory: about
+            # 2.5-3 for n-alkanes on methylsilicone near 35 degC)
+            pair_hold = (tc[None, :] <= iso) & (tc[:, None] > tm)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                beta = (tc[None, :] - tm) / (tc[:, None] - tm)
+            pair_ok = ~pair_hold | ((beta >= beta_range[0]) & (beta <= beta_range[1]))
+            if tm_known:
+                ok &= pair_ok[None, :, :] & pair_ok[:, :, None]
         else:
             in_hold = np.zeros((1, 1, 1), dtype=bool)
             programmed = np.zeros((1, 1, 1), dtype=bool)
@@ -663,6 +681,8 @@ def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, size:
                     lo, hi = max(lo, np.log(prog_range[0])), min(hi, np.log(prog_range[1]))
                 if q0 < 0:
                     lo, hi = max(lo, q0 + settled[0]), min(hi, q0 + settled[1])
+                if iso > 0 and t[-1] >= iso:
+                    hi = min(hi, np.log(1.1))
                 if iso > 0 and t[-1] + d * np.exp(hi) <= iso:
                     lo, hi = max(lo, q0 - hold_dev), min(hi, q0 + hold_dev)
                 t_lo, t_hi = t[-1] + d * np.exp(lo), t[-1] + d * np.exp(hi)

@@ -405,7 +405,7 @@ def _grouped_score(group: np.ndarray, near: np.ndarray, wg: np.ndarray, wbase: n
 def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, tolerance: float,
                  settings: Mapping[str, Any] | None = None, *,
                  alkane_carbons: list[int] | None = None, n_candidates: int = 48,
-                 n_score: int = 100, n_final: int = 6,
+                 n_score: int = 200, n_final: int = 6,
                  lib_bonus: np.ndarray | None = None) -> IndexScale | None:
     """Find the n-alkane markers of an unnamed run.
 
@@ -489,13 +489,14 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     t_top, w_top = rt[top], 1.0 + w_all[top]
     cache: dict[tuple, float] = {}
 
-    def full(m: Mapping[int, float]) -> float:
-        key = tuple(sorted(m.items()))
+    def full(m: Mapping[int, float], part: tuple[float, float] | None = None) -> float:
+        key = (tuple(sorted(m.items())), part)
         if key in cache:
             return cache[key]
+        sel = slice(None) if part is None else (t_top >= part[0]) & (t_top <= part[1])
         try:
             scale = make_scale(m, s, first)
-            sc = align_indices(scale.index(t_top), lib, tolerance, weight=w_top,
+            sc = align_indices(scale.index(t_top[sel]), lib, tolerance, weight=w_top[sel],
                                lib_bonus=bonus)[1]
         except SettingsError:
             sc = -np.inf
@@ -503,12 +504,14 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
         return sc
 
     tm = tm_set if tm_set > 0 else first * 0.999
-    chains = _chain_dp(rt, cand, w_all, look, carbons, iso, tm, n_final,
+    # the bracket scores use the n_score largest peaks (the candidates are among them)
+    cand_top = np.searchsorted(top, cand)
+    chains = _chain_dp(t_top, cand_top, w_all[top], look, carbons, iso, tm, n_final,
                        geometric_check=tm_set > 0)
     if iso > 0 and tm_set <= 0 and chains:
         tm2 = estimate_holdup(chains[0], iso, first)
         if abs(tm2 - tm) > 1e-3 * tm:
-            chains = _chain_dp(rt, cand, w_all, look, carbons, iso, tm2, n_final)
+            chains = _chain_dp(t_top, cand_top, w_all[top], look, carbons, iso, tm2, n_final)
     if not chains:
         return None
     best_sc, best = -np.inf, None
@@ -656,7 +659,8 @@ def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, size:
                   full, s: Mapping[str, Any], first: float, carbon_range: tuple[int, int],
                   n_try: int = 4, rise: float = 0.08, hold_dev: float = 0.05,
                   prog_range=(0.7, 1.02), prog_drop: float = 0.1,
-                  settled=(-0.03, 0.05), min_gain: float = 1.0) -> dict[int, float]:
+                  settled=(-0.03, 0.05), min_gain: float = 0.0,
+                  min_size: float = 0.1) -> dict[int, float]:
     """Grow a marker chain one n-alkane at a time at either end (see :func:`find_markers`).
 
     The next n-alkane must keep the spacing rules of :func:`_chain_dp` with the chain's end
@@ -702,19 +706,22 @@ def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, size:
             cand = np.flatnonzero((rt >= t_lo) & (rt <= t_hi))
             if len(cand) == 0:
                 break
+            edge_size = size[np.argmin(np.abs(rt - (t[-1] if side > 0 else t[0])))]
+            cand = cand[size[cand] >= min_size * edge_size]
             cand = cand[np.argsort(-size[cand], kind="stable")[:n_try]]
-            best_t, best_sc = None, score + min_gain
+            best_t, best_gain = None, min_gain
             for p in cand:
-                sc = full({**m, nxt: float(rt[p])})
+                # judged on the peaks up to (down to) the new marker: beyond it both
+                # hypotheses only extrapolate
+                part = (-np.inf, float(rt[p])) if side > 0 else (float(rt[p]), np.inf)
+                gain = full({**m, nxt: float(rt[p])}, part) - full(m, part)
                 if _TRACE:
-                    print("  ext", side, nxt, round(rt[p], 2), "gain", round(sc - score, 2), "q0", round(q0, 3),
-                          "q", round(np.log((rt[p]-t[-1])/(t[-1]-t[-2])) if side > 0 else np.log((t[1]-t[0])/(t[0]-rt[p])), 3))
-                if sc > best_sc:
-                    best_sc, best_t = sc, float(rt[p])
+                    print("  ext", side, nxt, round(rt[p], 2), "gain", round(gain, 2), "q0", round(q0, 3), "size", round(size[p] / edge_size, 2))
+                if gain > best_gain:
+                    best_gain, best_t = gain, float(rt[p])
             if best_t is None:
                 break
             m[nxt] = best_t
-            score = best_sc
     return m
 
 

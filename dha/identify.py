@@ -394,8 +394,12 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     log-likelihood ratio of the matches (Gaussian index errors, sd = tolerance / 2) plus log
     prior odds per library entry: ``identify.learnt_prior`` for indices the lab learnt, and
     the group prior (typical petrol group shares spread over the library's entries of each
-    group, :data:`TYPICAL_GROUP_MASS_PCT`, scaled by ``identify.group_prior``); each peak's
+    group, :data:`TYPICAL_GROUP_MASS_PCT`, and within hydrocarbon groups over carbon numbers,
+    :data:`TYPICAL_CARBON_MASS_PCT`; scaled by ``identify.group_prior``); each peak's
     term is weighted by ``1 + ln(1 + area / median area)`` (``identify.size_weight``).
+    With ``identify.adapt_tolerance`` a second alignment uses a window and sd adapted to the
+    run's own spread of index differences (:func:`_adapted_window`); the window used is in
+    ``attrs["ri_tolerance"]``.
     Markers: ``identify.markers``, else named n-alkanes, else the automatic search
     (:func:`dha.retention.find_markers`, a heuristic: its markers are listed in a warning).
     Unknown peaks get ``ceil(I / 100)`` as carbon number (a peak between n-C6 and n-C7 is a
@@ -493,9 +497,19 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         prior = float(s.get("learnt_prior", 3.0))
         bonus = np.where(lib_kind[pool] == "learnt", prior, 0.0) + _group_prior(
             library, lib["name"].to_numpy()[pool], s)
+        weight = _weights(size[todo], s)
+        sigma = float(s.get("ri_sigma", 0.0) or 0.0) or tol / 2.0
         assign, _ = rx.align_indices(peak_ri[todo], pool_lo, tol, lo=lo, hi=hi,
-                                     lib_index_hi=pool_hi, lib_bonus=bonus,
-                                     weight=_weights(size[todo], s))
+                                     lib_index_hi=pool_hi, lib_bonus=bonus, weight=weight,
+                                     sigma=sigma)
+        if s.get("adapt_tolerance", True):
+            new = _adapted_window(peak_ri[todo], pool_lo, pool_hi, assign, size[todo], tol)
+            if new is not None:
+                tol, sigma = new
+                assign, _ = rx.align_indices(peak_ri[todo], pool_lo, tol, lo=lo, hi=hi,
+                                             lib_index_hi=pool_hi, lib_bonus=bonus,
+                                             weight=weight, sigma=sigma)
+                log.info("index window adapted to the run: +-%.2f (sd %.2f)", tol, sigma)
         for p, j in zip(todo, assign):
             if j >= 0:
                 comp[p] = lib["name"].iat[pool[j]]
@@ -537,7 +551,8 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         warnings.append(f"{int(unid.sum())} peak(s) unidentified ({share:.2f} % of the area)")
     for w in warnings:
         log.warning(w)
-    table.attrs = {"warnings": warnings, "markers": markers, "unknown_names": unknown_names}
+    table.attrs = {"warnings": warnings, "markers": markers, "unknown_names": unknown_names,
+                   "ri_tolerance": tol}
     return table
 
 
@@ -560,23 +575,85 @@ def _weights(size: np.ndarray, s: dict[str, Any]) -> np.ndarray:
     return 1.0 + np.log1p(size / med)
 
 
-def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarray:
-    """Log prior odds of each entry: ln(share of its group / entries of its group), centred.
+#: Typical carbon-number distribution of petrol hydrocarbons [mass %] for the prior (common
+#: practice, no source: petrol boils from about 30 to 210 degC, C4-C12, most mass in C5-C9).
+TYPICAL_CARBON_MASS_PCT = {3: 0.3, 4: 5.0, 5: 14.0, 6: 16.0, 7: 18.0, 8: 18.0, 9: 13.0,
+                           10: 8.0, 11: 4.0, 12: 1.5, 13: 0.5}
 
-    A unit of petrol mass belongs to a group with its typical share, and within the group to
-    any of the library's entries alike, so an entry of a crowded group with a small share (the
-    many C6-C9 olefins) is a priori less likely than one of a rich, sparse group (aromatics).
-    ``identify.group_prior`` scales it (0 = off).
+
+def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarray:
+    """Log prior odds of each entry: ln(expected mass share per entry of its cell), centred.
+
+    A unit of petrol mass belongs to a group with its typical share
+    (:data:`TYPICAL_GROUP_MASS_PCT`) and, for hydrocarbons, to a carbon number with the
+    typical petrol distribution (:data:`TYPICAL_CARBON_MASS_PCT`, taken over the carbon
+    numbers the library has for that group); within such a (group, carbon number) cell to
+    any of the library's entries alike. So an entry of a crowded cell with little mass (the
+    many C10-C12 aromatics, C6-C7 olefins) is a priori less likely than one of a rich, sparse
+    cell (the C8 aromatics). Oxygenates are spread over their entries alike (their carbon
+    number says nothing of their share). ``identify.group_prior`` scales it (0 = off);
+    ``identify.carbon_prior = false`` uses the group shares alone.
     """
     scale = float(s.get("group_prior", 1.0))
     if scale == 0 or len(names) == 0:
         return np.zeros(len(names))
-    groups = library.components["group"]
+    comps = library.components
+    groups = comps["group"]
+    carbon = pd.to_numeric(comps.get("carbon_number"), errors="coerce")
     counts = groups.value_counts()
     share = {g: TYPICAL_GROUP_MASS_PCT.get(g, 1.0) for g in counts.index}
-    per = {g: np.log(share[g] / counts[g]) for g in counts.index}
-    uniform = np.log(sum(share.values()) / counts.sum())
-    return scale * np.array([per.get(groups.get(n), uniform) - uniform for n in names])
+    total = sum(share.values())
+    by_carbon = bool(s.get("carbon_prior", True))
+    per: dict[tuple, float] = {}
+    for g, n_g in counts.items():
+        in_g = carbon[groups == g]
+        cells = in_g.value_counts()
+        if not by_carbon or g == "oxygenates" or cells.empty:
+            for n in list(cells.index) + [np.nan]:
+                per[(g, n)] = np.log(share[g] / total / n_g)
+            continue
+        w = {n: TYPICAL_CARBON_MASS_PCT.get(int(n), 0.1) for n in cells.index}
+        w_sum = sum(w.values())
+        for n, n_cell in cells.items():
+            per[(g, n)] = np.log(share[g] / total * w[n] / w_sum / n_cell)
+        per[(g, np.nan)] = np.log(share[g] / total / n_g)
+    uniform = np.log(1.0 / len(comps))
+    out = []
+    for nm in names:
+        g = groups.get(nm)
+        n = carbon.get(nm)
+        key = (g, n if pd.notna(n) else np.nan)
+        out.append(per.get(key, per.get((g, np.nan), uniform)) - uniform)
+    return scale * np.array(out)
+
+
+def _adapted_window(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarray,
+                    assign: np.ndarray, size: np.ndarray, tol: float, *, min_matches: int = 20,
+                    inflate: float = 1.5, width: float = 3.0) -> tuple[float, float] | None:
+    """(window, sd) for a second alignment pass, from the first pass's index differences.
+
+    The spread of the run's indices about the library's is estimated from the larger half
+    (by area) of the matched peaks: ``s = 1.4826 median |I_peak - I_lib|`` (the MAD estimate
+    of a normal sd). The nearest-entry choice in a crowded library makes the matched
+    differences look smaller than the true spread, and unresolved pairs add to it, so the
+    second pass assumes ``sd = inflate * s`` (1.5, chosen on synthetic runs, seeds 100-105)
+    and a window of ``width * sd``, kept within 0.5-2 times ``identify.ri_tolerance``.
+    None when fewer than ``min_matches`` peaks matched.
+    """
+    ok = assign >= 0
+    if ok.sum() < min_matches:
+        return None
+    j = assign[ok]
+    p = peak_ri[ok]
+    d = np.maximum(np.maximum(lib_lo[j] - p, p - lib_hi[j]), 0.0)
+    a = size[ok]
+    big = a >= np.median(a)
+    s_hat = 1.4826 * float(np.median(d[big]))
+    if not np.isfinite(s_hat) or s_hat <= 0:
+        return None
+    sigma = inflate * s_hat
+    window = float(np.clip(width * sigma, 0.5 * tol, 2.0 * tol))
+    return window, min(sigma, window / 2.0) if window < width * sigma else sigma
 
 
 def _mark_alkanes(table: pd.DataFrame, markers: dict[int, float], n_alkanes: dict[int, str],
@@ -653,6 +730,11 @@ def _find_scale(table: pd.DataFrame, library: Any, s: dict[str, Any], lib: pd.Da
         return None, ""
     warnings.append("n-alkane markers found automatically: " + ", ".join(
         f"C{c} {t:.2f} min" for c, t in sorted(found.markers.items())) + "; check them")
+    if not float(s.get("isothermal_until_min", 0.0) or 0.0) > 0:
+        warnings.append("no isothermal hold set ([identify] isothermal_until_min = 0): the "
+                        "marker search and the indices assume a fully temperature-programmed "
+                        "run; if the method starts with a hold, set its end (and "
+                        "holdup_time_min), or the markers and indices there are wrong")
     return found, "automatic search"
 
 

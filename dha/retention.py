@@ -659,7 +659,7 @@ def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, size:
                   full, s: Mapping[str, Any], first: float, carbon_range: tuple[int, int],
                   n_try: int = 4, rise: float = 0.08, hold_dev: float = 0.05,
                   prog_range=(0.7, 1.02), prog_drop: float = 0.1,
-                  settled=(-0.03, 0.05), min_gain: float = 0.0,
+                  settled=(-0.03, 0.05), min_gain: float = -0.5,
                   min_size: float = 0.1) -> dict[int, float]:
     """Grow a marker chain one n-alkane at a time at either end (see :func:`find_markers`).
 

@@ -189,29 +189,43 @@ def _accuracies(lib, sd, drift, tol, seeds=(0, 1)):
     return out
 
 
+# The carbon-number prior and the adapted index window (dha.identify) were chosen on seeds
+# 100-105; the figures below are on seeds 0-9 (asserted on 0-1 to keep the tests fast).
+
 def test_unnamed_runs_resolvable_library_sigma_0_5(lib):
     # Target of issue 5: >= 99 % of the mass identified at index noise sd 0.5. Met where the
-    # library's entries are resolvable (>= 2 index units apart, 4 sd): measured 0.992-1.000
+    # library's entries are resolvable (>= 2 index units apart, 4 sd): seeds 0-9 mean 0.995
+    # (one run 0.962); seeds 0-1 0.993-1.000
     acc = _accuracies(_resolvable(lib), 0.5, 0.0, 3.0)
     assert np.mean(list(acc.values())) >= 0.99, acc
     assert min(acc.values()) >= 0.985, acc
 
 
 def test_unnamed_runs_resolvable_library_sigma_1_5_drift(lib):
-    # Target of issue 5: >= 97 % at sd 1.5 with 0.5 % drift. NOT met: measured mean ~0.97,
-    # single runs down to ~0.83 when a large component lands 2 sd off and a neighbour is
-    # nearer (window widened to 3 sd, ri_tolerance 4.5). Asserted: what the method achieves.
+    # Target of issue 5: >= 97 % at sd 1.5 with 0.5 % drift. Met on average on the resolvable
+    # library (seeds 0-9 mean 0.971), not in every run (down to 0.887 when a large component
+    # lands 2 sd off and a neighbour is nearer). Seeds 0-1: mean 0.981, min 0.969.
     acc = _accuracies(_resolvable(lib), 1.5, 0.5, 4.5)
-    assert np.mean(list(acc.values())) >= 0.93, acc
+    assert np.mean(list(acc.values())) >= 0.96, acc
 
 
 def test_unnamed_runs_shipped_library_sigma_0_5(lib):
     # With every shipped entry (estimated indices, median spacing ~1 index unit, 2x denser
-    # than sd 0.5 noise resolves) the 99 % target is NOT met: a nearer absent component often
-    # takes a peak. Measured 0.955-0.993 over seeds 0-3; asserted what the method achieves.
+    # than sd 0.5 noise resolves) the 99 % target is NOT met: a nearer absent component
+    # sometimes takes a peak. Seeds 0-9: mean 0.984, min 0.948; seeds 0-1: mean 0.986,
+    # min 0.982 (before the carbon-number prior and the adapted window: mean 0.977).
     acc = _accuracies(lib, 0.5, 0.0, 3.0)
-    assert np.mean(list(acc.values())) >= 0.96, acc
-    assert min(acc.values()) >= 0.94, acc
+    assert np.mean(list(acc.values())) >= 0.975, acc
+    assert min(acc.values()) >= 0.97, acc
+
+
+def test_unnamed_runs_shipped_library_sigma_1_5_drift(lib):
+    # Issue 5's 97 % at sd 1.5 with 0.5 % drift is NOT met on the shipped library: seeds 0-9
+    # mean 0.918, min 0.808 (true markers given; before the carbon-number prior and the
+    # adapted window: 0.80-0.96). Seeds 0-1: mean 0.922, min 0.867.
+    acc = _accuracies(lib, 1.5, 0.5, 3.0)
+    assert np.mean(list(acc.values())) >= 0.90, acc
+    assert min(acc.values()) >= 0.85, acc
 
 
 def test_identify_is_order_preserving_and_one_to_one(lib):
@@ -220,7 +234,9 @@ def test_identify_is_order_preserving_and_one_to_one(lib):
     out = identify(peaks, lib, _settings(markers=_alkane_markers(truth, lib)))
     ri = out[out["match"] == "retention_index"]
     assert not out.loc[out["component"].notna()].duplicated("component").any()
-    assert (ri["ri_delta"].abs() <= 3.0 + 1e-9).all()
+    # within the window used (the set 3.0, or the one adapted to the run's spread)
+    assert (ri["ri_delta"].abs() <= out.attrs["ri_tolerance"] + 1e-9).all()
+    assert 1.5 <= out.attrs["ri_tolerance"] <= 6.0
     # unknowns carry the carbon number of their n-alkane bracket: ceil(I / 100)
     # (between n-C6 and n-C7 -> C7; common practice, no source)
     unk = out[out["match"] == "unidentified"]
@@ -270,17 +286,22 @@ def _true_marker_times(peaks, truth, lib):
     return out
 
 
+def _markers_correct(found, true):
+    return set(range(5, 9)) <= set(found) and all(abs(true.get(c, -1.0) - t) < 1e-9
+                                                  for c, t in found.items())
+
+
 def test_automatic_markers_on_unnamed_petrols(lib):
     # Issue 5: n-alkane markers found automatically on unnamed runs of ordinary petrols
     # (reformate-, alkylate-, E10-type; index noise sd 0.5, 0.5 % retention-time drift). The
-    # search (dha.retention.find_markers) was tuned on seeds 100-109 (29/30 correct there);
+    # search (dha.retention.find_markers) was tuned on seeds 100-109 (30/30 correct there);
     # these are seeds 0-9. Measured: 30/30 runs with every reported marker on its n-alkane's
     # peak and C5-C8 among them (the issue's requirement: met on these seeds). The search
-    # often stops before the small late n-alkanes (C10, C11), so peaks beyond the last marker
-    # are indexed by extrapolation: mass identified correctly with the found markers, mean
-    # 0.981 / 0.977 / 0.964 (reformate / alkylate / E10) against 0.983 / 0.975 / 0.975 with all
-    # true markers; largest loss in one run 0.033. Asserted: markers all correct, loss <= 0.04
-    # per run, mean >= 0.96.
+    # sometimes stops before the small late n-alkanes (C10, C11), so peaks beyond the last
+    # marker are indexed by extrapolation: mass identified correctly with the found markers,
+    # mean 0.987 / 0.976 / 0.983 (reformate / alkylate / E10) against 0.987 / 0.978 / 0.986
+    # with all true markers; largest loss in one run 0.012. Asserted: markers all correct,
+    # loss <= 0.02 per run, mean >= 0.975.
     bad, acc = [], []
     for kind in EXAMPLE_KINDS:
         comp = example_composition(kind, lib)
@@ -288,15 +309,29 @@ def test_automatic_markers_on_unnamed_petrols(lib):
             peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=0.5, drift_pct=0.5)
             out = identify(peaks, lib, _settings())
             assert any("found automatically" in w for w in out.attrs["warnings"])
-            true = _true_marker_times(peaks, truth, lib)
             found = out.attrs["markers"]
-            if not (set(range(5, 9)) <= set(found)
-                    and all(abs(true.get(c, -1.0) - t) < 1e-9 for c, t in found.items())):
+            if not _markers_correct(found, _true_marker_times(peaks, truth, lib)):
                 bad.append((kind, seed, found))
                 continue
             ref = identify(peaks, lib, _settings(markers=_alkane_markers(truth, lib)))
             acc.append(identification_accuracy(out, truth))
-            if acc[-1] < identification_accuracy(ref, truth) - 0.04:
+            if acc[-1] < identification_accuracy(ref, truth) - 0.02:
                 bad.append((kind, seed, "accuracy", acc[-1]))
     assert not bad, bad
-    assert np.mean(acc) >= 0.96, acc
+    assert np.mean(acc) >= 0.975, acc
+
+
+def test_automatic_markers_with_index_noise_1_5(lib):
+    # Issue 5 asks the marker search to work also at index noise sd 1.5 with 0.5 % drift. NOT
+    # met on every run: in a library this crowded (median spacing ~1 index unit) an index
+    # scale shifted by a homologous series scores nearly as well as the true one. Measured on
+    # seeds 0-9 (tuned on 100-109, 22/30 there): reformate 9/10, alkylate 6/10, E10 9/10
+    # marker sets correct. Asserted: at least 21 of 30 (the rate achieved, minus one run).
+    good = 0
+    for kind in EXAMPLE_KINDS:
+        comp = example_composition(kind, lib)
+        for seed in range(10):
+            peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=1.5, drift_pct=0.5)
+            found = identify(peaks, lib, _settings()).attrs["markers"]
+            good += _markers_correct(found, _true_marker_times(peaks, truth, lib))
+    assert good >= 21, good

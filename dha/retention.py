@@ -442,27 +442,37 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
        programme over states (label n, peak as n-alkane n - 1, peak as n-alkane n) finds
        labelled chains whose spacings obey the physics of the run and whose brackets index
        the peaks between them onto library entries. Spacing rules, with
-       ``q = ln((t_(n+1) - t_n) / (t_n - t_(n-1)))``: inside an isothermal hold the adjusted
+       ``q = ln((t_(n+1) - t_n) / (t_n - t_(n-1)))``: inside the isothermal hold the adjusted
        times are geometric (Kovats), so consecutive spacings grow by a constant factor
-       (``|q - q_prev| <= 0.05``, ``q >= ln 1.3``); under a temperature programme the spacing
-       changes slowly (``0.7 <= e^q <= 1.1``, ``-0.1 <= q - q_prev``); everywhere q never
-       rises by more than 0.08 from one step to the next (a peak wrongly taken into the
-       series makes a short spacing followed by a long one). A bracket (a, b) labelled n
-       scores ``sum over library entries hit of the best w_p g(I_p)`` minus
-       ``sum_p w_p gbar_n`` (``g = max(0, 1 - (d/tol)^2)``, d the distance to the nearest
-       library index, ``gbar_n`` the mean of g over the hundred; peaks sharing their nearest
-       entry count once; ``w = ln(1 + size / median)``), so a bracket of the wrong width or
-       label scores about zero; each marker earns ``0.5 w`` (n-alkanes are tall peaks).
+       (``|q - q_prev| <= 0.05``, ``q >= ln 1.3``) equal to the ratio of adjusted times, and
+       with a known hold-up time that ratio per CH2 lies in 1.5-4 (from memory: about 2.5-3
+       for n-alkanes on methylsilicone near 35 degC); the spacing after an n-alkane eluting
+       after the hold is at most 1.1 x the one before it; under the programme the spacing
+       shrinks slowly (``0.7 <= e^q <= 1.02``; once shrinking,
+       ``-0.03 <= q - q_prev <= 0.05``); everywhere q never rises by more than 0.08 from one
+       step to the next (a peak wrongly taken into the series makes a short spacing followed
+       by a long one). The rules are those of linear temperature programmes (from memory);
+       a programme with several ramps or a late hold breaks the "settled" rule. A bracket
+       (a, b) labelled n scores ``sum over library entries hit of the best w_p g(I_p)``
+       minus ``sum_p w_p gbar_n`` (``g = max(0, 1 - (d/tol)^2)``, d the distance to the
+       nearest library index, ``gbar_n`` the mean of g over the hundred; peaks sharing their
+       nearest entry count once; ``w = ln(1 + size / median)``; the ``n_score`` largest
+       peaks), so a bracket of the wrong width or label scores about zero; each marker earns
+       ``0.5 w`` (n-alkanes are tall peaks).
     2. The ``n_final`` best distinct chains, each also without its first or last member, are
        compared by the one-to-one alignment (:func:`align_indices`, with ``lib_bonus`` and
        size weights) of the ``n_score`` largest peaks indexed with them.
-    3. Extension: the best chain grows one n-alkane at a time at either end, taking the peak
-       nearest the extrapolated time (:func:`extend_markers`, within 6 % of the last spacing)
-       when it raises the full alignment score; small first and late n-alkanes are found
-       this way.
+    3. Extension (:func:`_extend_chain`): the best chain grows one n-alkane at a time at
+       either end, among the peaks the spacing rules allow there and at least 0.1 x the end
+       marker's area, judged by the alignment of the peaks up to (down to) the new marker
+       only (beyond it both hypotheses merely extrapolate); small first and late n-alkanes
+       are found this way.
     With an isothermal hold but no hold-up time set, the programme runs twice: the second
-    time with ``t_M`` from the first chain's hold markers (:func:`estimate_holdup`). The
-    search is a heuristic: the identify step lists the markers it found in a warning.
+    time with ``t_M`` from the first chain's hold markers (:func:`estimate_holdup`). Without
+    ``isothermal_until_min`` the hold is not detected: a run with a hold then gives wrong
+    markers. The search is a heuristic: the identify step lists the markers it found in a
+    warning. Measured on synthetic petrol runs (tests/test_identify.py): markers right in
+    30/30 runs at index noise sd 0.5 with 0.5 % drift, 24/30 at sd 1.5.
     """
     s = settings or {}
     rt = np.asarray(rt_min, dtype=float)

@@ -731,10 +731,15 @@ def _find_scale(table: pd.DataFrame, library: Any, s: dict[str, Any], lib: pd.Da
     warnings.append("n-alkane markers found automatically: " + ", ".join(
         f"C{c} {t:.2f} min" for c, t in sorted(found.markers.items())) + "; check them")
     if not float(s.get("isothermal_until_min", 0.0) or 0.0) > 0:
-        warnings.append("no isothermal hold set ([identify] isothermal_until_min = 0): the "
-                        "marker search and the indices assume a fully temperature-programmed "
-                        "run; if the method starts with a hold, set its end (and "
-                        "holdup_time_min), or the markers and indices there are wrong")
+        if found.isothermal_until_min > 0:
+            warnings.append(
+                f"isothermal hold inferred from the n-alkanes: Kovats indices up to "
+                f"{found.isothermal_until_min:.2f} min, hold-up time {found.holdup_time_min:.2f} "
+                "min; set [identify] isothermal_until_min and holdup_time_min to the method's")
+        else:
+            warnings.append("no isothermal hold set or found ([identify] isothermal_until_min "
+                            "= 0): indices assume a fully temperature-programmed run; if the "
+                            "method starts with a hold, set its end and holdup_time_min")
     return found, "automatic search"
 
 

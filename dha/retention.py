@@ -406,7 +406,9 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
                  settings: Mapping[str, Any] | None = None, *,
                  alkane_carbons: list[int] | None = None, n_candidates: int = 48,
                  n_score: int = 200, n_final: int = 6,
-                 lib_bonus: np.ndarray | None = None) -> IndexScale | None:
+                 lib_bonus: np.ndarray | None = None,
+                 hold_factors: tuple = (2.0, 3.0, 4.5),
+                 holdup_factors: tuple = (0.8, 0.85, 0.9, 0.95)) -> IndexScale | None:
     """Find the n-alkane markers of an unnamed run.
 
     Parameters
@@ -469,10 +471,14 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
        are found this way.
     With an isothermal hold but no hold-up time set, the programme runs twice: the second
     time with ``t_M`` from the first chain's hold markers (:func:`estimate_holdup`). Without
-    ``isothermal_until_min`` the hold is not detected: a run with a hold then gives wrong
-    markers. The search is a heuristic: the identify step lists the markers it found in a
+    ``isothermal_until_min`` (and ``detect_hold`` true) holds ending at ``hold_factors`` x the
+    first peak's time are tried besides none, each scored by its best two core chains (step
+    1-2); for a hold found, hold-up times of ``holdup_factors`` x the first peak's time are
+    tried the same way (the first peaks of petrol, C3/C4, are barely retained: common
+    practice, no source); the best setting gets the full search, and the returned scale
+    carries the hold and the hold-up time (from three n-alkanes in the hold when found). The search is a heuristic: the identify step lists the markers it found in a
     warning. Measured on synthetic petrol runs (tests/test_identify.py): markers right in
-    30/30 runs at index noise sd 0.5 with 0.5 % drift, 24/30 at sd 1.5.
+    30/30 runs at index noise sd 0.5 with 0.5 % drift, 24/30 at sd 1.5 (hold given).
     """
     s = settings or {}
     rt = np.asarray(rt_min, dtype=float)
@@ -497,6 +503,54 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
     look = _Lookup(lib, tolerance, 100.0 * (carbons[0] - 1), 100.0 * (carbons[-1] + 2))
     cand = np.sort(np.argsort(-sz, kind="stable")[: min(n_candidates, n_pk)])
     t_top, w_top = rt[top], 1.0 + w_all[top]
+    cand_top = np.searchsorted(top, cand)     # the candidates are among the n_score largest
+    hypotheses = [dict(s)]
+    if iso <= 0 and s.get("detect_hold", True):
+        hypotheses += [{**s, "isothermal_until_min": first * f} for f in hold_factors]
+    args = (rt, sz, first, top, t_top, w_top, w_all, cand_top, look, lib, bonus, tolerance,
+            carbons, n_final)
+    q_args = args
+    s_cache: dict = {}
+    chosen = hypotheses[0]
+    if len(hypotheses) > 1:
+        # hold hypotheses compared by their best core chains; the winner's hold-up time
+        # is tried on a grid below the first peak (unless set)
+        scored = [(_search_one(s_h, *q_args, quick=True, s_cache=s_cache)[0], k)
+                  for k, s_h in enumerate(hypotheses)]
+        best_sc, k = max(scored)
+        chosen = hypotheses[k]
+        if _TRACE:
+            print("hold hypotheses", [(round(h.get("isothermal_until_min"), 2), round(sc, 1))
+                                      for (sc, _), h in zip(scored, hypotheses)])
+        if k > 0 and tm_set <= 0:
+            for f in holdup_factors:
+                s_h = {**chosen, "holdup_time_min": first * f}
+                sc = _search_one(s_h, *q_args, quick=True, s_cache=s_cache)[0]
+                if sc > best_sc:
+                    best_sc, chosen = sc, s_h
+    sc, markers = _search_one(chosen, *args, s_cache=s_cache)
+    if markers is None:
+        return None
+    if chosen is not hypotheses[0] and tm_set <= 0:
+        # a hold-up time from three consecutive n-alkanes in the hold beats the grid value
+        tm_est = estimate_holdup(markers, float(chosen["isothermal_until_min"]), None)
+        if tm_est > 0:
+            chosen = {**chosen, "holdup_time_min": tm_est}
+    return make_scale(markers, chosen, first)
+
+
+def _search_one(s: Mapping[str, Any], rt: np.ndarray, sz: np.ndarray, first: float,
+                top: np.ndarray, t_top: np.ndarray, w_top: np.ndarray, w_all: np.ndarray,
+                cand_top: np.ndarray, look: _Lookup, lib: np.ndarray, bonus, tolerance: float,
+                carbons: list[int], n_final: int, quick: bool = False,
+                s_cache: dict | None = None) -> tuple[float, dict[int, float] | None]:
+    """Steps 1-3 of :func:`find_markers` under one hold setting: (full score, markers).
+
+    ``quick``: the best two core chains only, without variants or extension (to compare
+    hold hypotheses).
+    """
+    iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
+    tm_set = float(s.get("holdup_time_min", 0.0) or 0.0)
     cache: dict[tuple, float] = {}
 
     def full(m: Mapping[int, float], part: tuple[float, float] | None = None) -> float:
@@ -514,21 +568,22 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
         return sc
 
     tm = tm_set if tm_set > 0 else first * 0.999
-    # the bracket scores use the n_score largest peaks (the candidates are among them)
-    cand_top = np.searchsorted(top, cand)
+    if quick:
+        n_final = 2
     chains = _chain_dp(t_top, cand_top, w_all[top], look, carbons, iso, tm, n_final,
-                       geometric_check=tm_set > 0)
+                       geometric_check=tm_set > 0, s_cache=s_cache)
     if iso > 0 and tm_set <= 0 and chains:
         tm2 = estimate_holdup(chains[0], iso, first)
         if abs(tm2 - tm) > 1e-3 * tm:
-            chains = _chain_dp(t_top, cand_top, w_all[top], look, carbons, iso, tm2, n_final)
+            chains = _chain_dp(t_top, cand_top, w_all[top], look, carbons, iso, tm2, n_final,
+                               s_cache=s_cache)
     if not chains:
-        return None
+        return -np.inf, None
     best_sc, best = -np.inf, None
     for ch in chains:
         keys = sorted(ch)
         variants = [keys]
-        if len(keys) > 3:
+        if len(keys) > 3 and not quick:
             variants += [keys[1:], keys[:-1]]
         for sub in variants:
             m = {c: ch[c] for c in sub}
@@ -536,25 +591,21 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
             if sc > best_sc:
                 best_sc, best = sc, m
     if best is None:
-        return None
+        return -np.inf, None
+    if quick:
+        return best_sc, best
     markers = _extend_chain(best, best_sc, rt, sz, full, s, first, (carbons[0], carbons[-1]))
-    return make_scale(markers, s, first)
+    return full(markers), markers
 
 
-def _chain_dp(rt: np.ndarray, cand: np.ndarray, w_all: np.ndarray, look: _Lookup,
-              carbons: list[int], iso: float, tm: float, n_final: int,
-              rise: float = 0.08, hold_dev: float = 0.05, prog_range=(0.7, 1.02),
-              prog_drop: float = 0.1, settled=(-0.03, 0.05), after_hold_max: float = 1.1,
-              geometric_check: bool = False, beta_range=(1.5, 4.0),
-              smooth_weight: float = 20.0) -> list[dict[int, float]]:
-    """The best labelled n-alkane chains among the candidate peaks (see :func:`find_markers`)."""
-    k = len(cand)
+def _bracket_scores(rt: np.ndarray, tc: np.ndarray, jj: np.ndarray, ii: np.ndarray,
+                    w_all: np.ndarray, look: _Lookup, carbons: list[int], iso: float,
+                    tm: float) -> np.ndarray:
+    """Scores (labels, pairs) of brackets (tc[jj], tc[ii]) (see :func:`find_markers`, step 1)."""
     n_lab = len(carbons)
-    if k < 3 or n_lab < 3:
-        return []
-    tc = rt[cand]
-    # bracket scores S[li, a, b]: peaks strictly between candidates a < b indexed as (n, n+1)
-    jj, ii = np.triu_indices(k, 1)
+    out = np.full((n_lab, len(jj)), -np.inf)
+    if len(jj) == 0:
+        return out
     lo = np.searchsorted(rt, tc[jj], side="right")
     hi = np.searchsorted(rt, tc[ii], side="left")
     cnt = np.maximum(hi - lo, 0)
@@ -568,10 +619,45 @@ def _chain_dp(rt: np.ndarray, cand: np.ndarray, w_all: np.ndarray, look: _Lookup
             fl = np.log((t_in - tm) / (t_a - tm)) / np.log((t_b - tm) / (t_a - tm))
         frac = np.where((t_b <= iso) & np.isfinite(fl), fl, frac)
     w_in = w_all[members]
-    S = np.full((n_lab, k, k), -np.inf)
     for li, n in enumerate(carbons[:-1]):
         g, near, base = look.at(100.0 * (n + frac))
-        S[li, jj, ii] = _grouped_score(pair_of, near, w_in * g, w_in * base, len(jj))
+        out[li] = _grouped_score(pair_of, near, w_in * g, w_in * base, len(jj))
+    return out
+
+
+def _chain_dp(rt: np.ndarray, cand: np.ndarray, w_all: np.ndarray, look: _Lookup,
+              carbons: list[int], iso: float, tm: float, n_final: int,
+              rise: float = 0.08, hold_dev: float = 0.05, prog_range=(0.7, 1.02),
+              prog_drop: float = 0.1, settled=(-0.03, 0.05), after_hold_max: float = 1.1,
+              geometric_check: bool = False, beta_range=(1.5, 4.0),
+              smooth_weight: float = 20.0, s_cache: dict | None = None
+              ) -> list[dict[int, float]]:
+    """The best labelled n-alkane chains among the candidate peaks (see :func:`find_markers`)."""
+    k = len(cand)
+    n_lab = len(carbons)
+    if k < 3 or n_lab < 3:
+        return []
+    tc = rt[cand]
+    # bracket scores S[li, a, b]: peaks strictly between candidates a < b indexed as (n, n+1);
+    # the linear ones do not depend on the hold and are kept in s_cache between calls
+    key = (cand.tobytes(), len(rt))
+    if s_cache is not None and key in s_cache:
+        S = s_cache[key].copy()
+        if iso > 0 and tm > 0:
+            jj, ii = np.triu_indices(k, 1)
+            hold = tc[ii] <= iso
+            jj, ii = jj[hold], ii[hold]
+            S[:, jj, ii] = _bracket_scores(rt, tc, jj, ii, w_all, look, carbons, iso, tm)
+    else:
+        jj, ii = np.triu_indices(k, 1)
+        S = np.full((n_lab, k, k), -np.inf)
+        S[:, jj, ii] = _bracket_scores(rt, tc, jj, ii, w_all, look, carbons, 0.0, 0.0)
+        if s_cache is not None:
+            s_cache[key] = S.copy()
+        if iso > 0 and tm > 0:
+            hold = tc[ii] <= iso
+            S[:, jj[hold], ii[hold]] = _bracket_scores(rt, tc, jj[hold], ii[hold], w_all, look,
+                                                       carbons, iso, tm)
     own = 0.5 * w_all[cand]
     D = tc[None, :] - tc[:, None]                               # D[a, b] = t_b - t_a
     with np.errstate(divide="ignore", invalid="ignore"):

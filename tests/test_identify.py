@@ -326,12 +326,33 @@ def test_automatic_markers_with_index_noise_1_5(lib):
     # met on every run: in a library this crowded (median spacing ~1 index unit) an index
     # scale shifted by a homologous series scores nearly as well as the true one. Measured on
     # seeds 0-9 (tuned on 100-109, 22/30 there): reformate 9/10, alkylate 6/10, E10 9/10
-    # marker sets correct. Asserted: at least 21 of 30 (the rate achieved, minus one run).
+    # marker sets correct; on seeds 0-4 (run here): 4/5, 3/5, 5/5. Asserted: at least 11 of
+    # 15 (the rate achieved, minus one run).
     good = 0
     for kind in EXAMPLE_KINDS:
         comp = example_composition(kind, lib)
-        for seed in range(10):
+        for seed in range(5):
             peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=1.5, drift_pct=0.5)
             found = identify(peaks, lib, _settings()).attrs["markers"]
             good += _markers_correct(found, _true_marker_times(peaks, truth, lib))
-    assert good >= 21, good
+    assert good >= 11, good
+
+
+def test_isothermal_hold_found_when_not_set(lib):
+    # The example runs' method (35 degC hold 15 min) is not in the default settings: the
+    # automatic search tries holds ([identify] detect_hold) and must find the markers and a
+    # hold that ends between n-C6 and n-C7 (the synthetic runs' hold ends at 15 min). Seeds
+    # 0-9 at sd 0.5 + 0.5 % drift: 30/30 marker sets right (tested here on 0-2); at sd 1.5:
+    # 21/30. A fully programmed run (no hold) must not get one.
+    for kind in EXAMPLE_KINDS:
+        comp = example_composition(kind, lib)
+        for seed in range(3):
+            peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=0.5, drift_pct=0.5)
+            out = identify(peaks, lib, default_settings())
+            found = out.attrs["markers"]
+            assert _markers_correct(found, _true_marker_times(peaks, truth, lib)), (kind, seed)
+            assert any("isothermal hold inferred" in w for w in out.attrs["warnings"])
+        peaks, truth = synthetic_run(comp, lib, seed=0, index_noise_sd=0.5,
+                                     programme={"hold_min": 0.0})
+        out = identify(peaks, lib, default_settings())
+        assert not any("isothermal hold inferred" in w for w in out.attrs["warnings"]), kind

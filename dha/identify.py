@@ -694,6 +694,23 @@ def _coelution_partners(library: Any, used: set) -> dict[str, str]:
     return out
 
 
+def _with_hold(markers: dict[int, float], s: dict[str, Any], first: float | None,
+               warnings: list[str]) -> dict[str, Any]:
+    """Settings with the isothermal hold the markers show, when none is set (detect_hold)."""
+    from dha import retention as rx
+
+    if float(s.get("isothermal_until_min", 0.0) or 0.0) > 0 or not s.get("detect_hold", True):
+        return s
+    hold = rx.infer_hold(markers, first)
+    if hold is None:
+        return s
+    end, tm = hold
+    warnings.append(f"isothermal hold inferred from the n-alkanes: Kovats indices up to "
+                    f"{end:.2f} min, hold-up time {tm:.2f} min; set [identify] "
+                    "isothermal_until_min and holdup_time_min to the method's")
+    return {**s, "isothermal_until_min": end, "holdup_time_min": tm}
+
+
 def _find_scale(table: pd.DataFrame, library: Any, s: dict[str, Any], lib: pd.DataFrame,
                 size: np.ndarray, warnings: list[str]):
     """The rt -> index scale: user markers, named n-alkanes, or the automatic search."""
@@ -703,7 +720,8 @@ def _find_scale(table: pd.DataFrame, library: Any, s: dict[str, Any], lib: pd.Da
     first = float(np.nanmin(rt)) if len(rt) else None
     user = rx.parse_markers(s.get("markers"))
     if len(user) >= 2:
-        return rx.make_scale(user, s, first), "identify.markers"
+        return rx.make_scale(user, _with_hold(user, s, first, warnings), first), \
+            "identify.markers"
     index = _index_for(library)
     alk = {v: k for k, v in index.n_alkanes.items()}
     named = {}
@@ -720,7 +738,8 @@ def _find_scale(table: pd.DataFrame, library: Any, s: dict[str, Any], lib: pd.Da
             else:
                 warnings.append(f"n-alkane C{c} named at {t:g} min is out of order; not used as marker")
         if len(keep) >= 2:
-            return rx.make_scale(dict(keep), s, first), "named n-alkanes"
+            return rx.make_scale(dict(keep), _with_hold(dict(keep), s, first, warnings),
+                                 first), "named n-alkanes"
     bonus = np.where(lib["ri_kind"].to_numpy() == "learnt", float(s.get("learnt_prior", 3.0)),
                      0.0) + _group_prior(library, lib["name"].to_numpy(), s)
     found = rx.find_markers(rt, size, lib["retention_index"].to_numpy(dtype=float),

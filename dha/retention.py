@@ -209,6 +209,47 @@ def extend_markers(markers: Mapping[int, float], isothermal_until_min: float = 0
     return {k: v for k, v in out.items() if k >= 1}
 
 
+def infer_hold(markers: Mapping[int, float], first_peak_min: float | None = None,
+               ratio_range=(1.5, 4.0), max_dev: float = 0.05) -> tuple[float, float] | None:
+    """(end [min], hold-up time [min]) of an isothermal hold the n-alkane times show, or None.
+
+    In a hold the adjusted times of consecutive n-alkanes are geometric (Kovats), so their
+    spacings grow by a constant factor. The hold is the longest run of consecutive markers
+    from the first whose spacing ratios lie in ``ratio_range`` and agree within ``max_dev``
+    in ln; at least four markers (two ratios) are needed. The hold is taken to end just after
+    its last marker (the bracket beyond is then linear); the hold-up time comes from
+    :func:`estimate_holdup` and must lie before the first peak.
+
+    >>> end, tm = infer_hold({3: 4.397, 4: 5.091, 5: 7.0, 6: 12.25, 7: 23.4, 8: 34.7})
+    >>> round(end, 2), round(tm, 2)
+    (12.25, 4.0)
+    """
+    items = sorted((int(c), float(t)) for c, t in markers.items())
+    if len(items) < 4:
+        return None
+    c = [x for x, _ in items]
+    t = [y for _, y in items]
+    ratios = []
+    for k in range(1, len(t) - 1):
+        if c[k + 1] - c[k - 1] != 2:
+            break
+        d0, d1 = t[k] - t[k - 1], t[k + 1] - t[k]
+        r = d1 / d0 if d0 > 0 else np.inf
+        if not ratio_range[0] <= r <= ratio_range[1]:
+            break
+        if ratios and abs(np.log(r) - np.log(ratios[0])) > max_dev:
+            break
+        ratios.append(r)
+    if len(ratios) < 2:
+        return None
+    end = t[len(ratios) + 1] * (1.0 + 1e-6)
+    tm = estimate_holdup(dict(items[: len(ratios) + 2]), end, None)
+    first = min(t[0], first_peak_min) if first_peak_min is not None else t[0]
+    if not 0 < tm < first:
+        return None
+    return end, tm
+
+
 def make_scale(markers: Mapping[int, float], settings: Mapping[str, Any] | None = None,
                first_peak_min: float | None = None, extend: int = 2) -> IndexScale:
     """An :class:`IndexScale` from markers and the ``[identify]`` settings section.

@@ -356,3 +356,34 @@ def test_isothermal_hold_found_when_not_set(lib):
                                      programme={"hold_min": 0.0})
         out = identify(peaks, lib, default_settings())
         assert not any("isothermal hold inferred" in w for w in out.attrs["warnings"]), kind
+
+
+def test_learn_then_identify_with_default_settings(lib, tmp_path):
+    # The whole lab workflow without any method settings: a named reference run is learnt
+    # (its hold is inferred from the named n-alkanes, retention.infer_hold), a later unnamed
+    # run of the same column (run-to-run sd 0.1, 0.3 % drift) is identified with the learnt
+    # overlay and automatic markers (hold found by the search). Issue 5's 99 % target is met
+    # here: measured 0.997-0.998 on seeds 2-4 (asserted on seed 2).
+    from dha.retention import learn_indices, write_index_overlay
+    comp = example_composition("reformate", lib)
+    kw = dict(column_sd=1.5, column_seed=11, index_noise_sd=0.1)
+    ref, _ = synthetic_run(comp, lib, seed=1, names=True, **kw)
+    write_index_overlay(learn_indices([("REF-1", ref)], lib, default_settings()),
+                        tmp_path / "lab", runs=["REF-1"])
+    lab = load_library(tmp_path / "lab")
+    run, truth = synthetic_run(comp, lib, seed=2, drift_pct=0.3, **kw)
+    out = identify(run, lab, default_settings())
+    assert any("isothermal hold inferred" in w for w in out.attrs["warnings"])
+    assert identification_accuracy(out, truth) >= 0.99
+
+
+def test_infer_hold_needs_a_geometric_series():
+    from dha.retention import infer_hold
+    # n-alkane times of dha.synthetic's default programme (35 degC hold 15 min, t_M 4 min):
+    # adjusted times 0.397, 1.091, 3.0, 8.25 min grow by 2.75 per CH2 (Kovats: log t' linear
+    # in carbon number), n-C7 elutes after the hold
+    end, tm = infer_hold({3: 4.397, 4: 5.091, 5: 7.0, 6: 12.25, 7: 23.4, 8: 34.7})
+    assert tm == pytest.approx(4.0, abs=0.01)
+    assert 12.25 <= end < 23.4
+    # a fully programmed series (spacings nearly equal) has no hold
+    assert infer_hold({5: 10.0, 6: 20.0, 7: 29.0, 8: 37.0}) is None

@@ -116,7 +116,8 @@ def accuracy(lib, seeds):
                         zip(truth["component"], truth["true_index"], truth["row"])
                         if c is not None and r == r
                         and lib.components.at[c, "group"] == "n_paraffins"}
-                ok += all(abs(true.get(c, -1.0) - t) < 1e-9 for c, t in out.attrs["markers"].items())
+                ok += all(abs(true.get(c, -1.0) - t) < 1e-9
+                          for c, t in out.attrs["markers"].items())
             print(f"  sd {sd} drift {drift} % {kind:10s} markers given: mean {np.mean(given):.3f} "
                   f"min {np.min(given):.3f} | automatic: mean {np.mean(auto):.3f} "
                   f"min {np.min(auto):.3f}, markers right {ok}/{len(seeds)}  "

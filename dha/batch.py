@@ -6,7 +6,8 @@ and returns one summary row per run. A run that cannot be processed becomes a su
 with ``status = "error"`` and its one-line message: a batch never stops for one bad file.
 
 Flags per run: every specification check that failed or is marginal
-(``benzene_vol_pct>1.0``, ``~ron<95.0`` for marginal), and ``poor-identification`` when
+(``benzene_vol_pct>1.0``, ``~ron<95.0`` for marginal; ``~e70_vol_pct(22..50)`` when the
+uncertainty spans both limits of a range), and ``poor-identification`` when
 the unidentified mass % exceeds ``[batch] unidentified_flag_mass_pct``.
 """
 from __future__ import annotations
@@ -85,11 +86,18 @@ def summary_row(result: dict[str, Any], library=None, unidentified_flag: float =
     sample = result.get("sample") or {}
     checks = result.get("checks") or []
     flags = []
+    marginal = {}
     for c in checks:
         if c["verdict"] == "fail":
             flags.append(f"{c['property']}{'<' if c['kind'] == 'min' else '>'}{c['limit']:g}")
         elif c["verdict"] == "marginal":
-            flags.append(f"~{c['property']}{'<' if c['kind'] == 'min' else '>'}{c['limit']:g}")
+            marginal.setdefault(c["property"], {})[c["kind"]] = c["limit"]
+    for prop, kinds in marginal.items():
+        if len(kinds) == 2:   # uncertainty wider than the whole range: one flag, not two
+            flags.append(f"~{prop}({kinds['min']:g}..{kinds['max']:g})")
+        else:
+            kind, limit = next(iter(kinds.items()))
+            flags.append(f"~{prop}{'<' if kind == 'min' else '>'}{limit:g}")
     unid = q.get("unidentified_mass_pct", (None, None))[0]
     if unid is not None and unid > unidentified_flag:
         flags.append("poor-identification")

@@ -28,10 +28,13 @@ def test_summary_row_flags():
               "oxygenates": [], "components": [],
               "checks": [{"property": "benzene_vol_pct", "kind": "max", "limit": 1.0, "verdict": "fail"},
                          {"property": "ron", "kind": "min", "limit": 95.0, "verdict": "marginal"},
-                         {"property": "mon", "kind": "min", "limit": 85.0, "verdict": "pass"}]}
+                         {"property": "mon", "kind": "min", "limit": 85.0, "verdict": "pass"},
+                         {"property": "e70_vol_pct", "kind": "min", "limit": 22.0, "verdict": "marginal"},
+                         {"property": "e70_vol_pct", "kind": "max", "limit": 50.0, "verdict": "marginal"}]}
     row = summary_row(result, None, unidentified_flag=5.0)
-    assert row["flags"].split() == ["benzene_vol_pct>1", "~ron<95", "poor-identification"]
-    assert row["checks_failed"] == 1 and row["checks_marginal"] == 1
+    assert row["flags"].split() == ["benzene_vol_pct>1", "~ron<95", "~e70_vol_pct(22..50)",
+                                    "poor-identification"]
+    assert row["checks_failed"] == 1 and row["checks_marginal"] == 3
 
 
 def test_batch_cli_writes_summary_and_keeps_going(tmp_path):

@@ -30,7 +30,7 @@ demo: $(STAMP_RUN)
 	$(BIN)/dha demo -o out/demo
 
 bench: $(STAMP_TEST)
-	for f in benchmarks/bench_*.py; do echo "== $$f"; $(BIN)/python $$f || exit 1; done
+	for f in benchmarks/*.py; do echo "== $$f"; $(BIN)/python $$f || exit 1; done
 
 clean:
 	rm -rf $(VENV) out .pytest_cache

@@ -5,6 +5,8 @@ from pathlib import Path
 
 import click
 
+from dha.commands.options import library_option, settings_option
+
 from dha import batch, specs
 from dha.settings import load_settings
 from dha.batch import quiet_run_warnings
@@ -19,10 +21,8 @@ from dha.batch import quiet_run_warnings
 @click.option("--spec", "spec", default=None, help="Specification profile (name or .toml path).")
 @click.option("--format", "formats", default="json", show_default=True,
               help="Per-run formats, comma separated: json, xlsx, pdf.")
-@click.option("--library", "library_dir", type=click.Path(file_okay=False, exists=True),
-              help="A lab library folder layered over the shipped library.")
-@click.option("--settings", "settings_file", type=click.Path(dir_okay=False, exists=True),
-              help="Settings TOML file (only the keys that differ from the defaults).")
+@library_option
+@settings_option
 @click.option("--overwrite", is_flag=True, help="Replace existing per-run outputs.")
 def batch_command(paths, out_dir, jobs, spec, formats, library_dir, settings_file, overwrite):
     """Process many runs (files, folders, globs) into one folder with a summary.

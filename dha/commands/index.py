@@ -5,6 +5,8 @@ from pathlib import Path
 
 import click
 
+from dha.commands.options import library_option, settings_option
+
 COMMANDS: list[click.Command] = []
 
 
@@ -18,10 +20,8 @@ def index_group() -> None:
                 type=click.Path(exists=True, dir_okay=False, path_type=Path))
 @click.option("-o", "--out-dir", required=True, type=click.Path(file_okay=False, path_type=Path),
               help="Folder to write the library overlay to.")
-@click.option("--library", "library_dir", type=click.Path(file_okay=False, path_type=Path),
-              help="Lab library overlay folder to read names from.")
-@click.option("--settings", "settings_file", type=click.Path(dir_okay=False, path_type=Path),
-              help="Settings file ([identify]: isothermal hold, hold-up time, markers).")
+@library_option
+@settings_option
 @click.option("--overwrite", is_flag=True, help="Replace an overlay that exists.")
 def learn_command(refruns, out_dir, library_dir, settings_file, overwrite) -> None:
     """Learn retention indices from named reference runs and write a library overlay.

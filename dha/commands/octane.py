@@ -7,6 +7,8 @@ from pathlib import Path
 
 import click
 
+from dha.commands.options import library_option, settings_option
+
 
 @click.group("octane")
 def octane_group() -> None:
@@ -51,10 +53,8 @@ def validate_command(details: Path | None) -> None:
               show_default=True,
               help="bias: + b (>= 3 samples); slope: a + b x (>= 5); groups: bias + "
                    "aromatics, olefins, naphthenes, oxygenates volume fractions (>= 11).")
-@click.option("--library", "library_dir", type=click.Path(exists=True, file_okay=False,
-              path_type=Path), default=None, help="Lab overlay folder of the library.")
-@click.option("--settings", "settings_file", type=click.Path(exists=True, dir_okay=False,
-              path_type=Path), default=None, help="Settings file ([octane] model).")
+@library_option
+@settings_option
 @click.option("--overwrite", is_flag=True, help="Replace an existing output file.")
 def calibrate_command(samples: Path, output: Path, kind: str, library_dir: Path | None,
                       settings_file: Path | None, overwrite: bool) -> None:

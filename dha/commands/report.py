@@ -6,6 +6,8 @@ from pathlib import Path
 
 import click
 
+from dha.commands.options import library_option, settings_option
+
 from dha.errors import DhaError, InputError
 
 log = logging.getLogger("dha.commands.report")
@@ -40,10 +42,8 @@ def _headline(result: dict) -> str:
               help="Comma-separated formats: json, xlsx, pdf (default: [report] formats).")
 @click.option("--spec", metavar="PROFILE",
               help="Specification profile name or .toml path (default: [report] spec).")
-@click.option("--library", "library_dir", type=click.Path(file_okay=False, path_type=Path),
-              help="Lab library overlay folder (same files as component_library/).")
-@click.option("--settings", "settings_file", type=click.Path(dir_okay=False, path_type=Path),
-              help="Settings TOML holding only the keys that differ from the defaults.")
+@library_option
+@settings_option
 @click.option("--overwrite", is_flag=True, help="Replace output files that exist.")
 @click.option("--strict", is_flag=True, help="Exit 3 when any specification check fails.")
 def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, overwrite,

@@ -216,13 +216,6 @@ def compute(composition: pd.DataFrame, library, settings: dict | None = None) ->
     result.values["net_heat_mj_kg"] = net
     result.uncertainty["net_heat_mj_kg"] = u_net
     co2 = (c_frac * M_CO2 / ATOMIC_WEIGHT["C"] * 1000.0 / net) if net else None
-    # extra property keys (beyond CONTRACT.md's), shown in the reports
-    result.values["gross_heat_mj_kg"] = heats["gross"][0]
-    result.uncertainty["gross_heat_mj_kg"] = heats["gross"][1]
-    result.values["carbon_mass_pct"] = 100.0 * c_frac
-    result.values["hydrogen_mass_pct"] = 100.0 * h_frac
-    result.values["co2_g_per_mj"] = co2
-    result.uncertainty["co2_g_per_mj"] = co2 * u_net / net if co2 else None
     result.details.update({
         "gross_heat_mj_kg": heats["gross"][0],
         "gross_heat_uncertainty_mj_kg": heats["gross"][1],

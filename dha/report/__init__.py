@@ -276,6 +276,17 @@ def warnings_about_checks(result: dict) -> list[str]:
     return [str(w) for w in result.get("warnings") or [] if "not checked" in str(w)]
 
 
+def carbon_label(value: Any) -> str:
+    """Label of a carbon-number bucket: the lowest bucket 3 also holds C1-C2 (dha.groups).
+
+    >>> carbon_label(3), carbon_label(7), carbon_label("13+")
+    ('≤C3', 'C7', 'C13+')
+    """
+    if is_number(value) and int(value) == 3:
+        return "≤C3"
+    return f"C{value}"
+
+
 def carbon_number_sort_key(value: Any) -> tuple[int, str]:
     """Sort key for carbon numbers that may be ints or a bucket text such as ``"13+"``.
 

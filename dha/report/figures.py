@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from matplotlib.figure import Figure
 
-from dha.report import BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, is_number
+from dha.report import BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, carbon_label, is_number
 from dha.report.excel import carbon_number_matrix
 
 #: One colour per group (our own palette: distinct in print and for common colour-blindness).
@@ -52,7 +52,7 @@ def plot_groups_by_carbon_number(result: dict, ax, basis: str = "vol_pct") -> li
                color=GROUP_COLOURS.get(g, "#444444"), edgecolor="white", linewidth=0.4)
         bottom = [b + h for b, h in zip(bottom, heights)]
     ax.set_xticks(x)
-    ax.set_xticklabels([f"C{cn}" for cn in order], fontsize=7)
+    ax.set_xticklabels([carbon_label(cn) for cn in order], fontsize=7)
     ax.tick_params(axis="y", labelsize=7)
     ax.set_xlabel("carbon number", fontsize=8)
     ax.set_ylabel(BASIS_UNITS.get(basis, basis), fontsize=8)

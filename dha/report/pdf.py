@@ -31,11 +31,12 @@ from matplotlib.patches import Rectangle
 
 from dha.errors import InputError
 from dha.report import (
-    AROMATICS_DETAIL_LABELS, BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, NULL_TEXT,
+    AROMATICS_DETAIL_LABELS, BASIS_UNITS, carbon_label, GROUP_KEYS, GROUP_LABELS, NULL_TEXT,
     RESPONSIBILITY_TEXT, VERDICT_WORDS, decimals_of, flatten_mapping, flatten_settings,
     fmt_number, headline_rows, is_number, mapping_table, property_keys, property_label,
     settings_digest, unit_of, warnings_about_checks,
 )
+from dha.properties import PROPERTY_KEYS
 from dha.report.excel import carbon_number_matrix
 from dha.report.figures import plot_groups_by_carbon_number
 
@@ -519,6 +520,10 @@ def _text_value(value: Any) -> str:
     return str(value)
 
 
+#: Short labels for extra properties listed in the narrow composition column of page 1.
+_SHORT_LABELS = {"rvp_psi": "RVP", "vli": "VLI"}
+
+
 def _results(flow: Flow, result: dict) -> None:
     props = result.get("properties") or {}
     unc = result.get("uncertainty") or {}
@@ -527,7 +532,16 @@ def _results(flow: Flow, result: dict) -> None:
     right_cols = [Column("property", 168), Column("value", 50, "right"),
                   Column("std. unc.", 50, "right"), Column("unit", 44)]
     right_rows = []
-    for key in property_keys(result):
+    keys = property_keys(result)
+    main_keys = [k for k in keys if k in PROPERTY_KEYS]
+    extra_keys = [k for k in keys if k not in PROPERTY_KEYS]
+    if extra_keys:   # further estimates go under the composition, where page 1 has room
+        left_rows.append(["further estimates", "", ""])
+        for key in extra_keys:
+            value = props.get(key)
+            left_rows.append([_SHORT_LABELS.get(key, property_label(key)),
+                              _num(value, decimals_of(key)), unit_of(key)])
+    for key in main_keys:
         d = decimals_of(key)
         value = props.get(key)
         right_rows.append([property_label(key), _num(value, d),
@@ -655,7 +669,7 @@ def _groups_page(flow: Flow, result: dict) -> None:
         rows = []
         for cn in order:
             vals = [cells[cn].get(g) for g in groups]
-            rows.append([f"C{cn}"] + [_num(v, 2) if v else "" for v in vals]
+            rows.append([carbon_label(cn)] + [_num(v, 2) if v else "" for v in vals]
                         + [_num(sum(v for v in vals if v is not None), 2)])
         col_tot = [sum(cells[cn].get(g, 0.0) for cn in order) for g in groups]
         rows.append(["total"] + [_num(v, 2) for v in col_tot] + [_num(sum(col_tot), 2)])

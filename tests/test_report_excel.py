@@ -211,3 +211,16 @@ def test_empty_result_still_writes_every_sheet(tmp_path):
     assert wb.sheetnames == list(SHEETS)
     groups = pd.read_excel(path, sheet_name="Groups", index_col=0, nrows=8)
     assert groups.loc["total"][["mass %", "% v/v", "mol %"]].isna().all()
+
+
+def test_distillation_curve_read_back(result, tmp_path):
+    # The sheet must hold the curve of the result's volatility details, point for point.
+    res = copy.deepcopy(result)
+    curve = {"evaporated_vol_pct": [0.0, 10.0, 50.0, 90.0], "t_c": [35.2, 52.1, 98.7, 151.3]}
+    res.setdefault("property_details", {})["volatility"] = {
+        "curve": curve, "model": {"distillation": "Rayleigh batch distillation at 101.325 kPa"}}
+    path = write_xlsx(res, tmp_path / "d.xlsx")
+    sheet = pd.read_excel(path, sheet_name="Distillation")
+    assert list(sheet.iloc[:, 0]) == curve["evaporated_vol_pct"]
+    assert list(sheet.iloc[:, 1]) == curve["t_c"]
+    assert "°C" in sheet.columns[1] and "% v/v" in sheet.columns[0]

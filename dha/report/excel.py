@@ -50,7 +50,7 @@ FMT_INT = "0"
 #: Sheet names (our own).
 SHEETS = (
     "Summary", "Groups", "Carbon number mass", "Carbon number volume", "Components",
-    "Oxygenates", "Properties", "Import log", "Warnings", "Settings", "Notes",
+    "Oxygenates", "Properties", "Distillation", "Import log", "Warnings", "Settings", "Notes",
 )
 
 #: Component fields of the contract -> (header, number format or None).
@@ -319,6 +319,20 @@ def _properties(ws, result: dict) -> None:
     _autowidth(ws)
 
 
+def _distillation(ws, result: dict) -> None:
+    """The estimated distillation curve (dha.properties.volatility details), if computed."""
+    details = ((result.get("property_details") or {}).get("volatility") or {})
+    curve = details.get("curve") or {}
+    pct, t_c = curve.get("evaporated_vol_pct") or [], curve.get("t_c") or []
+    rows = [[p, t] for p, t in zip(pct, t_c)]
+    _table(ws, ["evaporated (% v/v)", "temperature (°C)"], rows, formats=["0.0", "0.0"])
+    method = (details.get("model") or {}).get("distillation")
+    if method:
+        ws.cell(row=1, column=4, value=f"estimate: {method}; not a result of the standard "
+                                        "distillation test")
+    _autowidth(ws)
+
+
 def _import_log(ws, result: dict) -> None:
     rows = [[e.get("row"), e.get("action"), e.get("reason")] for e in result.get("import_log") or []]
     _table(ws, ["row in input", "action", "reason"], rows, formats=[FMT_INT, None, None])
@@ -389,6 +403,7 @@ def write_xlsx(result: dict, path) -> Path:
         "Components": _components,
         "Oxygenates": _oxygenates,
         "Properties": _properties,
+        "Distillation": _distillation,
         "Import log": _import_log,
         "Warnings": _warnings,
         "Settings": _settings,

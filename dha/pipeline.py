@@ -18,7 +18,7 @@ from dha.groups import group_totals
 from dha import properties as _properties
 from dha.properties import PropertyResult
 from dha.quantify import quantify_run
-from dha.result import build_result, write_json
+from dha.result import build_result, jsonable, write_json
 
 log = logging.getLogger("dha.pipeline")
 
@@ -87,20 +87,17 @@ def process_run(run, settings: dict, library, spec: str | None = None,
     groups = group_totals(quant.table, library, settings)
     properties = run_properties(quant.table, library, settings)
 
-    def build(checks=None, spec_warnings=()):
-        return build_result(run, quant, groups, properties, library, settings, checks=checks,
-                            extra_warnings=id_warnings + list(spec_warnings),
-                            identification=identification, generated_at=generated_at)
-
-    result = build()
+    result = build_result(run, quant, groups, properties, library, settings,
+                          extra_warnings=id_warnings, identification=identification,
+                          generated_at=generated_at)
     if spec is None:
         spec = settings.get("report", {}).get("spec", "")
     if spec:
+        # The checks read the finished result; they and their warnings are added to it.
         from dha import specs
-        profile = specs.load_profile(spec)
-        generated_at = result["generated_at"]
-        checks, spec_warnings = specs.check(result, profile, library)
-        result = build(checks, spec_warnings)
+        checks, spec_warnings = specs.check(result, specs.load_profile(spec), library)
+        result["checks"] = jsonable(checks)
+        result["warnings"] += spec_warnings
     return result
 
 

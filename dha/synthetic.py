@@ -277,6 +277,33 @@ def identification_accuracy(identified: pd.DataFrame, truth: pd.DataFrame) -> fl
     return float(t["mass_pct"].to_numpy()[ok].sum() / total) if total > 0 else float("nan")
 
 
+def identification_ceiling(peaks: pd.DataFrame, truth: pd.DataFrame, library: Any) -> float:
+    """Accuracy of an identifier told which components have a peak: an upper bound [-].
+
+    The oracle knows the truth's set of components with a peak, which of them share a peak,
+    and which peaks are extra unknowns -- everything except which peak is which. It orders
+    the peaks' member groups by their library index (mean over a shared peak's members) and
+    gives them to the peaks in retention-time order. With Gaussian index errors of one
+    spread this order is the maximum-likelihood assignment (for a convex cost the sorted
+    matching is optimal; rearrangement inequality), so an identifier that does not know the
+    sample's composition beforehand cannot expect to beat it by much: where the library's
+    entries lie closer than the index noise, neighbours swap places and no order-based
+    method can tell. Scored with :func:`identification_accuracy`.
+    """
+    t = truth.dropna(subset=["component"])
+    t = t[t["row"].notna()]
+    ri = pd.to_numeric(library.components["retention_index"], errors="coerce")
+    groups: dict[int, list[str]] = {}
+    for r, c in zip(t["row"].astype(int), t["component"]):
+        groups.setdefault(r, []).append(c)
+    order = sorted(groups.values(), key=lambda cs: (float(np.mean([ri[c] for c in cs])), cs[0]))
+    real = peaks[peaks["row"].isin(list(groups))].sort_values("rt_min", kind="stable")
+    label = dict(zip(real["row"].astype(int), (sorted(cs, key=lambda c: ri[c])[0] for cs in order)))
+    out = pd.DataFrame({"row": peaks["row"].astype(int),
+                        "component": [label.get(int(r)) for r in peaks["row"]]})
+    return identification_accuracy(out, truth)
+
+
 # --------------------------------------------------------------------------------------------
 # Example compositions (invented)
 # --------------------------------------------------------------------------------------------

@@ -144,7 +144,8 @@ def test_coelution_split_when_partner_has_no_peak(lib):
 import dataclasses  # noqa: E402
 
 from dha.synthetic import (EXAMPLE_KINDS, example_composition,  # noqa: E402
-                           identification_accuracy, synthetic_run)
+                           identification_accuracy, identification_ceiling,
+                           synthetic_run)
 
 # the synthetic runs' method: 35 degC hold 15 min, t_M = 4 min (dha.synthetic.DEFAULT_PROGRAMME)
 _METHOD = {"isothermal_until_min": 15.0, "holdup_time_min": 4.0}
@@ -209,23 +210,62 @@ def test_unnamed_runs_resolvable_library_sigma_1_5_drift(lib):
     assert np.mean(list(acc.values())) >= 0.96, acc
 
 
+def _with_ceiling(lib, sd, drift, tol, seeds=(0, 1)):
+    """(our accuracy, the ceiling's) per run; see dha.synthetic.identification_ceiling."""
+    ours, ceil = [], []
+    for kind in EXAMPLE_KINDS:
+        comp = example_composition(kind, lib)
+        for seed in seeds:
+            peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=sd, drift_pct=drift)
+            s = _settings(ri_tolerance=tol, markers=_alkane_markers(truth, lib))
+            ours.append(identification_accuracy(identify(peaks, lib, s), truth))
+            ceil.append(identification_ceiling(peaks, truth, lib))
+    return np.array(ours), np.array(ceil)
+
+
 def test_unnamed_runs_shipped_library_sigma_0_5(lib):
     # With every shipped entry (estimated indices, median spacing ~1 index unit, 2x denser
     # than sd 0.5 noise resolves) the 99 % target is NOT met: a nearer absent component
     # sometimes takes a peak. Seeds 0-9: mean 0.984, min 0.948; seeds 0-1: mean 0.986,
     # min 0.982 (before the carbon-number prior and the adapted window: mean 0.977).
-    acc = _accuracies(lib, 0.5, 0.0, 3.0)
-    assert np.mean(list(acc.values())) >= 0.975, acc
-    assert min(acc.values()) >= 0.97, acc
+    # The ceiling (an identifier told which components are present, see
+    # identification_ceiling) on seeds 0-9: mean 0.9925, min 0.968, 9 of 30 runs below 0.99:
+    # "at least 99 %" in every run is beyond what the shipped indices allow.
+    ours, ceil = _with_ceiling(lib, 0.5, 0.0, 3.0)
+    assert ours.mean() >= 0.975 and ours.min() >= 0.97, ours
+    assert ceil.mean() >= ours.mean(), (ours, ceil)          # seeds 0-1: 0.997 against 0.986
 
 
 def test_unnamed_runs_shipped_library_sigma_1_5_drift(lib):
     # Issue 5's 97 % at sd 1.5 with 0.5 % drift is NOT met on the shipped library: seeds 0-9
     # mean 0.918, min 0.808 (true markers given; before the carbon-number prior and the
     # adapted window: 0.80-0.96). Seeds 0-1: mean 0.922, min 0.867.
-    acc = _accuracies(lib, 1.5, 0.5, 3.0)
-    assert np.mean(list(acc.values())) >= 0.90, acc
-    assert min(acc.values()) >= 0.85, acc
+    # It cannot be: the ceiling (told which components are present) reaches mean 0.918,
+    # min 0.812 on seeds 0-9 (27 of 30 runs below 0.97); seeds 0-1: mean 0.919. Neighbouring
+    # entries closer than the noise swap places and no order-based identifier can tell.
+    ours, ceil = _with_ceiling(lib, 1.5, 0.5, 3.0)
+    assert ours.mean() >= 0.90 and ours.min() >= 0.85, ours
+    assert ceil.mean() < 0.97, ceil                          # the information limit
+    assert ours.mean() >= ceil.mean() - 0.01, (ours, ceil)   # we reach it
+
+
+def test_ceiling_is_perfect_without_noise_and_drops_when_neighbours_swap(lib):
+    # The ceiling's own check (rearrangement: sorted matching is optimal in 1-D).
+    comp = example_composition("e10", lib)
+    peaks, truth = synthetic_run(comp, lib, seed=3, index_noise_sd=0.0)
+    assert identification_ceiling(peaks, truth, lib) == pytest.approx(1.0)
+    # two components one index unit apart whose noisy indices swapped: the ceiling gives
+    # them the wrong peaks, whatever their masses
+    srt = lib.components["retention_index"].dropna().sort_values()
+    gaps = srt.diff()
+    k = int(np.flatnonzero((gaps.to_numpy() > 1.0) & (gaps.to_numpy() < 3.0))[0])
+    a, b = srt.index[k - 1], srt.index[k]
+    truth = pd.DataFrame({"component": [a, b], "mass_pct": [60.0, 40.0],
+                          "row": pd.array([2, 1], dtype="Int64"),
+                          "true_index": [srt.iloc[k] + 0.5, srt.iloc[k - 1] - 0.5],
+                          "rt_min": [20.0, 19.9]})
+    peaks = _peaks([(19.9, 400.0, None), (20.0, 600.0, None)])
+    assert identification_ceiling(peaks, truth, lib) == pytest.approx(0.0)
 
 
 def test_identify_is_order_preserving_and_one_to_one(lib):

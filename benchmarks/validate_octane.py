@@ -28,6 +28,7 @@ def main(argv: list[str]) -> int:
     table, _ = of.validate_all(data)
     print(of.describe_data(data))
     print(of.format_table(table))
+    print(of.format_conflicts(data))
     print(f"(validation of 3 models x 2 properties: {time.perf_counter() - t0:.1f} s)")
     # Stricter split: whole families held out (an oxygenate series goes with its base blends).
     strict = data.info.assign(group=data.info["family"])

@@ -80,6 +80,38 @@ def test_default_model_beats_linear_on_held_out_mon(data):
     assert inter < lin_mole - 1.0
 
 
+def test_data_conflict_and_rating_resolution_are_found(data):
+    # KUZ2022_MON itself: "SF-AR1" (toluene/n-heptane, labelled vol%) and "TPRF 57" (the same
+    # two by mole) describe the same fuel, toluene 0.542 / n-heptane 0.458 by volume, yet
+    # state MON 66.0216 and 70.3. No composition model can fit both: the pair alone puts a
+    # floor under the error. The SF-* values are stated to 2-4 decimals, not to the 0.1 of an
+    # engine rating (ASTM D2700 reports to 0.1; from memory).
+    c = of.conflicting_pairs(data, "mon")
+    pair = c[(c["label_a"] + "|" + c["label_b"]).str.contains("SF-AR1")
+             & (c["label_a"] + "|" + c["label_b"]).str.contains("TPRF 57")]
+    assert len(pair) == 1 and abs(pair["diff"].iloc[0]) == pytest.approx(4.28, abs=0.01)
+    assert pair["l1"].iloc[0] < 0.001
+    assert of.stated_decimals(66.0216) == 4 and of.stated_decimals(70.3) == 1
+    assert of.stated_decimals(100.0) == 0
+    fine = {f for f, v in zip(data.info["family"], data.info["mon"])
+            if np.isfinite(v) and of.stated_decimals(v) > 1}
+    assert fine == {"SF-AR", "SF-N", "SF-OL", "SF-P"}
+    text = of.format_conflicts(data)
+    assert "SF-AR1" in text and "TPRF 57" in text
+
+
+def test_held_out_error_on_engine_rated_mixtures(data):
+    # The held-out MON RMSE on the mixtures stated to 0.1 (engine ratings; 192 rows) is
+    # 1.85 (all 240: 2.44); issue 6's 1.5 is NOT met on them either. Checked: the subset row
+    # exists, is what the split gives, and is below the all-mixture figure.
+    table = of.error_table({("interaction", "mon"): of.cross_validate(data, "interaction", "mon")})
+    rated = table[table["family"] == "ALL-0.1"].iloc[0]
+    everything = table[table["family"] == "ALL"].iloc[0]
+    assert rated["n"] == 192
+    assert rated["held_out_rmse"] < everything["held_out_rmse"]
+    assert rated["held_out_rmse"] <= 2.0
+
+
 def test_ethanol_in_surrogate_ron(data):
     # COOPTIMA S4 + ethanol 10/20/30 % v/v: measured RON 96.2 / 100.4 / 102.0 (NB6022 pg 021).
     # These rows ARE in the RON fit (2 parameters on 15 rows); the held-out value (ethanol

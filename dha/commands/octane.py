@@ -39,6 +39,7 @@ def validate_command(details: Path | None) -> None:
     table, cv = of.validate_all(data)
     click.echo(of.describe_data(data))
     click.echo(of.format_table(table))
+    click.echo(of.format_conflicts(data))
     if details is not None:
         rows = [df.assign(model=m, property=p.upper()) for (m, p), df in cv.items()]
         pd.concat(rows).to_csv(details, index_label="mixture_id")

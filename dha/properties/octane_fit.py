@@ -416,6 +416,7 @@ def cross_validate(data: MixtureData, model: str, prop: str) -> pd.DataFrame:
     out = info[["label", "family", "group", "source"]].copy()
     out["estimated_neat"] = (info[f"{prop}_estimated_share"] > 0).to_numpy()
     out["measured"] = info[prop].to_numpy()
+    out["decimals"] = [stated_decimals(v) for v in out["measured"]]
     if model != "interaction":
         pred = predict(data, prop, model, rows=has)
         out["fitted"] = pred
@@ -446,6 +447,9 @@ def error_table(cv: dict[tuple[str, str], pd.DataFrame]) -> pd.DataFrame:
     for (model, prop), df in cv.items():
         known = df[~df["estimated_neat"]]
         parts = [(fam, d) for fam, d in known.groupby("family", sort=True)] + [("ALL", known)]
+        rated = known[known["decimals"] <= 1]
+        if 0 < len(rated) < len(known):
+            parts.append(("ALL-0.1", rated))
         est = df[df["estimated_neat"]]
         if len(est):
             parts += [(f"{fam}*", d) for fam, d in est.groupby("family", sort=True)]
@@ -459,6 +463,70 @@ def error_table(cv: dict[tuple[str, str], pd.DataFrame]) -> pd.DataFrame:
                 rec[f"{col}_max"] = float(e.abs().max())
             recs.append(rec)
     return pd.DataFrame(recs)
+
+
+def stated_decimals(value: float) -> int:
+    """Decimals with which a measured octane number is stated (62.6 -> 1, 66.0216 -> 4).
+
+    Engine ratings (ASTM D2699/D2700) are reported to 0.1 ON (from memory); values stated to
+    2-4 decimals (the SF-* families of KUZ2022_MON) were derived or read off a figure, not
+    rated on an engine. ``error_table`` therefore also shows the error on the mixtures
+    stated to 0.1 (family "ALL-0.1").
+    """
+    if not np.isfinite(value):
+        return 0
+    text = f"{float(value):.6f}".rstrip("0")
+    return len(text.split(".")[1]) if "." in text else 0
+
+
+def conflicting_pairs(data: MixtureData, prop: str = "mon", max_l1: float = 0.03,
+                      min_diff: float = 2.0) -> pd.DataFrame:
+    """Mixtures of different families with (nearly) the same composition but different values.
+
+    Two mixtures whose volume fractions differ by at most ``max_l1`` in sum (L1 distance) are
+    the same fuel for any composition model, so a difference in their measured ``prop`` of
+    ``min_diff`` or more is a conflict between the data sources that no model can fit: a
+    pair differing by D adds at least D^2 / 2 to the sum of squared errors. Returns label_a,
+    label_b, l1, value_a, value_b, diff (a - b), sorted by |diff|, largest first.
+    """
+    info = data.info
+    vf = data.vol_frac.to_numpy()
+    val = info[prop].to_numpy(dtype=float)
+    fam = info["family"].to_numpy()
+    lab = info["label"].to_numpy()
+    idx = np.flatnonzero(np.isfinite(val))
+    recs = []
+    for a_pos, i in enumerate(idx):
+        rest = idx[a_pos + 1:]
+        if not len(rest):
+            break
+        l1 = np.abs(vf[rest] - vf[i]).sum(axis=1)
+        for j, d in zip(rest[l1 <= max_l1], l1[l1 <= max_l1]):
+            if fam[i] != fam[j] and abs(val[i] - val[j]) >= min_diff:
+                recs.append({"label_a": lab[i], "label_b": lab[j], "l1": float(d),
+                             "value_a": float(val[i]), "value_b": float(val[j]),
+                             "diff": float(val[i] - val[j])})
+    out = pd.DataFrame(recs, columns=["label_a", "label_b", "l1", "value_a", "value_b", "diff"])
+    return out.sort_values("diff", key=np.abs, ascending=False, ignore_index=True)
+
+
+def format_conflicts(data: MixtureData) -> str:
+    """The data-consistency lines printed under the validation table."""
+    lines = []
+    for prop in ("mon", "ron"):
+        c = conflicting_pairs(data, prop)
+        for r in c.itertuples(index=False):
+            lines.append(f"data conflict ({prop.upper()}): {r.label_a} {r.value_a:g} and "
+                         f"{r.label_b} {r.value_b:g} have the same composition (volume "
+                         f"fractions within {r.l1:.3f}) but differ by {abs(r.diff):.1f}")
+    info = data.info
+    fine = info.loc[info["mon"].notna(), ["family", "mon"]]
+    fine = fine[[stated_decimals(v) > 1 for v in fine["mon"]]]
+    if len(fine):
+        lines.append(f"values stated to 2-4 decimals, not engine ratings to 0.1: "
+                     f"{len(fine)} MON mixtures ({', '.join(sorted(fine['family'].unique()))}); "
+                     "ALL-0.1 = the error on the others")
+    return "\n".join(lines)
 
 
 def validate_all(data: MixtureData | None = None) -> tuple[pd.DataFrame, dict]:

@@ -438,7 +438,8 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         table.loc[drop, ["component", "match"]] = None
 
     lib = _library_indices(library)
-    lib_pos = dict(zip(lib["name"], range(len(lib))))
+    lib_names = lib["name"].to_numpy(dtype=object)
+    lib_pos = dict(zip(lib_names, range(len(lib))))
     lib_ri = lib["retention_index"].to_numpy(dtype=float)
     lib_kind = lib["ri_kind"].to_numpy()
     rt = table["rt_min"].to_numpy(dtype=float)
@@ -464,7 +465,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     # 2. alignment of the peaks left
     comp = table["component"].to_numpy(dtype=object).copy()
     used = {c for c in comp if c is not None}
-    pool_mask = np.array([n not in used for n in lib["name"]], dtype=bool)
+    pool_mask = np.array([n not in used for n in lib_names], dtype=bool)
     # a known co-eluting pair is one entry (its first member, spanning both indices): the
     # co-elution step then gives the partner its share
     partners = _coelution_partners(library, used)
@@ -473,7 +474,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     pool_lo = lib_ri[pool].copy()
     pool_hi = lib_ri[pool].copy()
     for k, j in enumerate(pool):
-        b = partners.get(lib["name"].iat[j])
+        b = partners.get(lib_names[j])
         if b is not None and b in lib_pos:
             pool_lo[k] = min(lib_ri[j], lib_ri[lib_pos[b]])
             pool_hi[k] = max(lib_ri[j], lib_ri[lib_pos[b]])
@@ -496,7 +497,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             hi = np.searchsorted(pool_lo, hi_ri, side="left")
         prior = float(s.get("learnt_prior", 3.0))
         bonus = np.where(lib_kind[pool] == "learnt", prior, 0.0) + _group_prior(
-            library, lib["name"].to_numpy()[pool], s)
+            library, lib_names[pool], s)
         weight = _weights(size[todo], s)
         sigma = float(s.get("ri_sigma", 0.0) or 0.0) or tol / 2.0
         assign, _ = rx.align_indices(peak_ri[todo], pool_lo, tol, lo=lo, hi=hi,
@@ -510,10 +511,11 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
                                              lib_index_hi=pool_hi, lib_bonus=bonus,
                                              weight=weight, sigma=sigma)
                 log.info("index window adapted to the run: +-%.2f (sd %.2f)", tol, sigma)
-        for p, j in zip(todo, assign):
-            if j >= 0:
-                comp[p] = lib["name"].iat[pool[j]]
-                table.at[p, "match"] = "retention_index"
+        got = assign >= 0
+        comp[todo[got]] = lib_names[pool[assign[got]]]
+        match = table["match"].to_numpy(dtype=object).copy()
+        match[todo[got]] = "retention_index"
+        table["match"] = match
         table["component"] = comp
     table["match"] = table["match"].where(table["component"].notna(), "unidentified")
 
@@ -597,13 +599,27 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
     scale = float(s.get("group_prior", 1.0))
     if scale == 0 or len(names) == 0:
         return np.zeros(len(names))
+    table = _prior_table(library, bool(s.get("carbon_prior", True)))
+    return scale * table.reindex(pd.Index(names, dtype=object)).fillna(0.0).to_numpy(dtype=float)
+
+
+_PRIOR_CACHE: dict[tuple, tuple] = {}
+
+
+def _prior_table(library: Any, by_carbon: bool) -> pd.Series:
+    """Unscaled log prior odds of every library entry (see :func:`_group_prior`), cached per
+    library object and content checksum."""
+    key = (id(library), by_carbon)
+    sha = getattr(library, "sha256", None)
+    hit = _PRIOR_CACHE.get(key)
+    if hit is not None and hit[0] is library and hit[1] == sha:
+        return hit[2]
     comps = library.components
     groups = comps["group"]
     carbon = pd.to_numeric(comps.get("carbon_number"), errors="coerce")
     counts = groups.value_counts()
     share = {g: TYPICAL_GROUP_MASS_PCT.get(g, 1.0) for g in counts.index}
     total = sum(share.values())
-    by_carbon = bool(s.get("carbon_prior", True))
     per: dict[tuple, float] = {}
     for g, n_g in counts.items():
         in_g = carbon[groups == g]
@@ -618,13 +634,15 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
             per[(g, n)] = np.log(share[g] / total * w[n] / w_sum / n_cell)
         per[(g, np.nan)] = np.log(share[g] / total / n_g)
     uniform = np.log(1.0 / len(comps))
-    out = []
-    for nm in names:
-        g = groups.get(nm)
-        n = carbon.get(nm)
-        key = (g, n if pd.notna(n) else np.nan)
-        out.append(per.get(key, per.get((g, np.nan), uniform)) - uniform)
-    return scale * np.array(out)
+    vals = []
+    for g, n in zip(groups, carbon):
+        key_c = (g, n if pd.notna(n) else np.nan)
+        vals.append(per.get(key_c, per.get((g, np.nan), uniform)) - uniform)
+    table = pd.Series(vals, index=comps.index, dtype=float)
+    if len(_PRIOR_CACHE) > 8:
+        _PRIOR_CACHE.clear()
+    _PRIOR_CACHE[key] = (library, sha, table)
+    return table
 
 
 def _adapted_window(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarray,

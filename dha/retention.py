@@ -367,22 +367,28 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
     left = np.maximum(np.searchsorted(run_hi, p_idx - tolerance, side="left"), lo)
     right = np.minimum(np.searchsorted(c_idx, p_idx + tolerance, side="right"), hi)
     finite = np.isfinite(p_idx)
-    g_rows = np.zeros((n_p + 1, n_c + 1))
-    cols = np.arange(n_c)
-    prev = g_rows[0]
+    # every (peak, window entry) gain at once; the row loop then only adds and propagates
+    count = np.where(finite, np.maximum(right - left, 0), 0)
+    offs = np.concatenate([[0], np.cumsum(count)])
+    rep = np.repeat(np.arange(n_p), count)
+    js_all = left[rep] + (np.arange(offs[-1]) - offs[rep])
+    d_all = np.maximum(np.maximum(c_idx[js_all] - p_idx[rep], p_idx[rep] - c_hi[js_all]),
+                       0.0) / tolerance
+    g_all = kappa * (1.0 - d_all * d_all)
+    if bonus is not None:
+        g_all = g_all + bonus[js_all]
+    g_all = np.where(d_all <= 1.0, w[rep] * g_all, -np.inf)
+    g_rows = np.empty((n_p + 1, n_c + 1))
+    g_rows[0] = 0.0
     for p in range(n_p):
-        row = prev.copy()
-        if finite[p] and right[p] > left[p]:
-            js = cols[left[p]:right[p]]
-            d = np.maximum(np.maximum(c_idx[js] - p_idx[p], p_idx[p] - c_hi[js]), 0.0) / tolerance
-            gain = kappa * (1.0 - d * d) if bonus is None else kappa * (1.0 - d * d) + bonus[js]
-            gain = np.where(d <= 1.0, w[p] * gain, -np.inf)
-            cand = prev[js] + gain
-            sub = row[js + 1]
-            row[js + 1] = np.maximum(sub, cand)
-            np.maximum.accumulate(row, out=row)
-        g_rows[p + 1] = row
-        prev = row
+        prev, row = g_rows[p], g_rows[p + 1]
+        row[:] = prev
+        if count[p]:
+            a, b = left[p], right[p]
+            seg = row[a + 1:b + 1]
+            np.maximum(seg, prev[a:b] + g_all[offs[p]:offs[p + 1]], out=seg)
+            tail = row[a + 1:]
+            np.maximum.accumulate(tail, out=tail)
     # backtrack
     p, c = n_p, n_c
     while p > 0 and c > 0:

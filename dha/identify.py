@@ -470,6 +470,11 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     # co-elution step then gives the partner its share
     partners = _coelution_partners(library, used)
     pool_mask &= ~lib["name"].isin(list(partners.values())).to_numpy()
+    if float(s.get("other_oxygenate_odds", 1.0)) == 0.0:
+        # the lab excludes the oxygenates it does not expect (a named peak still matches)
+        oxy = library.components.index[library.components["group"] == "oxygenates"]
+        others = set(oxy) - expected_oxygenates(library, s)
+        pool_mask &= ~lib["name"].isin(list(others)).to_numpy()
     pool = np.flatnonzero(pool_mask)
     pool_lo = lib_ri[pool].copy()
     pool_hi = lib_ri[pool].copy()
@@ -513,6 +518,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
                 log.info("index window adapted to the run: +-%.2f (sd %.2f)", tol, sigma)
         got = assign >= 0
         comp[todo[got]] = lib_names[pool[assign[got]]]
+        _warn_unexpected_oxygenates(table, todo[got], comp, library, s, warnings)
         match = table["match"].to_numpy(dtype=object).copy()
         match[todo[got]] = "retention_index"
         table["match"] = match
@@ -583,6 +589,54 @@ TYPICAL_CARBON_MASS_PCT = {3: 0.3, 4: 5.0, 5: 14.0, 6: 16.0, 7: 18.0, 8: 18.0, 9
                            10: 8.0, 11: 4.0, 12: 1.5, 13: 0.5}
 
 
+#: The oxygenates EN 228 names (methanol, ethanol, isopropyl, isobutyl and tert-butyl alcohol);
+#: with its ethers of five or more carbon atoms they are the default expected oxygenates
+#: (shared/data/facts.md fact 4: the E5 oxygenate limits, verified).
+EN228_ALCOHOLS = ("methanol", "ethanol", "2-propanol", "2-methyl-1-propanol",
+                  "2-methyl-2-propanol")
+
+
+def expected_oxygenates(library: Any, s: dict[str, Any]) -> frozenset[str]:
+    """Library names of the oxygenates a sample may be expected to hold (``identify.
+    expected_oxygenates``; empty = EN 228's named alcohols and ethers with >= 5 carbons).
+
+    Raises
+    ------
+    SettingsError
+        A listed name is not an oxygenate of the library.
+    """
+    comps = library.components
+    oxy = comps.index[comps["group"] == "oxygenates"]
+    listed = s.get("expected_oxygenates") or []
+    if not listed:
+        carbon = pd.to_numeric(comps.get("carbon_number"), errors="coerce")
+        ethers = [c for c in oxy if comps.at[c, "subgroup"] == "ether" and carbon[c] >= 5]
+        return frozenset([c for c in EN228_ALCOHOLS if c in oxy] + ethers)
+    index = _index_for(library)
+    out = set()
+    for text in listed:
+        hit, _ = index.match(text)
+        if hit is None or hit not in oxy:
+            raise SettingsError(
+                f"[identify] expected_oxygenates: {text!r} is not an oxygenate of the library "
+                f"(library oxygenates: {', '.join(sorted(oxy))})")
+        out.add(hit)
+    return frozenset(out)
+
+
+def _warn_unexpected_oxygenates(table: pd.DataFrame, rows: np.ndarray, comp: np.ndarray,
+                                library: Any, s: dict[str, Any], warnings: list[str]) -> None:
+    """A warning naming the peaks matched by index to an oxygenate the lab does not expect."""
+    oxy = library.components.index[library.components["group"] == "oxygenates"]
+    others = set(oxy) - expected_oxygenates(library, s)
+    hits = [(int(table["row"].iat[i]), comp[i]) for i in rows if comp[i] in others]
+    if hits:
+        warnings.append(
+            "oxygenate(s) outside identify.expected_oxygenates matched by retention index only, "
+            "check them: " + ", ".join(f"row {r} {c}" for r, c in hits[:5])
+            + (f" and {len(hits) - 5} more" if len(hits) > 5 else ""))
+
+
 def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarray:
     """Log prior odds of each entry: ln(expected mass share per entry of its cell), centred.
 
@@ -592,24 +646,33 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
     numbers the library has for that group); within such a (group, carbon number) cell to
     any of the library's entries alike. So an entry of a crowded cell with little mass (the
     many C10-C12 aromatics, C6-C7 olefins) is a priori less likely than one of a rich, sparse
-    cell (the C8 aromatics). Oxygenates are spread over their entries alike (their carbon
-    number says nothing of their share). ``identify.group_prior`` scales it (0 = off);
+    cell (the C8 aromatics). Oxygenates are there because they were blended in: the share of
+    the group goes to the expected oxygenates (:func:`expected_oxygenates`) alike, each other
+    oxygenate getting ``identify.other_oxygenate_odds`` times an expected one's (their carbon
+    number says nothing of their share; 0 takes them out of index matching altogether). ``identify.group_prior`` scales it (0 = off);
     ``identify.carbon_prior = false`` uses the group shares alone.
     """
     scale = float(s.get("group_prior", 1.0))
     if scale == 0 or len(names) == 0:
         return np.zeros(len(names))
-    table = _prior_table(library, bool(s.get("carbon_prior", True)))
+    odds = float(s.get("other_oxygenate_odds", 1.0))
+    if not 0 <= odds:
+        raise SettingsError(f"[identify] other_oxygenate_odds = {odds!r}: give a number >= 0 "
+                            "(1 = no preference, 0 = never match them by index)")
+    odds = max(odds, 1e-6)          # 0: the entries leave the pool (identify); finite here
+    table = _prior_table(library, bool(s.get("carbon_prior", True)),
+                         expected_oxygenates(library, s), odds)
     return scale * table.reindex(pd.Index(names, dtype=object)).fillna(0.0).to_numpy(dtype=float)
 
 
 _PRIOR_CACHE: dict[tuple, tuple] = {}
 
 
-def _prior_table(library: Any, by_carbon: bool) -> pd.Series:
+def _prior_table(library: Any, by_carbon: bool, expected: frozenset = frozenset(),
+                 odds: float = 1.0) -> pd.Series:
     """Unscaled log prior odds of every library entry (see :func:`_group_prior`), cached per
     library object and content checksum."""
-    key = (id(library), by_carbon)
+    key = (id(library), by_carbon, expected, odds)
     sha = getattr(library, "sha256", None)
     hit = _PRIOR_CACHE.get(key)
     if hit is not None and hit[0] is library and hit[1] == sha:
@@ -634,8 +697,14 @@ def _prior_table(library: Any, by_carbon: bool) -> pd.Series:
             per[(g, n)] = np.log(share[g] / total * w[n] / w_sum / n_cell)
         per[(g, np.nan)] = np.log(share[g] / total / n_g)
     uniform = np.log(1.0 / len(comps))
+    n_oxy = int(counts.get("oxygenates", 0))
+    n_exp = sum(1 for c in expected if c in comps.index)
+    one_oxy = share.get("oxygenates", 1.0) / total / max(n_exp + odds * (n_oxy - n_exp), 1e-300)
     vals = []
-    for g, n in zip(groups, carbon):
+    for name, g, n in zip(comps.index, groups, carbon):
+        if g == "oxygenates":
+            vals.append(np.log(one_oxy * (1.0 if name in expected else odds)) - uniform)
+            continue
         key_c = (g, n if pd.notna(n) else np.nan)
         vals.append(per.get(key_c, per.get((g, np.nan), uniform)) - uniform)
     table = pd.Series(vals, index=comps.index, dtype=float)

@@ -539,7 +539,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     table["ri_source"] = pd.Series(ri_src, dtype=object)
     table["ri_delta"] = delta
     cn_lib = pd.to_numeric(library.components.get("carbon_number"), errors="coerce")
-    cn = np.array([cn_lib.get(c, np.nan) if c is not None else np.nan for c in comp], dtype=float)
+    cn = cn_lib.reindex(pd.Index(comp, dtype=object)).to_numpy(dtype=float, na_value=np.nan)
     bracket = np.ceil(peak_ri / 100.0 - 1e-9)
     cn = np.where(np.isnan(cn), bracket, cn)
     table["carbon_number"] = pd.array(np.where(np.isfinite(cn), cn, np.nan), dtype="Float64").astype("Int64")
@@ -605,9 +605,25 @@ def expected_oxygenates(library: Any, s: dict[str, Any]) -> frozenset[str]:
     SettingsError
         A listed name is not an oxygenate of the library.
     """
+    listed = tuple(str(x) for x in (s.get("expected_oxygenates") or []))
+    key = (id(library), listed)
+    sha = getattr(library, "sha256", None)
+    hit = _OXY_CACHE.get(key)
+    if hit is not None and hit[0] is library and hit[1] == sha:
+        return hit[2]
+    out = _expected_oxygenates(library, listed)
+    if len(_OXY_CACHE) > 16:
+        _OXY_CACHE.clear()
+    _OXY_CACHE[key] = (library, sha, out)
+    return out
+
+
+_OXY_CACHE: dict[tuple, tuple] = {}
+
+
+def _expected_oxygenates(library: Any, listed: tuple[str, ...]) -> frozenset[str]:
     comps = library.components
     oxy = comps.index[comps["group"] == "oxygenates"]
-    listed = s.get("expected_oxygenates") or []
     if not listed:
         carbon = pd.to_numeric(comps.get("carbon_number"), errors="coerce")
         ethers = [c for c in oxy if comps.at[c, "subgroup"] == "ether" and carbon[c] >= 5]

@@ -250,6 +250,30 @@ def test_unnamed_runs_shipped_library_sigma_1_5_drift(lib):
     assert ours.mean() >= ceil.mean() - 0.01, (ours, ceil)   # we reach it
 
 
+def test_unnamed_runs_with_the_labs_alkane_standard_and_oxygenates_sigma_0_5(lib):
+    # Issue 5's sd 0.5 condition with what a lab knows besides the run: the n-alkane times of
+    # its alkane standard (C3-C13, same programme: dha.synthetic.alkane_retention_times) as
+    # [identify] markers, and the oxygenates it blends (expected_oxygenates, others excluded).
+    # The standard removes the extrapolation beyond the sample's last n-alkane (the alkylate
+    # has none above C9: indices near 1070 came out 4 units high from its C7-C9 markers).
+    # Seeds 0-9, mass identified correctly, mean / min: reformate 0.9925 / 0.987, alkylate
+    # 0.9922 / 0.985, E10 0.9904 / 0.977 -- the 99 % target met on average for each type, not
+    # in every run (the ceiling, told the components, also has 9 of 30 runs below 0.99).
+    # Asserted on seeds 0-9 (seeds 0-3 alone: alkylate 0.9895).
+    from dha.synthetic import alkane_retention_times
+    standard = {str(c): t for c, t in alkane_retention_times().items() if 3 <= c <= 13}
+    for kind in EXAMPLE_KINDS:
+        comp = example_composition(kind, lib)
+        oxy = [c for c in comp if lib.components.at[c, "group"] == "oxygenates"]
+        acc = []
+        for seed in range(10):
+            peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=0.5)
+            s = _settings(ri_tolerance=3.0, markers=standard, expected_oxygenates=oxy,
+                          other_oxygenate_odds=0.0)
+            acc.append(identification_accuracy(identify(peaks, lib, s), truth))
+        assert np.mean(acc) >= 0.99 and min(acc) >= 0.975, (kind, acc)
+
+
 def test_ceiling_is_perfect_without_noise_and_drops_when_neighbours_swap(lib):
     # The ceiling's own check (rearrangement: sorted matching is optimal in 1-D).
     comp = example_composition("e10", lib)

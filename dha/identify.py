@@ -472,9 +472,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     pool_mask &= ~lib["name"].isin(list(partners.values())).to_numpy()
     if float(s.get("other_oxygenate_odds", 1.0)) == 0.0:
         # the lab excludes the oxygenates it does not expect (a named peak still matches)
-        oxy = library.components.index[library.components["group"] == "oxygenates"]
-        others = set(oxy) - expected_oxygenates(library, s)
-        pool_mask &= ~lib["name"].isin(list(others)).to_numpy()
+        pool_mask &= ~lib["name"].isin(list(_other_oxygenates(library, s))).to_numpy()
     pool = np.flatnonzero(pool_mask)
     pool_lo = lib_ri[pool].copy()
     pool_hi = lib_ri[pool].copy()
@@ -640,11 +638,16 @@ def _expected_oxygenates(library: Any, listed: tuple[str, ...]) -> frozenset[str
     return frozenset(out)
 
 
+def _other_oxygenates(library: Any, s: dict[str, Any]) -> set[str]:
+    """The library's oxygenates outside :func:`expected_oxygenates`."""
+    oxy = library.components.index[library.components["group"] == "oxygenates"]
+    return set(oxy) - expected_oxygenates(library, s)
+
+
 def _warn_unexpected_oxygenates(table: pd.DataFrame, rows: np.ndarray, comp: np.ndarray,
                                 library: Any, s: dict[str, Any], warnings: list[str]) -> None:
     """A warning naming the peaks matched by index to an oxygenate the lab does not expect."""
-    oxy = library.components.index[library.components["group"] == "oxygenates"]
-    others = set(oxy) - expected_oxygenates(library, s)
+    others = _other_oxygenates(library, s)
     hits = [(int(table["row"].iat[i]), comp[i]) for i in rows if comp[i] in others]
     if hits:
         warnings.append(
@@ -665,8 +668,9 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
     cell (the C8 aromatics). Oxygenates are there because they were blended in: the share of
     the group goes to the expected oxygenates (:func:`expected_oxygenates`) alike, each other
     oxygenate getting ``identify.other_oxygenate_odds`` times an expected one's (their carbon
-    number says nothing of their share; 0 takes them out of index matching altogether). ``identify.group_prior`` scales it (0 = off);
-    ``identify.carbon_prior = false`` uses the group shares alone.
+    number says nothing of their share; 0 takes them out of index matching altogether).
+    ``identify.group_prior`` scales it (0 = off); ``identify.carbon_prior = false`` uses the
+    group shares alone.
     """
     scale = float(s.get("group_prior", 1.0))
     if scale == 0 or len(names) == 0:

@@ -718,7 +718,7 @@ def _prior_table(library: Any, by_carbon: bool, expected: frozenset = frozenset(
         per[(g, np.nan)] = np.log(share[g] / total / n_g)
     uniform = np.log(1.0 / len(comps))
     n_oxy = int(counts.get("oxygenates", 0))
-    n_exp = sum(1 for c in expected if c in comps.index)
+    n_exp = len(expected)            # a subset of the library's oxygenates
     one_oxy = share.get("oxygenates", 1.0) / total / max(n_exp + odds * (n_oxy - n_exp), 1e-300)
     vals = []
     for name, g, n in zip(comps.index, groups, carbon):

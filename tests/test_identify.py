@@ -6,7 +6,7 @@ import pandas as pd
 import pytest
 
 from dha.errors import InputError, SettingsError
-from dha.identify import cas_key, identify, match_name, name_key
+from dha.identify import cas_key, expected_oxygenates, identify, match_name, name_key
 from dha.library import load_library
 from dha.settings import default_settings
 
@@ -459,7 +459,6 @@ def test_infer_hold_needs_a_geometric_series():
 def test_expected_oxygenates_default_is_the_en228_list(lib):
     # EN 228 names methanol, ethanol, isopropyl, isobutyl and tert-butyl alcohol and "ethers
     # with 5 or more carbon atoms" in its oxygenate limits (shared/data/facts.md, fact 4)
-    from dha.identify import expected_oxygenates
     got = expected_oxygenates(lib, default_settings()["identify"])
     assert got == {"methanol", "ethanol", "2-propanol", "2-methyl-1-propanol",
                    "2-methyl-2-propanol", "2-methoxy-2-methylpropane", "2-ethoxy-2-methylpropane",
@@ -503,7 +502,6 @@ def test_stated_oxygenates_keep_others_off_the_report(lib):
         assert "ethanol" in set(stated["component"])
         assert (identification_accuracy(stated, truth)
                 >= identification_accuracy(default, truth))
-        from dha.identify import expected_oxygenates
         outside = oxy - expected_oxygenates(lib, base["identify"])
         hit = default["component"].isin(outside) & (default["match"] == "retention_index")
         assert hit.any() == any("expected_oxygenates" in w for w in default.attrs["warnings"])

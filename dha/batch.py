@@ -55,7 +55,9 @@ def expand_inputs(paths: Iterable[str | Path]) -> list[Path]:
     Folders and globs keep only export-like files (``INPUT_SUFFIXES``); a file named
     explicitly is always taken.
 
-    Order is kept as given; each folder's files are sorted by name; duplicates removed.
+    Order is kept as given; each folder's files are sorted by name; duplicates removed. A path
+    that matches nothing is kept as given: processing it fails ("file not found") in its own
+    summary row and the other runs go on.
     """
     out: list[Path] = []
     for raw in paths:
@@ -69,7 +71,8 @@ def expand_inputs(paths: Iterable[str | Path]) -> list[Path]:
             found = [Path(q) for q in sorted(glob.glob(text))
                      if Path(q).is_file() and Path(q).suffix.lower() in INPUT_SUFFIXES]
             if not found:
-                raise InputError(f"{text}: no such file, folder or matching files")
+                # kept: processing it fails with one line in the summary; the others go on
+                found = [p]
         out.extend(found)
     seen, unique = set(), []
     for p in out:

@@ -14,6 +14,7 @@ import click
 
 from dha import __version__
 from dha.errors import DhaError
+from dha.safety import terminal_text
 
 #: Command modules; each exposes ``COMMANDS``, a list of click commands or groups.
 COMMAND_MODULES = (
@@ -28,6 +29,13 @@ COMMAND_MODULES = (
 )
 
 
+class _TerminalFormatter(logging.Formatter):
+    """Log lines with control characters of names (escape sequences, BEL) made visible."""
+
+    def formatMessage(self, record: logging.LogRecord) -> str:  # noqa: N802 - logging's name
+        return terminal_text(super().formatMessage(record))
+
+
 class _Main(click.Group):
     """Turns a ``DhaError`` raised anywhere below into a one-line message and exit 1."""
 
@@ -35,7 +43,7 @@ class _Main(click.Group):
         try:
             return super().invoke(ctx)
         except DhaError as err:
-            click.echo(f"dha: error: {err}", err=True)
+            click.echo(terminal_text(f"dha: error: {err}"), err=True)
             ctx.exit(1)
 
 
@@ -52,6 +60,9 @@ def cli(verbose: int, quiet: int) -> None:
     level = logging.WARNING - 10 * verbose + 10 * quiet
     logging.basicConfig(level=max(logging.DEBUG, min(level, logging.CRITICAL)),
                         format="dha: %(levelname)s: %(message)s", stream=sys.stderr)
+    for handler in logging.getLogger().handlers:
+        if not isinstance(handler.formatter, _TerminalFormatter):
+            handler.setFormatter(_TerminalFormatter("dha: %(levelname)s: %(message)s"))
 
 
 for _name in COMMAND_MODULES:

@@ -10,6 +10,7 @@ from dha.commands.options import library_option, settings_option
 from dha import batch, specs
 from dha.settings import load_settings
 from dha.batch import quiet_run_warnings
+from dha.safety import terminal_text
 
 
 @click.command("batch")
@@ -50,10 +51,10 @@ def batch_command(paths, out_dir, jobs, spec, formats, library_dir, settings_fil
     n_flag = int((table["flags"].fillna("").astype(str).str.len() > 0).sum())
     click.echo(f"{len(table)} runs: {len(table) - n_err} processed, {n_flag} flagged, {n_err} failed")
     for _, row in table[table["status"] == "error"].iterrows():
-        click.echo(f"  failed: {row['file']}: {row['error']}")
+        click.echo(terminal_text(f"  failed: {row['file']}: {row['error']}"))
     for _, row in table[(table["status"] == "ok") & (table["flags"].fillna("") != "")].iterrows():
-        click.echo(f"  flagged: {row['file']} {row['sample_id']}: {row['flags']}")
-    click.echo(f"summary: {', '.join(str(p) for p in written[:2])}")
+        click.echo(terminal_text(f"  flagged: {row['file']} {row['sample_id']}: {row['flags']}"))
+    click.echo(terminal_text(f"summary: {', '.join(str(p) for p in written[:2])}"))
     if n_err:
         raise SystemExit(1)
 

@@ -8,7 +8,7 @@ import click
 
 from dha.commands.options import library_option, settings_option
 
-from dha.errors import DhaError, InputError
+from dha.errors import DhaError
 
 log = logging.getLogger("dha.commands.report")
 
@@ -62,34 +62,41 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
     """
     from dha.library import load_library
     from dha.pipeline import process_file_stems, write_outputs
+    from dha.safety import terminal_text
     from dha.settings import load_settings
+    from dha import specs
 
     settings = load_settings(settings_file)
     if formats is None:
         formats = list(settings.get("report", {}).get("formats", ["json"]))
     library = load_library(overlay=library_dir) if library_dir else load_library()
+    profile = settings.get("report", {}).get("spec", "") if spec is None else spec
+    if profile:
+        specs.load_profile(profile)   # a bad profile is the profile's error, not an input's
     failed_checks = 0
+    failed_inputs = 0
     for path in inputs:
         try:
             results = process_file_stems(path, settings, library, spec)
-        except DhaError:
-            raise
-        except Exception as err:  # noqa: BLE001 - the edge: one line, never a traceback
-            log.debug("unexpected error on %s", path, exc_info=True)
-            raise InputError(f"{path}: could not be processed ({type(err).__name__}: {err}); "
-                             "run with -vv for details") from err
-        for stem, result in results:
-            try:
+            for stem, result in results:
                 written = write_outputs(result, out_dir, stem, formats, overwrite=overwrite)
-            except DhaError:
-                raise
-            except Exception as err:  # noqa: BLE001 - the edge: one line, never a traceback
-                log.debug("unexpected error writing %s", stem, exc_info=True)
-                raise InputError(f"{stem}: output could not be written ({type(err).__name__}: "
-                                 f"{err}); run with -vv for details") from err
-            failed_checks += sum(1 for c in result.get("checks", []) if c.get("verdict") == "fail")
-            shown = ", ".join(str(p) for p in written) or f"{stem}: nothing written"
-            click.echo(f"{shown}  {_headline(result)}")
+                failed_checks += sum(1 for c in result.get("checks", [])
+                                     if c.get("verdict") == "fail")
+                shown = ", ".join(str(p) for p in written) or f"{stem}: nothing written"
+                click.echo(terminal_text(f"{shown}  {_headline(result)}"))
+        except DhaError as err:
+            failed_inputs += 1
+            click.echo(terminal_text(f"dha: error: {err}"), err=True)
+        except Exception as err:  # noqa: BLE001 - the edge: one line, never a traceback
+            failed_inputs += 1
+            log.debug("unexpected error on %s", path, exc_info=True)
+            click.echo(terminal_text(
+                f"dha: error: {path}: could not be processed ({type(err).__name__}: {err}); "
+                "run with -vv for details"), err=True)
+    if failed_inputs:
+        if len(inputs) > 1:
+            click.echo(f"dha: {failed_inputs} of {len(inputs)} input(s) failed", err=True)
+        click.get_current_context().exit(1)
     if strict and failed_checks:
         click.echo(f"dha: {failed_checks} specification check(s) failed", err=True)
         click.get_current_context().exit(3)

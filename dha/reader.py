@@ -471,15 +471,17 @@ _DEC_POINT = re.compile(r"^[-+\u2212]?[\d,\s'\u00a0\u202f]*\d\.(?:\d{1,2}|\d{4,}
                         r"^[-+\u2212]?(?:0|\d{4,})\.\d+$")
 
 
-def _detect_decimal(samples: list[str]) -> str:
+def _detect_decimal(samples: list[str], more_point: int = 0) -> str:
     """``","`` when the values read best with a decimal comma, else ``"."``.
+
+    ``more_point``: further evidence for a decimal point (numbers already parsed with one).
 
     >>> _detect_decimal(["12,5", "1.234,75", "3"]), _detect_decimal(["1,234.5", "7.25"])
     (',', '.')
     """
     comma = sum(1 for v in samples if _DEC_COMMA.match(v.strip()))
     point = sum(1 for v in samples if _DEC_POINT.match(v.strip()))
-    return "," if comma > point else "."
+    return "," if comma > point + more_point else "."
 
 
 _CELL_COMMA = re.compile(r"(?:^|(?<=[;\t]))[ ]*[-+\u2212]?[\d. '\u00a0\u202f]*\d,(?:\d{1,2}|\d{4,})[ ]*"
@@ -1134,7 +1136,10 @@ def _fast_columns(body_text: str, line_nos: np.ndarray, sep: str, hdr: _Header,
         probe = [v for i in numeric.values() if df[i].dtype.kind not in "fiu"
                  for v in df[i].tolist()[:300] if type(v) is str]
         if probe:
-            decimal = _detect_decimal(probe)
+            # columns that parsed as numbers with a decimal point are evidence for it too
+            parsed = sum(_fractional_count(df[i].to_numpy(float))
+                         for i in numeric.values() if df[i].dtype.kind == "f")
+            decimal = _detect_decimal(probe, parsed)
         elif sep != "," and all(_ambiguous_thousands(df[i].to_numpy(dtype=float))
                                 for i in numeric.values()):
             decimal = _detect_decimal_text(body_text, sep)
@@ -1153,6 +1158,12 @@ def _fast_columns(body_text: str, line_nos: np.ndarray, sep: str, hdr: _Header,
     extra = [] if 0 not in text_cols else [
         [v if type(v) is str else "" if v != v else _cell_text(v) for v in df[0].tolist()]]
     return line_nos, cols, extra, [], decimal
+
+
+def _fractional_count(v: np.ndarray, cap: int = 300) -> int:
+    """How many finite values have a fractional part (at most ``cap``)."""
+    v = v[np.isfinite(v)]
+    return min(cap, int(np.count_nonzero(np.mod(v, 1))))
 
 
 def _cell_text(v: Any) -> str:

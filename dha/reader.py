@@ -715,10 +715,12 @@ def _build_run(source: str, stem: str, injection: str | None, sample: dict[str, 
             "the file or raise the limit in a settings file")
     for role in ("name", "cas"):
         _check_text_length(texts.get(role), role, line_arr, source, limits["max_text_chars"])
+    evidence = rs["decimal"] != "auto" or _has_mark_evidence(
+        [cols[r] for r in numeric], [texts[r] for r in numeric])
     for role in numeric:
         if texts[role] is not None:
             _check_separators(role, hdr.cells[hdr.roles[role]], cols[role], texts[role],
-                              nums[role], decimal, free, line_arr, logs)
+                              nums[role], decimal, free, line_arr, logs, evidence)
     if "retention_index" in nums:
         ri = nums["retention_index"]
         odd = free & ~np.isnan(ri) & ((ri < INDEX_RANGE[0]) | (ri > INDEX_RANGE[1]))
@@ -762,11 +764,33 @@ _GROUPED = {".": re.compile(r"^[-+]?\d{1,3}(?:,\d{3})+(?:\.\d*)?(?:[eE][-+]?\d+)
 _OTHER_MARK = {".": re.compile(r"^[-+]?(?:\d{1,3}(?:\.\d{3})+|\d*),\d+(?:[eE][-+]?\d+)?$"),
                ",": re.compile(r"^[-+]?(?:\d{1,3}(?:,\d{3})+|\d*)\.\d+(?:[eE][-+]?\d+)?$")}
 _MARK_WORD = {".": "decimal point", ",": "decimal comma"}
+# Whole numbers grouped by the table's own decimal mark ("1.234" with a decimal point): they
+# read differently with the other mark, so they are logged when a table mixes marks.
+_GROUPED_BY_MARK = {".": re.compile(r"^[-+]?\d{1,3}(?:\.\d{3})+$"),
+                    ",": re.compile(r"^[-+]?\d{1,3}(?:,\d{3})+$")}
+
+
+def _has_mark_evidence(columns: list[Any], texts: list[list[str] | None]) -> bool:
+    """True when some number shows its decimal mark ("12,5", "1.234,5", "0.5", "7.25").
+
+    Without such evidence the mark is a default, and every cell that reads differently with
+    the other mark ("2,215") is logged.
+    """
+    for col, txt in zip(columns, texts):
+        if txt is None:
+            if isinstance(col, np.ndarray) and _fractional_count(col, 1):
+                return True
+            continue
+        for cell in txt[:300]:
+            s = cell.strip()
+            if _DEC_COMMA.match(s) or _DEC_POINT.match(s) or ("," in s and "." in s):
+                return True
+    return False
 
 
 def _check_separators(role: str, header: str, cells: list[Any], texts: list[str],
                       values: np.ndarray, decimal: str, free: np.ndarray, line_arr: np.ndarray,
-                      logs: list[dict[str, Any]]) -> None:
+                      logs: list[dict[str, Any]], evidence: bool = True) -> None:
     """Never a silent x10: cells whose separators contradict the table's decimal mark.
 
     With a decimal point, a text cell holding a comma must be thousands-grouped ("1,234.5");
@@ -778,11 +802,16 @@ def _check_separators(role: str, header: str, cells: list[Any], texts: list[str]
     the value used. ``values`` is changed in place.
     """
     other = "," if decimal == "." else "."
-    if other not in "".join(t for t in texts if t):
+    if other not in "".join(t for t in texts if t) and evidence:
         return
     contradict, ambiguous = [], []
     for i, cell in enumerate(texts):
-        if other not in cell or not free[i] or type(cells[i]) is not str:
+        if not free[i] or type(cells[i]) is not str:
+            continue
+        if other not in cell:
+            if decimal in cell and _GROUPED_BY_MARK[decimal].match(
+                    _STRIP_NUM.sub("", cell).replace("\u2212", "-")):
+                ambiguous.append(i)
             continue
         s = _STRIP_NUM.sub("", cell).replace("\u2212", "-")
         if _GROUPED[decimal].match(s):
@@ -799,12 +828,15 @@ def _check_separators(role: str, header: str, cells: list[Any], texts: list[str]
                      "reason": f"{_label(role)} {texts[i]!r} (column {header!r}) has a "
                                f"{_MARK_WORD[other]} in a table read with a "
                                f"{_MARK_WORD[decimal]}; value used {float(values[i])!r}"})
-    if contradict:
+    if contradict or not evidence:
+        why = ("in a table mixing decimal marks" if contradict else
+               "and no number of the table shows its decimal mark")
         for i in ambiguous:
             logs.append({"row": int(line_arr[i]), "action": "changed",
                          "reason": f"{_label(role)} {texts[i]!r} (column {header!r}) reads "
-                                   f"either way in a table mixing decimal marks; value used "
-                                   f"{values[i]!r} ({_MARK_WORD[decimal]}); check it"})
+                                   f"either way {why}; value used {float(values[i])!r} "
+                                   f"({_MARK_WORD[decimal]}); check it, or pin [reader] "
+                                   "decimal"})
 
 
 def _check_text_length(texts: list[str] | None, role: str, line_arr: np.ndarray, source: str,

@@ -115,7 +115,7 @@ def process_file(path: str | Path, settings: dict, library, spec: str | None = N
 
     Returns
     -------
-    list of result dicts (CONTRACT.md), in the file's run order; ``process_file_stems`` gives
+    list of result dicts (the dha-result/1 schema), in the file's run order; ``process_file_stems`` gives
     each with its output stem
     """
     return [r for _, r in process_file_stems(path, settings, library, spec)]

@@ -379,7 +379,7 @@ def write_xlsx(result: dict, path) -> Path:
     Parameters
     ----------
     result : dict
-        A result dict of schema ``dha-result/1`` (CONTRACT.md). Missing keys give empty
+        A result dict of schema ``dha-result/1`` (the dha-result/1 schema). Missing keys give empty
         sheets; null values give empty cells (reason in the ``Warnings`` sheet).
     path : str or Path
         File to write (parent folders are created); overwritten if it exists.

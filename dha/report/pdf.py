@@ -824,7 +824,7 @@ def write_pdf(result: dict, path) -> Path:
     Parameters
     ----------
     result : dict
-        A result dict of schema ``dha-result/1`` (CONTRACT.md); extra keys ``generated_at``
+        A result dict of schema ``dha-result/1`` (the dha-result/1 schema); extra keys ``generated_at``
         and ``mass_balance`` are shown when present. Null values print as "—".
     path : str or Path
         File to write (parent folders are created); overwritten if it exists.

@@ -95,6 +95,8 @@ def process_run(run, settings: dict, library, spec: str | None = None,
                           extra_warnings=id_warnings, identification=identification,
                           generated_at=generated_at)
     check_totals(result, run)
+    from dha.explain import result_keys as _octane_keys
+    result.update(jsonable(_octane_keys(quant.table, library, settings, result["properties"])))
     if spec is None:
         spec = settings.get("report", {}).get("spec", "")
     if spec:

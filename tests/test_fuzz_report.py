@@ -54,6 +54,7 @@ def exports(draw):
     rt = 1.0
     for _ in range(n):
         rt += draw(st.floats(0.05, 4.0))
+        rt = round(rt, 2)
         kind = draw(st.sampled_from(["ok"] * 6 + ["other_mark", "grouped", "bad"]))
         value = round(draw(st.floats(0.5, 5e6)), draw(st.integers(0, 3)))
         rows.append({"rt": round(rt, 3), "value": value, "kind": kind,
@@ -61,7 +62,7 @@ def exports(draw):
                      "name": draw(name_st)})
     meta = {"Sample": draw(st.one_of(st.sampled_from(HOSTILE), st.text(max_size=10))),
             "Operator": draw(st.sampled_from(["R. Quill", "=cmd|' /C calc'!A0", "@x", "-2"]))}
-    cfg = draw(st.sampled_from([None, "[identify]\nri_tolerance = 5.0\n",
+    cfg = draw(st.sampled_from([None] * 8 + ["[identify]\nri_tolerance = 5.0\n",
                                 "[identify]\nri_tolerance = nan\n",
                                 "[identify]\nri_tolerance = inf\n",
                                 "[reader]\nzero_area = \"keep\"\n",
@@ -94,13 +95,16 @@ def write_export(case: dict, path: Path) -> dict[int, float | None]:
     meant: dict[int, float | None] = {}
     for row in case["rows"]:
         if row["kind"] == "bad":
-            area, value = row["bad"], None
+            # "0" is kept with [reader] zero_area = "keep"; "12%" is 12 (a unit sign)
+            area, value = row["bad"], {"0": 0.0, "12%": 12.0}.get(row["bad"])
         elif row["kind"] == "other_mark":
             # the other mark, written so it cannot be read as grouping (1, 2 or 4+ decimals)
             area, value = fmt_number(row["value"] + 0.25, other, False), row["value"] + 0.25
         else:
             area, value = fmt_number(row["value"], mark, row["kind"] == "grouped"), row["value"]
-        cells = [fmt_number(row["rt"], mark, False), area, row["name"]]
+        # times with two decimals: "2,422" next to an area "4818600.45" is 2422 by the
+        # table's evidence (a decimal point), a reading the generator cannot mean otherwise
+        cells = [fmt_number(round(row["rt"], 2), mark, False), area, row["name"]]
         line_no = len("\n".join(lines).split("\n")) + 1
         lines.append(sep.join(quote(c, sep) for c in cells))
         meant[line_no] = value
@@ -156,12 +160,14 @@ def test_report_on_hostile_exports(tmp_path_factory, case):
                 key = round(comp["rt_min"], 3)
                 area_at[key] = area_at.get(key, 0.0) + (comp.get("area") or 0.0)
         rt_of = {line: row["rt"] for line, row in zip(meant, case["rows"])}
+        silent = []
         for line, value in meant.items():
             if line in logged:
                 continue
             got = area_at.get(round(rt_of[line], 3))
             if value is None or got is None or not math.isclose(got, value, rel_tol=1e-7):
-                outcome["silent_changes"] += 1
-        assert outcome["silent_changes"] == 0, (area_at, result["import_log"], meant)
+                silent.append((line, rt_of[line], value, got))
+        outcome["silent_changes"] = len(silent)
+        assert not silent, (silent, result["import_log"])
     finally:
         _record(outcome)

@@ -432,7 +432,8 @@ def process_task(task: Task, job: Job) -> list[dict]:
                     row["this_batch"] = UP_TO_DATE
                     row["output"] = _outputs(path, out_dir, job.formats)
                     outcomes.append({"row": row, "result": None, "path": _rel(path, out_dir),
-                                     "order": _order(result)})
+                                     "order": _order(result),
+                                     "provenance": result.get("provenance")})
                 return outcomes
             other = _foreign_result(task, out_dir)
             if other:
@@ -455,9 +456,10 @@ def process_task(task: Task, job: Job) -> list[dict]:
                              "order": (task.rel, index)})
         # results of runs that the input no longer holds (a sheet removed) would be stale
         keep = {o["path"] for o in outcomes}
-        for path, _ in existing:
-            if _rel(path, out_dir) not in keep:
-                path.unlink(missing_ok=True)
+        removed = [_rel(p, out_dir) for p, _ in existing if _rel(p, out_dir) not in keep]
+        for rel in removed:
+            (out_dir / rel).unlink(missing_ok=True)
+        outcomes[0]["removed"] = removed
         return outcomes
     except DhaError as err:
         return [{"row": _error_row(task, str(err)), "result": None, "path": None,
@@ -528,14 +530,15 @@ def run_batch(files: list[Path], out_dir: Path, settings: dict, *, spec: str | N
               jobs: int = 1, overwrite: bool = False,
               progress: Callable[[int], None] | None = None,
               engine: str = "local", scheduler: str | None = None,
-              on_result: Callable[[dict], None] | None = None):
+              on_result: Callable[[dict], None] | None = None, database: bool = True):
     """Process ``files`` into ``out_dir``; return the summary table (one row per result).
 
     Rows are sorted by input path (then run order within a workbook), whatever order the
     workers finish in; results already in the folder from earlier batches are included. The
     returned DataFrame carries counts in ``table.attrs["counts"]``.
-    ``on_result(outcome)`` is called in the driver as each run finishes (the results
-    database uses it).
+    ``on_result(outcome)`` is called in the driver as each run finishes. With ``database``
+    every run is also stored in the folder's results database (``dha.results_db``), one
+    transaction per run as it finishes.
     """
     import pandas as pd
     from dha import specs
@@ -554,26 +557,41 @@ def run_batch(files: list[Path], out_dir: Path, settings: dict, *, spec: str | N
               unidentified_flag=float(settings["batch"]["unidentified_flag_mass_pct"]))
     rows: list[tuple[tuple, dict]] = []
     seen_paths: set[str] = set()
+    recorder = None
+    if database:
+        from dha.results_db import Recorder
+        recorder = Recorder(out_dir)
+
+    def record(outcome: dict) -> None:
+        if recorder is not None:
+            recorder(outcome)
+        if on_result is not None:
+            on_result(outcome)
 
     def collect(outcomes: list[dict]) -> None:
         for o in outcomes:
             rows.append((o["order"], o["row"]))
             if o["path"]:
                 seen_paths.add(o["path"])
-            if on_result is not None:
-                on_result(o)
+            record(o)
         if progress:
             progress(1)
 
-    if engine == "dask":
-        from dha.batch_dask import run_on_dask
-        run_on_dask(plan.tasks, job, collect, scheduler=scheduler, jobs=jobs)
-    elif jobs <= 1 or len(plan.tasks) <= 1:
-        for task in plan.tasks:
-            collect(process_task(task, job))
-    else:
-        run_in_pool(plan.tasks, job, collect, jobs)
-    rows += [(order, row) for order, row in earlier_rows(out_dir, seen_paths, job)]
+    try:
+        if engine == "dask":
+            from dha.batch_dask import run_on_dask
+            run_on_dask(plan.tasks, job, collect, scheduler=scheduler, jobs=jobs)
+        elif jobs <= 1 or len(plan.tasks) <= 1:
+            for task in plan.tasks:
+                collect(process_task(task, job))
+        else:
+            run_in_pool(plan.tasks, job, collect, jobs)
+        for outcome in earlier_rows(out_dir, seen_paths, job):
+            rows.append((outcome["order"], outcome["row"]))
+            record(outcome)
+    finally:
+        if recorder is not None:
+            recorder.close()
     rows.sort(key=lambda item: (str(item[0][0]), item[0][1]))
     table = pd.DataFrame([r for _, r in rows]).reindex(columns=SUMMARY_COLUMNS)
     counts = table["this_batch"].value_counts()
@@ -607,7 +625,7 @@ def run_in_pool(tasks: list[Task], job: Job, collect: Callable[[list[dict]], Non
 
 
 def earlier_rows(out_dir: Path, seen: set[str], job: Job):
-    """(order, summary row) of every result in ``out_dir`` that this batch did not touch."""
+    """Outcomes (as ``process_task``'s) of every result in ``out_dir`` this batch did not touch."""
     from dha.library import load_library
 
     library = None
@@ -628,7 +646,8 @@ def earlier_rows(out_dir: Path, seen: set[str], job: Job):
         row = summary_row(result, library, job.unidentified_flag)
         row["this_batch"] = EARLIER
         row["output"] = _outputs(path, out_dir, ("json", "xlsx", "pdf"))
-        yield _order(result) if result.get("provenance") else (rel, 0), row
+        yield {"row": row, "result": result, "path": rel,
+               "order": _order(result) if result.get("provenance") else (rel, 0)}
 
 
 # --------------------------------------------------------------------------------------------
@@ -665,56 +684,100 @@ def write_summary(table, out_dir: Path, profile: dict | None,
 _TREND_UNITS = {"benzene_vol_pct": "benzene [% v/v]", "ron": "RON [-]", "mon": "MON [-]",
                 "aromatics_vol_pct": "aromatics [% v/v]", "olefins_vol_pct": "olefins [% v/v]",
                 "oxygen_mass_pct": "oxygen [% m/m]", "dvpe_kpa": "DVPE [kPa]",
-                "density_kg_m3": "density at 15 °C [kg/m³]", "ethanol_vol_pct": "ethanol [% v/v]"}
+                "density_kg_m3": "density at 15 °C [kg/m³]", "ethanol_vol_pct": "ethanol [% v/v]",
+                "e70_vol_pct": "E70 [% v/v]", "e100_vol_pct": "E100 [% v/v]",
+                "unidentified_mass_pct": "unidentified [% m/m]"}
 
 
-def write_trends(table, out_dir: Path, profile: dict | None,
-                 trend_quantities: list[str]) -> list[Path]:
-    """Trend charts of each quantity across the runs, in injection-time order where known."""
+def _safe_name(text: str) -> str:
+    return re.sub(r"[^\w.-]+", "_", str(text)).strip("_") or "none"
+
+
+def draw_trend(times, values, limits: list[dict], title: str, ylabel: str, path: Path) -> Path:
+    """One trend chart: values against injection time (or run order), limits labelled inside.
+
+    ``times`` are datetimes (NaT where unknown: then the x axis is the run order); ``limits``
+    are the profile's limits of this quantity ({"kind", "value"}). Runs beyond a limit are
+    ringed. No per-run labels: the chart costs the same for 10 runs or 10,000.
+    """
     import matplotlib
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
     import numpy as np
     import pandas as pd
 
+    values = np.asarray(values, dtype=float)
+    times = pd.to_datetime(pd.Series(times), errors="coerce")
+    by_time = bool(times.notna().all()) and len(times) > 0
+    x = times.to_numpy() if by_time else np.arange(1, len(values) + 1)
+    fig, ax = plt.subplots(figsize=(8, 3.6))
+    ax.plot(x, values, marker="o", ms=3 if len(values) > 50 else 5, lw=1.0, color="#1f5f8b")
+    outside = np.zeros(len(values), dtype=bool)
+    for lim in limits:
+        outside |= (values < lim["value"]) if lim["kind"] == "min" else (values > lim["value"])
+    if outside.any():
+        ax.plot(x[outside], values[outside], ls="none", marker="o", ms=8, mfc="none",
+                mec="#b03a2e", mew=1.4, label="beyond a limit")
+        ax.legend(loc="upper left", fontsize=7, frameon=False)
+    finite = values[np.isfinite(values)]
+    span = [*finite, *(lim["value"] for lim in limits)]
+    if span:
+        lo, hi = min(span), max(span)
+        pad = 0.08 * (hi - lo) if hi > lo else max(abs(hi) * 0.05, 0.5)
+        ax.set_ylim(lo - pad, hi + 2 * pad)     # every limit line and its label inside
+    for lim in limits:
+        ax.axhline(lim["value"], color="#b03a2e", ls="--", lw=1)
+        word = "minimum" if lim["kind"] == "min" else "maximum"
+        ax.text(0.99, lim["value"], f"{word} {lim['value']:g}", transform=ax.get_yaxis_transform(),
+                ha="right", va="bottom" if lim["kind"] == "max" else "top", fontsize=7,
+                color="#b03a2e", bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.7,
+                                       "pad": 1})
+    ax.set_ylabel(ylabel)
+    ax.set_xlabel("injection time" if by_time else "run (input order)")
+    if by_time:
+        fig.autofmt_xdate()
+    ax.set_title(title, fontsize=9)
+    ax.grid(alpha=0.3)
+    fig.tight_layout()
+    atomic_write(path, lambda tmp: fig.savefig(tmp, dpi=100, format="png"))
+    plt.close(fig)
+    return path
+
+
+def profile_limits(spec: str | None, key: str, profile: dict | None = None) -> list[dict]:
+    """The limits of ``key`` in profile ``spec`` (``profile`` if given; [] if none)."""
+    if profile is None and spec:
+        from dha import specs
+        try:
+            profile = specs.load_profile(spec)
+        except DhaError:
+            profile = None
+    return [lim for lim in (profile or {}).get("limits", []) if lim["quantity"] == key]
+
+
+def write_trends(table, out_dir: Path, profile: dict | None,
+                 trend_quantities: list[str]) -> list[Path]:
+    """One trend chart per product (specification profile) and quantity, limits labelled.
+
+    Files: ``trend_<profile>__<quantity>.png`` (``no-spec`` for runs checked against none).
+    """
+    import pandas as pd
+
     ok = table[~is_failure(table)].copy()
     if ok.empty:
         return []
-    times = pd.to_datetime(ok["injection_time"], errors="coerce", format="mixed") \
-        if ok["injection_time"].notna().any() else pd.Series(pd.NaT, index=ok.index)
-    ok["_order"] = times
-    ok = ok.sort_values(["_order", "input"], na_position="last", kind="stable")
-    labels = ok["sample_id"].fillna(ok["input"]).astype(str).tolist()
+    ok["_time"] = pd.to_datetime(ok["injection_time"], errors="coerce", format="mixed")
+    ok["_spec"] = ok["spec"].fillna("no-spec").astype(str)
     written = []
-    for key in trend_quantities:
-        if key not in ok or ok[key].isna().all():
-            continue
-        fig, ax = plt.subplots(figsize=(8, 3.6))
-        values = ok[key].astype(float).to_numpy()
-        ax.plot(range(len(ok)), values, marker="o", lw=1.2, color="#1f5f8b")
-        outside = np.zeros(len(values), dtype=bool)
-        for lim in (profile or {}).get("limits", []):
-            if lim["quantity"] == key:
-                outside |= (values < lim["value"]) if lim["kind"] == "min" else (values > lim["value"])
-        if outside.any():
-            ax.plot(np.flatnonzero(outside), values[outside], ls="none", marker="o", ms=8,
-                    mfc="none", mec="#b03a2e", mew=1.6, label="beyond a limit")
-            ax.legend(loc="best", fontsize=7, frameon=False)
-        for lim in (profile or {}).get("limits", []):
-            if lim["quantity"] == key:
-                ax.axhline(lim["value"], color="#b03a2e", ls="--", lw=1)
-                ax.annotate(f"{lim['kind']} {lim['value']:g}", (0, lim["value"]),
-                            textcoords="offset points", xytext=(2, 3), fontsize=7, color="#b03a2e")
-        ax.set_ylabel(_TREND_UNITS.get(key, key))
-        ax.set_xticks(range(len(ok)))
-        ax.set_xticklabels(labels, rotation=60, ha="right", fontsize=6)
-        ax.set_title(f"{_TREND_UNITS.get(key, key)} across the batch "
-                     f"({'injection-time order' if ok['_order'].notna().any() else 'file order'})",
-                     fontsize=9)
-        ax.grid(alpha=0.3)
-        fig.tight_layout()
-        path = out_dir / f"trend_{key}.png"
-        atomic_write(path, lambda tmp: fig.savefig(tmp, dpi=110, format="png"))
-        plt.close(fig)
-        written.append(path)
+    for spec, runs in ok.groupby("_spec", sort=True):
+        runs = runs.sort_values(["_time", "input"], na_position="last", kind="stable")
+        prof = profile if profile is not None and profile.get("name") == spec else None
+        for key in trend_quantities:
+            if key not in runs or runs[key].isna().all():
+                continue
+            label = _TREND_UNITS.get(key, key)
+            limits = profile_limits(None if spec == "no-spec" else spec, key, prof)
+            title = f"{label}: {len(runs)} runs, {'profile ' + spec if spec != 'no-spec' else 'no specification'}"
+            path = out_dir / f"trend_{_safe_name(spec)}__{key}.png"
+            written.append(draw_trend(runs["_time"], runs[key], limits, title, label, path))
     return written

@@ -3,6 +3,7 @@ import json
 import os
 import shutil
 import signal
+import sqlite3
 import subprocess
 import sys
 import time
@@ -12,7 +13,7 @@ import pandas as pd
 import pytest
 from click.testing import CliRunner
 
-from dha import batch
+from dha import batch, results_db
 from dha.batch import expand_inputs, plan_batch, summary_row
 from dha.cli import cli
 from dha.errors import InputError
@@ -204,10 +205,18 @@ def test_sigkill_mid_batch_then_resume(tmp_path, quick):
         if p.name != batch.BATCH_RECORD:
             assert json.loads(p.read_text())["provenance"]["input_path"] == p.stem + ".csv"
     assert not (out / "summary.csv").exists() or len(done_before) == n
+    with sqlite3.connect(out / results_db.DB_NAME) as con:   # whole runs only
+        assert con.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+        stored = con.execute("SELECT run_key, (SELECT COUNT(*) FROM components c "
+                             "WHERE c.run_key = r.run_key) FROM runs r").fetchall()
+    n_components = len(json.loads((out / done_before[0]).read_text())["components"])
+    assert all(k in done_before and m == n_components for k, m in stored)
     r = CliRunner().invoke(cli, ["batch", str(src), "-o", str(out), "--jobs", "1"] + quick)
     assert r.exit_code == 0, r.output
     summary = pd.read_csv(out / "summary.csv")
     assert len(summary) == n
     assert (summary["this_batch"] == batch.UP_TO_DATE).sum() >= len(done_before)
+    with sqlite3.connect(out / results_db.DB_NAME) as con:   # the database caught up
+        assert con.execute("SELECT COUNT(*) FROM runs").fetchone()[0] == n
     # no temporaries left (those of the killed workers are removed by the next batch)
-    assert not [p for p in out.rglob(".*") if p.is_file()]
+    assert not [p for p in out.rglob(".*") if p.is_file() and ".tmp" in p.name]

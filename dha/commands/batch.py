@@ -19,12 +19,18 @@ from dha.commands.options import library_option, settings_option
               help="Per-run formats, comma separated: json, xlsx, pdf.")
 @click.option("-r", "--recursive", is_flag=True,
               help="Also take the export files in the folders' sub-folders (mirrored in the output).")
+@click.option("--engine", type=click.Choice(["local", "dask"]), default="local", show_default=True,
+              help="local: a process pool on this machine; dask: a dask.distributed cluster.")
+@click.option("--scheduler", "scheduler", default=None, metavar="ADDRESS",
+              help="With --engine dask: the scheduler (tcp://host:8786); default a local "
+                   "cluster of --jobs worker processes. Inputs and output folder must be on "
+                   "storage every worker sees under the same path.")
 @library_option
 @settings_option
 @click.option("--overwrite", is_flag=True,
               help="Process every run again, even those whose results are up to date.")
-def batch_command(paths, out_dir, jobs, spec, formats, recursive, library_dir, settings_file,
-                  overwrite):
+def batch_command(paths, out_dir, jobs, spec, formats, recursive, engine, scheduler, library_dir,
+                  settings_file, overwrite):
     """Process many runs (files, folders, globs) into one folder with a summary.
 
     Writes one result per run, in sub-folders that mirror the inputs' folders below the
@@ -40,7 +46,10 @@ def batch_command(paths, out_dir, jobs, spec, formats, recursive, library_dir, s
     \b
     Example:
         dha batch runs/2026-12/ -r -o qc/2026-12 --jobs 2 --spec en228-e10-summer
+        dha batch archive/ -r -o reprocessed/ --engine dask --scheduler tcp://head:8786
     """
+    if scheduler and engine != "dask":
+        raise click.UsageError("--scheduler is for --engine dask")
     from dha import batch, specs
     from dha.settings import load_settings
 
@@ -54,7 +63,8 @@ def batch_command(paths, out_dir, jobs, spec, formats, recursive, library_dir, s
     with click.progressbar(length=len(files), label=f"{len(files)} inputs",
                            file=click.get_text_stream("stderr")) as bar:
         table = batch.run_batch(files, out_dir, settings, spec=spec, library_dir=library_dir,
-                                formats=fmt, jobs=jobs, overwrite=overwrite, progress=bar.update)
+                                formats=fmt, jobs=jobs, overwrite=overwrite, progress=bar.update,
+                                engine=engine, scheduler=scheduler)
     written = batch.write_summary(table, out_dir, profile, settings["batch"]["trend_quantities"])
     counts = table.attrs["counts"]
     failed = table[batch.is_failure(table)]

@@ -41,7 +41,6 @@ import json
 import logging
 import os
 import re
-import secrets
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -49,6 +48,7 @@ from typing import Any, Callable, Iterable
 
 from dha import __version__
 from dha.errors import DhaError, InputError
+from dha.safety import atomic_path, atomic_write_text, inert_frame, inert_workbook, make_folder
 
 log = logging.getLogger("dha.batch")
 
@@ -145,68 +145,37 @@ def settings_sha256(settings: dict, profile: dict | None) -> str:
     return hashlib.sha256(text.encode()).hexdigest()
 
 
-def temp_path(path: Path) -> Path:
-    """A hidden temporary name beside ``path``, same suffix (writers may look at it)."""
-    return path.with_name(f".{path.stem}.{os.getpid()}-{secrets.token_hex(4)}.tmp{path.suffix}")
-
-
-def atomic_write(path: str | Path, writer: Callable[[Path], Any]) -> Path:
+def write_via_temp(path: str | Path, writer: Callable[[Path], Any]) -> Path:
     """Call ``writer(temp)`` on a temporary file beside ``path``, then rename it onto ``path``.
 
-    The rename is atomic on one file system: a reader (or the next batch after a kill) sees
-    the old file or the whole new one, never half of it. The temporary file is removed if the
-    writer fails.
+    The rename is atomic on one file system (``dha.safety.atomic_path``): a reader, or the
+    next batch after a kill, sees the old file or the whole new one, never half of it.
     """
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = temp_path(path)
-    try:
+    with atomic_path(path) as tmp:
         writer(tmp)
-        with open(tmp, "rb+") as fh:
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
-    return path
+    return Path(path)
 
 
-def atomic_write_text(path: str | Path, text: str) -> Path:
-    """Write ``text`` (UTF-8) to ``path`` atomically."""
-    return atomic_write(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
+def remove_stale_temporaries(out_dir: Path, min_age_s: float = 600.0) -> int:
+    """Delete temporary files that a killed batch left in ``out_dir``.
 
-
-def remove_stale_temporaries(out_dir: Path) -> int:
-    """Delete temporary files that a killed batch on this machine left in ``out_dir``.
-
-    Only files whose writing process no longer runs are removed, so a second batch writing
-    into the same folder at the same time keeps its own.
+    Temporaries are hidden ``.<name>.<random>.part`` files (``dha.safety``); only those not
+    touched for ``min_age_s`` are removed, so a second batch writing into the same folder at
+    the same time keeps its own. They never carry a result's name, so a left-over one is never
+    mistaken for a result.
     """
+    import time
+
     n = 0
-    for tmp in out_dir.rglob(".*.tmp*"):
-        m = _TEMP_NAME.match(tmp.name)
-        if m and not _pid_alive(int(m.group(1))):
-            tmp.unlink(missing_ok=True)
-            n += 1
+    now = time.time()
+    for tmp in out_dir.rglob(".*.part"):
+        try:
+            if tmp.is_file() and now - tmp.stat().st_mtime > min_age_s:
+                tmp.unlink()
+                n += 1
+        except OSError:
+            continue
     return n
-
-
-_TEMP_NAME = re.compile(r"^\..*\.(\d+)-[0-9a-f]{8}\.tmp(\.\w+)?$")
-
-
-def _pid_alive(pid: int) -> bool:
-    """Whether process ``pid`` runs on this machine (a zombie left by a kill does not)."""
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    except OSError:
-        return True
-    try:
-        with open(f"/proc/{pid}/stat", encoding="ascii", errors="replace") as fh:
-            return fh.read().rsplit(")", 1)[-1].split()[0] not in ("Z", "X")
-    except (OSError, IndexError):
-        return True
 
 
 # --------------------------------------------------------------------------------------------
@@ -506,7 +475,7 @@ def write_outputs_atomic(result: dict, folder: Path, stem: str, formats) -> list
     written = []
     for fmt in sorted(todo, key=lambda f: f == "json"):
         target = folder / f"{stem}.{fmt}"
-        atomic_write(target, lambda tmp, fmt=fmt: table[fmt](result, tmp))
+        table[fmt](result, target)      # every writer writes atomically (dha.safety)
         written.append(target)
     return written
 
@@ -545,7 +514,7 @@ def run_batch(files: list[Path], out_dir: Path, settings: dict, *, spec: str | N
 
     out_dir = Path(out_dir)
     plan = plan_batch(files, out_dir)
-    out_dir.mkdir(parents=True, exist_ok=True)
+    make_folder(out_dir)
     remove_stale_temporaries(out_dir)
     write_record(out_dir, plan.root)
     if spec is None:
@@ -660,7 +629,7 @@ def write_summary(table, out_dir: Path, profile: dict | None,
 
     written = []
     csv_path = out_dir / "summary.csv"
-    atomic_write(csv_path, lambda tmp: table.to_csv(tmp, index=False))
+    atomic_write_text(csv_path, inert_frame(table).to_csv(index=False), newline="")
     written.append(csv_path)
     xlsx_path = out_dir / "summary.xlsx"
 
@@ -674,8 +643,9 @@ def write_summary(table, out_dir: Path, profile: dict | None,
                 for col in ws.columns:
                     width = max(len(str(c.value)) if c.value is not None else 0 for c in col)
                     ws.column_dimensions[col[0].column_letter].width = min(max(10, width + 2), 50)
+            inert_workbook(xw.book)  # string cells only (no live formula), controls visible
 
-    atomic_write(xlsx_path, write_xlsx)
+    write_via_temp(xlsx_path, write_xlsx)
     written.append(xlsx_path)
     written += write_trends(table, out_dir, profile, trend_quantities)
     return written
@@ -739,7 +709,7 @@ def draw_trend(times, values, limits: list[dict], title: str, ylabel: str, path:
     ax.set_title(title, fontsize=9)
     ax.grid(alpha=0.3)
     fig.tight_layout()
-    atomic_write(path, lambda tmp: fig.savefig(tmp, dpi=100, format="png"))
+    write_via_temp(path, lambda tmp: fig.savefig(tmp, dpi=100, format="png"))
     plt.close(fig)
     return path
 

@@ -40,7 +40,8 @@ def history_command(source, sample, spec, product, since, until, quantities, out
         return
     out_dir.mkdir(parents=True, exist_ok=True)
     csv_path = out_dir / "history.csv"
-    batch.atomic_write(csv_path, lambda tmp: runs.to_csv(tmp, index=False))
+    from dha.safety import atomic_write_text, inert_frame
+    atomic_write_text(csv_path, inert_frame(runs).to_csv(index=False), newline="")
     keys = list(quantities) or load_settings()["batch"]["trend_quantities"]
     charts = []
     if not runs.empty:

@@ -91,6 +91,8 @@ def process_run(run, settings: dict, library, spec: str | None = None,
     result = build_result(run, quant, groups, properties, library, settings,
                           extra_warnings=id_warnings, identification=identification,
                           generated_at=generated_at)
+    from dha.explain import result_keys as _octane_keys
+    result.update(jsonable(_octane_keys(quant.table, library, settings, result["properties"])))
     if spec is None:
         spec = settings.get("report", {}).get("spec", "")
     if spec:

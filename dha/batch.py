@@ -393,6 +393,7 @@ def process_task(task: Task, job: Job) -> list[dict]:
     out_dir = Path(job.out_dir)
     try:
         library = load_library(job.library_dir)
+        pipeline.check_input_path(task.path)   # missing, a folder, a FIFO: one line, no traceback
         provenance = {"input_sha256": sha256_file(task.path), "library_sha256": library.sha256,
                       "settings_sha256": job.settings_sha256, "tool_version": __version__}
         existing = _existing_results(task, out_dir)
@@ -437,7 +438,9 @@ def process_task(task: Task, job: Job) -> list[dict]:
         return [{"row": _error_row(task, str(err)), "result": None, "path": None,
                  "order": (task.rel, 0)}]
     except Exception as err:  # a bug must not stop the other runs of the batch
-        log.exception("internal error on %s", task.rel)
+        log.error("internal error on %s (%s: %s); run with -vv for details", task.rel,
+                  type(err).__name__, err)
+        log.debug("internal error on %s", task.rel, exc_info=True)
         return [{"row": _error_row(task, f"internal error ({err.__class__.__name__}: {err}); "
                                    "please report it"), "result": None, "path": None,
                  "order": (task.rel, 0)}]

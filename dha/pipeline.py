@@ -150,9 +150,8 @@ def process_file(path: str | Path, settings: dict, library, spec: str | None = N
     return [r for _, r in process_file_stems(path, settings, library, spec)]
 
 
-def process_file_stems(path: str | Path, settings: dict, library,
-                       spec: str | None = None) -> list[tuple[str, dict]]:
-    """As ``process_file``, with each result's output stem."""
+def check_input_path(path: str | Path) -> Path:
+    """``path`` as a Path if it is a regular file; else one-line ``InputError``."""
     path = Path(path)
     if path.is_dir():
         raise InputError(f"{path}: is a folder; give the export files (or use dha batch)")
@@ -161,6 +160,13 @@ def process_file_stems(path: str | Path, settings: dict, library,
     if not path.is_file():
         raise InputError(f"{path}: not a regular file (a device, pipe or socket); give the "
                          "export file itself")
+    return path
+
+
+def process_file_stems(path: str | Path, settings: dict, library,
+                       spec: str | None = None) -> list[tuple[str, dict]]:
+    """As ``process_file``, with each result's output stem."""
+    path = check_input_path(path)
     from dha.reader import read_input
     runs = read_input(path, settings)
     if not runs:

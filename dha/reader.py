@@ -1038,7 +1038,9 @@ def _read_text(text: str, name: str, rs: dict[str, Any],
             *fast, decimal = fast
         else:
             decimal = fixed
-            body = _split_records(kept, line_nos.tolist(), sep, name, pre_logs)
+            # every line, blank ones too: a blank line may sit inside a quoted cell
+            body = _split_records(body_lines, list(range(hi + 2, hi + 2 + len(body_lines))),
+                                  sep, name, pre_logs)
     else:
         body = [(j, _split_line(ln, sep), ln.replace("\t", "  "))
                 for j, ln in enumerate(lines[hi + 1:], start=hi + 2) if ln.strip()]
@@ -1098,6 +1100,10 @@ def _check_text_limits(lines: list[str], name: str, rs: dict[str, Any]) -> None:
             "export (or raise the limit in a settings file)")
 
 
+def _blank_cells(cells: list[Any]) -> bool:
+    return all(not str(c).strip(' \t;,"') for c in cells)
+
+
 def _split_records(kept: list[str], line_nos: list[int], sep: str, name: str,
                    logs: list[dict[str, Any]]) -> list[tuple[int, list[Any], None]]:
     """Rows of a delimited body with quoted cells that may span lines.
@@ -1113,7 +1119,9 @@ def _split_records(kept: list[str], line_nos: list[int], sep: str, name: str,
             row = line_nos[before] if before < len(line_nos) else line_nos[-1]
             if reader.line_num - before > 3:
                 # a stray quote, not a name on two lines: split every line on its own
-                return [(ln, _split_line(raw, sep), None) for ln, raw in zip(line_nos, kept)]
+                return [(ln, cells, None) for ln, cells in
+                        ((ln, _split_line(raw, sep)) for ln, raw in zip(line_nos, kept))
+                        if not _blank_cells(cells)]
             if reader.line_num - before > 1 or any("\n" in c for c in cells):
                 joined = [c.replace("\n", " ") for c in cells]
                 if joined != cells:
@@ -1123,7 +1131,8 @@ def _split_records(kept: list[str], line_nos: list[int], sep: str, name: str,
                                            "replaced by a space"})
                 cells = joined
             before = reader.line_num
-            body.append((row, cells, None))
+            if not _blank_cells(cells):      # blank (or separator-only) lines are not rows
+                body.append((row, cells, None))
     except csv.Error as err:
         raise InputError(f"{name}, row {line_nos[min(before, len(line_nos) - 1)]}: cannot split "
                          f"the table into cells ({err}); check the quotes in the export") from None

@@ -105,7 +105,9 @@ def write_export(case: dict, path: Path) -> dict[int, float | None]:
         # times with two decimals: "2,422" next to an area "4818600.45" is 2422 by the
         # table's evidence (a decimal point), a reading the generator cannot mean otherwise
         cells = [fmt_number(round(row["rt"], 2), mark, False), area, row["name"]]
-        line_no = len("\n".join(lines).split("\n")) + 1
+        # the reader's line numbers: a lone CR ends a line too (old Mac files)
+        so_far = "\n".join(lines)
+        line_no = len(so_far.replace("\r\n", "\n").replace("\r", "\n").split("\n")) + 1
         lines.append(sep.join(quote(c, sep) for c in cells))
         meant[line_no] = value
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")

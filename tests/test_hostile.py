@@ -421,3 +421,36 @@ def test_11_dangling_symlink_at_an_output_path_is_not_followed(tmp_path):
     res, _ = report(tmp_path, src, extra=("--overwrite",))
     assert res.exit_code == 0, res.stderr
     assert not outside.exists() and not (out / "r.json").is_symlink()
+
+
+# ----------------------------------------------------------------------------- every writer
+
+def _hostile_result() -> dict:
+    result = json.loads((Path(__file__).parent / "data" / "sample_result.json").read_text())
+    result["sample"]["id"] = "=HYPERLINK(\"http://example.invalid\",\"y\")\x07\x1b[31m"
+    result["sample"]["operator"] = "+cmd\x00"
+    result["components"][0]["name"] = "@SUM(A1)\x07"
+    result["warnings"].append("\x1b]0;title\x07")
+    return result
+
+
+def test_each_writer_takes_hostile_text(tmp_path):
+    from dha.report import WRITERS
+    from dha.result import write_json
+
+    result = _hostile_result()
+    for fmt, writer in WRITERS.items():
+        path = writer(result, tmp_path / f"r.{fmt}")
+        assert Path(path).stat().st_size > 0, fmt
+    write_json(result, tmp_path / "r.json")
+    assert live_formulas(tmp_path) == []
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(
+        ["r.json"] + [f"r.{fmt}" for fmt in WRITERS])           # no temporary file left
+    wb = load_workbook(tmp_path / "r.xlsx")
+    texts = [c.value for ws in wb.worksheets for row in ws.iter_rows() for c in row
+             if isinstance(c.value, str)]
+    assert any("<BEL>" in t for t in texts) and not any("\x07" in t for t in texts)
+    if "pdf" in WRITERS:
+        from pypdf import PdfReader
+        text = "".join(page.extract_text() or "" for page in PdfReader(tmp_path / "r.pdf").pages)
+        assert "\x07" not in text and "\x1b" not in text

@@ -285,3 +285,17 @@ def test_sigkill_mid_batch_then_resume(tmp_path, quick):
     assert all(p.name.startswith(".") and p.name.endswith(".part")
                for p in out.rglob("*") if p.is_file() and p.suffix not in
                (".json", ".csv", ".xlsx", ".png", ".sqlite", ".sqlite-wal", ".sqlite-shm"))
+
+
+def test_library_check_runs_once_per_checksum(tmp_path, monkeypatch):
+    from dha import library as libmod
+
+    monkeypatch.setenv("DHA_CACHE_DIR", str(tmp_path / "cache"))
+    lib = libmod.read_library(libmod._folders(None))
+    calls = []
+    real = libmod.check_library
+    monkeypatch.setattr(libmod, "check_library", lambda x: calls.append(1) or real(x))
+    first = libmod.checked_problems(lib)
+    second = libmod.checked_problems(lib)
+    assert calls == [1] and first == second
+    assert len(list((tmp_path / "cache" / "library-checks").glob("*.json"))) == 1

@@ -25,6 +25,7 @@ COMMAND_MODULES = (
     "dha.commands.demo",
     "dha.commands.index",
     "dha.commands.octane",
+    "dha.commands.history",
 )
 
 

@@ -200,6 +200,5 @@ def dumps(result: dict[str, Any]) -> str:
 
 def write_json(result: dict[str, Any], path: str | Path) -> Path:
     """Write a result as JSON to ``path``; returns the path."""
-    path = Path(path)
-    path.write_text(dumps(result), encoding="utf-8")
-    return path
+    from dha.safety import atomic_write_text
+    return atomic_write_text(path, dumps(result))

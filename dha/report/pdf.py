@@ -30,6 +30,7 @@ from typing import Any, Sequence
 from xml.sax.saxutils import escape
 
 from dha.errors import InputError
+from dha.safety import atomic_write_bytes, visible_data
 from dha.report import (
     AROMATICS_DETAIL_LABELS, BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, NULL_TEXT,
     RESPONSIBILITY_TEXT, STANDARD_METHODS, VERDICT_WORDS, carbon_label, decimals_of,
@@ -914,18 +915,13 @@ def write_pdf(result: dict, path) -> Path:
     Path
         The file written.
     """
+    if not isinstance(result, dict):
+        raise InputError(f"write_pdf: result must be a dict (dha-result/1), got "
+                         f"{type(result).__name__}")
+    result = visible_data(result)  # control characters shown, never written raw
     data = build_pdf(result)
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    _write_bytes(path, data)
-    return path
-
-
-def _write_bytes(path: Path, data: bytes) -> None:
-    """One call that writes the file (atomically when the project's safe writer is there)."""
-    try:
-        from dha.safety import atomic_write_bytes  # type: ignore[attr-defined]
-    except ImportError:
-        path.write_bytes(data)
-        return
     atomic_write_bytes(path, data)
+    log.info("wrote %s", path)
+    return path

@@ -185,6 +185,20 @@ class _NameIndex:
                 self.n_alkanes[int(row["carbon_number"])] = name
         for kk in self.ambiguous:
             self.by_key.pop(kk, None)
+        # names and CAS numbers without cis/trans (component_library/stereo_unspecified.csv)
+        self.stereo_by_key: dict[str, str] = {}
+        self.stereo_by_cas: dict[str, str] = {}
+        stereo = getattr(library, "stereo", None)
+        if stereo is not None:
+            for entry, srow in stereo.iterrows():
+                for k in [entry] + [t for t in str(srow.get("synonyms") or "").split(";")
+                                    if t.strip()]:
+                    kk = name_key(k)
+                    if kk and kk not in self.by_key:
+                        self.stereo_by_key.setdefault(kk, entry)
+                ck = cas_key(srow.get("cas"))
+                if ck and ck not in self.by_cas:
+                    self.stereo_by_cas.setdefault(ck, entry)
         if self.ambiguous:
             log.warning("library: %d names/synonyms are shared by two components and are not "
                         "used for matching: %s", len(self.ambiguous), ", ".join(sorted(self.ambiguous)[:5]))
@@ -259,6 +273,74 @@ def match_name(text: Any, library: Any) -> str | None:
         The library's canonical name.
     """
     return _index_for(library).match(text)[0]
+
+
+def match_stereo(text: Any, library: Any) -> str | None:
+    """Stereo-unspecified entry (``library.stereo``) for a name or CAS number without cis/trans.
+
+    Tolerant in the same way as :func:`match_name`, which is tried first: a name or CAS number
+    of a library component never lands here. ``library.stereo_isomers(entry)`` gives the
+    isomers and their default shares.
+
+    >>> from dha.library import load_library
+    >>> match_stereo("Cyclohexane, 1,3-dimethyl-", load_library())
+    '1,3-dimethylcyclohexane'
+    """
+    index = _index_for(library)
+    if text is None or (isinstance(text, float) and math.isnan(text)) or not str(text).strip():
+        return None
+    ck = cas_key(text)
+    if ck is not None:
+        return index.stereo_by_cas.get(ck)
+    return index.stereo_by_key.get(name_key(text))
+
+
+def _stereo_named(table: pd.DataFrame, library: Any) -> dict[int, str]:
+    """Row position -> stereo-unspecified entry, for peaks whose CAS or name has no cis/trans."""
+    out: dict[int, str] = {}
+    if getattr(library, "stereo", None) is None or library.stereo.empty:
+        return out
+    for i in np.flatnonzero(table["component"].isna().to_numpy()):
+        entry = match_stereo(table.at[i, "cas"], library) or match_stereo(table.at[i, "name"],
+                                                                          library)
+        if entry is not None:
+            out[int(i)] = entry
+    return out
+
+
+def _assign_stereo(table: pd.DataFrame, stereo_of: dict[int, str], peak_ri: np.ndarray,
+                   library: Any, warnings: list[str]) -> None:
+    """Give each peak named without cis/trans one library isomer (in place).
+
+    Rule (DEVELOPERS.md): among the entry's isomers not already named on another peak, the one
+    whose library retention index is nearest the peak's index; without a peak index, the
+    isomer with the largest default share (the first listed on a tie). The choice is listed
+    in a warning. A peak is not split: the isomers of one name elute apart on this phase.
+    """
+    comps = library.components
+    used = set(table["component"].dropna())
+    notes = []
+    for i, entry in sorted(stereo_of.items()):
+        isomers = [(n, w) for n, w in library.stereo_isomers(entry) if n not in used]
+        if not isomers:
+            continue
+        ri = float(peak_ri[i]) if np.isfinite(peak_ri[i]) else math.nan
+        lib_ri = pd.to_numeric(comps.loc[[n for n, _ in isomers], "retention_index"],
+                               errors="coerce").to_numpy(dtype=float)
+        if math.isfinite(ri) and np.isfinite(lib_ri).any():
+            k = int(np.nanargmin(np.abs(lib_ri - ri)))
+            why = f"nearest index, {ri:.1f} vs {lib_ri[k]:.1f}"
+        else:
+            k = int(np.argmax([w for _, w in isomers]))
+            why = "no peak index: largest default share"
+        name = isomers[k][0]
+        table.at[i, "component"] = name
+        table.at[i, "match"] = "name"
+        used.add(name)
+        notes.append(f"row {table.at[i, 'row']} {entry!r} -> {name} ({why})")
+    if notes:
+        warnings.append("peak names without cis/trans assigned to one library isomer: "
+                        + "; ".join(notes))
 
 
 def match_names(peaks: pd.DataFrame, library: Any, use_names: bool = True) -> pd.DataFrame:
@@ -415,11 +497,15 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     table["component"] = nm["component"].astype(object)
     table["match"] = nm["match"].astype(object)
 
+    # names/CAS numbers without cis/trans: assigned to an isomer once indices are known
+    stereo_of = _stereo_named(table, library) if s.get("use_names", True) else {}
     # export names the library does not know: kept, listed
     unknown_names: list[str] = []
     if s.get("use_names", True):
         has_name = table["name"].notna() & (table["name"].astype(str).str.strip() != "")
         for i in np.flatnonzero(has_name.to_numpy() & table["component"].isna().to_numpy()):
+            if i in stereo_of:
+                continue
             unknown_names.append(str(table.at[i, "name"]))
         if unknown_names:
             uniq = sorted(set(unknown_names))
@@ -461,6 +547,9 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         elif not table["component"].notna().all():
             warnings.append("no retention indices: the export has none and no n-alkane markers "
                             "were found; peaks without a known name stay unidentified")
+
+    if stereo_of:
+        _assign_stereo(table, stereo_of, peak_ri, library, warnings)
 
     # 2. alignment of the peaks left
     comp = table["component"].to_numpy(dtype=object).copy()

@@ -163,11 +163,15 @@ def test_all_components_and_logs_listed(pages, result):
 
 def test_composition_table_is_labelled_and_comment_lines_are_notes(result, tmp_path):
     res = copy.deepcopy(result)
-    res.pop("mass_balance")
+    res["mass_balance"] = {"basis": "vol_pct", "rows": {"in_library": 48, "stereo_split": 0,
+                                                        "not_in_library": 1, "total": 49},
+                           "amount_share_pct": {"not_in_library": 0.4},
+                           "sum_before_normalisation": 99.6}
     for c in res["components"]:
         c["rt_min"] = None
     text = _read(write_pdf(res, tmp_path / "c.pdf"))
     assert "COMPOSITION TABLE" in text[0]
+    assert "49 rows in the composition table" in text[0] and "1 not in the library" in text[0]
     assert "Composition from the composition table" in text[0]
     assert "Composition (from the DHA)" not in text[0]
     # the input's comment line is shown as a note of the file header, without its "#"

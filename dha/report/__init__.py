@@ -371,8 +371,11 @@ def input_kind(result: dict) -> str:
     kind = (result.get("sample") or {}).get("input_kind")
     if kind:
         return str(kind)
-    if result.get("mass_balance"):
+    mb = result.get("mass_balance")
+    if isinstance(mb, dict) and "peaks" in mb:
         return "peak table"
+    if isinstance(mb, dict) and "rows" in mb:
+        return "composition table"
     comps = result.get("components") or []
     if comps and all(c.get("rt_min") is None for c in comps):
         return "composition table"
@@ -400,6 +403,21 @@ def mass_balance_words(result: dict) -> str:
     tail = (f"; {len(log_rows)} row{'s' if len(log_rows) != 1 else ''} of the file skipped or "
             "changed: see the import log." if log_rows else "; no row of the file skipped.")
     mb = result.get("mass_balance")
+    if isinstance(mb, dict) and "rows" in mb and "peaks" not in mb:
+        rows = mb.get("rows") or {}
+        share = mb.get("amount_share_pct") or {}
+        basis = BASIS_UNITS.get(str(mb.get("basis")), "")
+        text = (f"{rows.get('total', 0)} rows in the composition table: "
+                f"{rows.get('in_library', 0)} components of the library")
+        if rows.get("stereo_split"):
+            text += f", {rows['stereo_split']} split over cis/trans isomers"
+        out = rows.get("not_in_library") or 0
+        text += (f", {out} not in the library ({fmt_number(share.get('not_in_library'), 2)} % "
+                 "of the amount, kept as unidentified)" if out else ", none outside it")
+        total = mb.get("sum_before_normalisation")
+        if is_number(total):
+            text += f"; the amounts summed to {total:.3f} {basis} before normalisation to 100"
+        return text + tail
     if not isinstance(mb, dict) or not mb:
         n = len(result.get("components") or [])
         return f"{n} components in the composition table{tail}"

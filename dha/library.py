@@ -998,10 +998,12 @@ def checked_problems(lib: Library) -> tuple[Problem, ...]:
     """``check_library(lib)``, run once per library checksum and checker version.
 
     The result is cached as JSON in :func:`check_cache_dir` under the sha256 of the library
-    files and of this module; a cache that cannot be read or written is ignored.
+    files, their folders and this module; a cache that cannot be read or written is ignored.
     """
     import json
-    key = hashlib.sha256(f"{lib.sha256}:{_checker_sha256()}".encode()).hexdigest()
+    # problems name their files, so the folders are part of the key as well as the contents
+    folders = [str(f) for f in (getattr(lib, "folders", None) or ())]
+    key = hashlib.sha256(f"{lib.sha256}:{_checker_sha256()}:{folders}".encode()).hexdigest()
     path = check_cache_dir() / f"{key}.json"
     try:
         data = json.loads(path.read_text(encoding="utf-8"))

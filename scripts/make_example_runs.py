@@ -256,11 +256,15 @@ def main() -> None:
     tot = sum(vol.values())
     rows = sorted(((k, 100 * v / tot) for k, v in vol.items() if 100 * v / tot >= 0.0005),
                   key=lambda kv: -kv[1])
+    rounded = [[k, round(v, 3)] for k, v in rows]
+    # the rounded amounts sum to exactly 100.000: the largest takes the rounding remainder
+    rounded[0][1] = round(rounded[0][1] + 100.0 - sum(v for _, v in rounded), 3)
+    rows = rounded
     with open(OUT / "hp-blend-recipe.csv", "w", encoding="utf-8") as fh:
         fh.write("# Harbour Point refinery - planned composition of blend B-0412 for tank T-14\n")
         fh.write("# from the blend recipe and typical stream compositions; not a measurement\n")
         pd.DataFrame({"component": [k for k, _ in rows],
-                      "vol_pct": [round(v, 3) for _, v in rows]}).to_csv(
+                      "vol_pct": [v for _, v in rows]}).to_csv(
             fh, index=False, lineterminator="\n")
     # The lab's settings for the demo: its identity and the n-alkane markers of GC-3 from the
     # alkane standard injected at the start of the sequence (the same retention times as the

@@ -23,7 +23,7 @@ from dha.library import load_library
 from dha.pipeline import process_file, write_outputs
 from dha.settings import load_settings
 
-EXAMPLES = Path(__file__).resolve().parents[1] / "example_runs"
+EXAMPLES = Path(__file__).resolve().parents[1] / "dha" / "example_runs"  # shipped with the package
 STREAMS = {
     "alkylate": {"2,2,4-trimethylpentane": 50, "2,3,4-trimethylpentane": 15,
                  "2,3,3-trimethylpentane": 10, "2,5-dimethylhexane": 10, "2-methylbutane": 10,

@@ -105,8 +105,8 @@ def test_held_out_error_on_engine_rated_mixtures(data):
     # 1.85 (all 240: 2.44); issue 6's 1.5 is NOT met on them either. Checked: the subset row
     # exists, is what the split gives, and is below the all-mixture figure.
     table = of.error_table({("interaction", "mon"): of.cross_validate(data, "interaction", "mon")})
-    rated = table[table["family"] == "ALL-0.1"].iloc[0]
-    everything = table[table["family"] == "ALL"].iloc[0]
+    rated = table[table["family"] == "SURR-0.1"].iloc[0]
+    everything = table[table["family"] == "SURR"].iloc[0]
     assert rated["n"] == 192
     assert rated["held_out_rmse"] < everything["held_out_rmse"]
     assert rated["held_out_rmse"] <= 2.0
@@ -144,9 +144,11 @@ def test_compute_matches_the_validated_path(library, data):
 
 def test_stored_uncertainty_is_the_held_out_error(data):
     # The parameter file's cv_rmse must be the held-out error recomputed from the split.
+    # Since the real gasolines: the MON uncertainty is the held-out error on them (all 40).
     params = oc.load_params()
     cv = of.cross_validate(data, "linear_volume", "mon")
-    cv = cv[~cv["estimated_neat"]]
+    cv = cv[cv["source"] == "KUZ2022_GAS"]
+    assert len(cv) == 40
     rmse = float(np.sqrt(np.mean((cv["held_out"] - cv["measured"]) ** 2)))
     # if this fails after a library change: run `python scripts/fit_octane.py`
     assert params["models"]["linear_volume"]["mon"]["cv_rmse"] == pytest.approx(rmse, abs=0.3)
@@ -313,3 +315,59 @@ def test_aromatic_paraffin_term_and_unknown_terms(library):
     with pytest.raises(SettingsError, match="unknown interaction term"):
         oc.blend(np.array([0.5, 0.5]), np.array([100.0, 0.0]), np.array([165.0, 147.0]),
                  ["paraffin", "paraffin"], "interaction", {"k": {"paraffin*paraffin": 5.0}})
+
+
+# ---- real gasolines (KUZ2022_MON, 40 fuels in 6 families; copied in octane_data/) ----------
+
+def test_real_gasolines_are_read_with_their_additives_by_volume(data):
+    # KUZ2022_MON gasolines: "FACE_A+E10" states ethanol 0.1000, "+E25" 0.2500 (nominal % v/v,
+    # a 10 % v/v blend would be about 0.2 by mole); the base fuel's own fractions are by mole.
+    info = data.info[data.info["source"] == "KUZ2022_GAS"]
+    assert len(info) == 40
+    assert info["family"].nunique() == 6
+    eth = data.vol_frac.loc[info.index[info["label"] == "FACE_A+E25"][0], "64-17-5"]
+    assert eth == pytest.approx(0.25, abs=1e-9)
+    # stereo-unspecified 1,3-dimethylcyclohexane (591-21-9) is split onto the library's cis
+    # and trans isomers (octane_data/stereo_unspecified.csv), nothing is left under 591-21-9
+    assert "591-21-9" not in data.vol_frac.columns
+    fg = info.index[info["label"] == "FACE_G"][0]
+    assert data.mol_frac.loc[fg, "638-04-0"] == pytest.approx(data.mol_frac.loc[fg, "2207-03-6"])
+    # the "isoprenol" blends carry 3-methyl-3-buten-1-ol, not the source's diisobutylene CAS
+    iso = info.index[info["label"] == "RBOB5 + 90 vol% isoprenol"][0]
+    assert data.vol_frac.loc[iso, "763-32-6"] == pytest.approx(0.9, abs=1e-9)
+
+
+def test_library_covers_the_real_gasolines(library):
+    # Every component of the 40 fuels is in the library (by CAS, after the stereo rule) except
+    # three without a CAS number or a measured boiling point (mixture_components.csv), at
+    # most 6.4 mol % of one fuel (3-ethyl-5-methylheptane in FACE_G).
+    comps = of.data_components(library.components)
+    used = set(of._gasoline_rows()["cas"])
+    outside = sorted(c for c in used if not comps.loc[c, "in_library"])
+    assert outside == ["1595-11-5", "smiles:CCC(C)CC(CC)CC", "smiles:CCc1c(C)c(C)cc(C)c1C"]
+    lib = library.components
+    # scale edges and new oxygenates, sourced: Co-Optima fuel property database (NREL,
+    # BSD-3-clause style): n-octane RON -18, n-nonane -34, n-decane -41 / MON -38, prenol RON
+    # 94.3, isoprenol RON 97.2; isoprenol MON 83.3 (KUZ2022_MON, listed by name)
+    assert lib.loc["n-octane", "ron"] == -18.0 and lib.loc["n-nonane", "ron"] == -34.0
+    assert (lib.loc["n-decane", "ron"], lib.loc["n-decane", "mon"]) == (-41.0, -38.0)
+    assert lib.loc["3-methyl-2-buten-1-ol", "ron"] == 94.3
+    assert lib.loc["3-methyl-3-buten-1-ol", "mon"] == 83.3
+
+
+def test_leave_one_family_out_on_real_gasolines(data):
+    # Issue 12 asks MON RMSE <= 1.5, |bias| <= 0.5, no family worse than 2.5 (leave-one-family-
+    # out on the 40 real fuels). Reached: 1.78 / -1.00 / RBOB5 2.04 (its prenol blends, whose
+    # neat MON is estimated, 2.3): NOT met; this checks what is reached (+ margin) and that the
+    # model is far better than both linear rules (4.6 and 3.9 on the same split).
+    cv = of.cross_validate(data, "interaction", "mon")
+    gas = cv[cv["source"] == "KUZ2022_GAS"]
+    err = gas["held_out"] - gas["measured"]
+    assert len(gas) == 40
+    assert float(np.sqrt(np.mean(err ** 2))) <= 2.0
+    assert abs(float(err.mean())) <= 1.2
+    worst = gas.assign(e=err).groupby("family")["e"].apply(lambda e: np.sqrt(np.mean(e ** 2)))
+    assert worst.max() <= 2.8
+    # surrogates (KUZ2022_MON mixtures + COOPTIMA) held-out no worse than before (2.44)
+    surr = cv[(cv["source"] != "KUZ2022_GAS") & ~cv["estimated_neat"]]
+    assert float(np.sqrt(np.mean((surr["held_out"] - surr["measured"]) ** 2))) <= 2.44

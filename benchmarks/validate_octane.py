@@ -1,11 +1,11 @@
 """Validation of the octane models on open data: prints the table of `dha octane validate`,
 the neat-value estimator's leave-one-out error on the library, and its error on outside
-compounds (shared pure-component data not in the library).
+compounds (open pure-component data not in the library).
 
     python benchmarks/validate_octane.py [PURE_COMPONENTS_CSV]
 
-The optional argument is the shared open-data file octane/pure_components.csv (default:
-../shared/data/octane/pure_components.csv beside the repository, skipped if absent).
+The optional argument is the open-data file of neat octane numbers (default: the copy in
+tests/data/octane/pure_components.csv, sources in tests/data/PROVENANCE.md).
 """
 from __future__ import annotations
 
@@ -46,7 +46,7 @@ def main(argv: list[str]) -> int:
     for p, e in est.items():
         print(f"  {p.upper()}: n {e.n}, LOO RMSE {e.loo_rmse:.1f}")
     pure = Path(argv[1]) if len(argv) > 1 else (
-        Path(__file__).resolve().parents[1].parent / "shared/data/octane/pure_components.csv")
+        Path(__file__).resolve().parents[1] / "tests/data/octane/pure_components.csv")
     if not pure.exists():
         print(f"\n{pure} not found: outside check of the estimator skipped")
         return 0

@@ -23,6 +23,8 @@ import numpy as np
 import pandas as pd
 
 from dha.errors import DhaError, InputError
+from dha.safety import (atomic_path, atomic_write, atomic_write_text, inert_frame,
+                        inert_workbook, make_folder)
 
 log = logging.getLogger("dha.batch")
 
@@ -158,7 +160,7 @@ def run_batch(files: list[Path], out_dir: Path, settings: dict, *, spec: str | N
 
     Rows keep the order of ``files`` whatever order the workers finish in.
     """
-    out_dir.mkdir(parents=True, exist_ok=True)
+    make_folder(out_dir)
     args = [(str(f), str(out_dir), tuple(formats), spec, settings, library_dir, overwrite)
             for f in files]
     results: dict[int, list[dict]] = {}
@@ -184,10 +186,10 @@ def write_summary(table: pd.DataFrame, out_dir: Path, profile: dict | None,
     """summary.csv, summary.xlsx and one trend chart (PNG) per quantity present."""
     written = []
     csv_path = out_dir / "summary.csv"
-    table.to_csv(csv_path, index=False)
+    atomic_write_text(csv_path, inert_frame(table).to_csv(index=False), newline="")
     written.append(csv_path)
     xlsx_path = out_dir / "summary.xlsx"
-    with pd.ExcelWriter(xlsx_path, engine="openpyxl") as xw:
+    with atomic_path(xlsx_path) as tmp, pd.ExcelWriter(tmp, engine="openpyxl") as xw:
         table.to_excel(xw, sheet_name="runs", index=False)
         flagged = table[table["flags"].fillna("").astype(str).str.len() > 0]
         flagged.to_excel(xw, sheet_name="flagged runs", index=False)
@@ -196,6 +198,7 @@ def write_summary(table: pd.DataFrame, out_dir: Path, profile: dict | None,
             for col in ws.columns:
                 width = max(len(str(c.value)) if c.value is not None else 0 for c in col)
                 ws.column_dimensions[col[0].column_letter].width = min(max(10, width + 2), 50)
+        inert_workbook(xw.book)  # string cells only (no live formula), controls visible
     written.append(xlsx_path)
     written += write_trends(table, out_dir, profile, trend_quantities)
     return written
@@ -251,7 +254,7 @@ def write_trends(table: pd.DataFrame, out_dir: Path, profile: dict | None,
         ax.grid(alpha=0.3)
         fig.tight_layout()
         path = out_dir / f"trend_{key}.png"
-        fig.savefig(path, dpi=110)
+        atomic_write(path, lambda fh: fig.savefig(fh, format="png", dpi=110))
         plt.close(fig)
         written.append(path)
     return written

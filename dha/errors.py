@@ -31,3 +31,7 @@ class SpecError(DhaError, ValueError):
 
 class CalibrationError(DhaError, ValueError):
     """A lab calibration cannot be fitted or applied."""
+
+
+class OutputError(DhaError, OSError):
+    """An output file cannot be written (disk full, permission, a symbolic link in the way)."""

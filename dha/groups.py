@@ -6,7 +6,7 @@
 
 Notes
 -----
-- Totals in mass, volume and mole %: one sum per group of CONTRACT.md; each basis sums to 100
+- Totals in mass, volume and mole %: one sum per group of the dha-result/1 schema; each basis sums to 100
   because the composition table does.
 - Carbon-number buckets ``3, 4, ..., 12, "13+"``: C1 and C2 (methane, ethane: traces in a
   stabilised petrol) are counted in the lowest bucket 3, so that the matrix still sums to 100;

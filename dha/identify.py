@@ -589,7 +589,7 @@ TYPICAL_CARBON_MASS_PCT = {3: 0.3, 4: 5.0, 5: 14.0, 6: 16.0, 7: 18.0, 8: 18.0, 9
 
 #: The oxygenates EN 228 names (methanol, ethanol, isopropyl, isobutyl and tert-butyl alcohol);
 #: with its ethers of five or more carbon atoms they are the default expected oxygenates
-#: (shared/data/facts.md fact 4: the E5 oxygenate limits, verified).
+#: (EN 228:2012+A1:2017 Table 2, the E5 oxygenate limits).
 EN228_ALCOHOLS = ("methanol", "ethanol", "2-propanol", "2-methyl-1-propanol",
                   "2-methyl-2-propanol")
 

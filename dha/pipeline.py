@@ -19,6 +19,7 @@ from dha import properties as _properties
 from dha.properties import PropertyResult
 from dha.quantify import quantify_run
 from dha.result import build_result, jsonable, write_json
+from dha.safety import check_target, make_folder
 
 log = logging.getLogger("dha.pipeline")
 
@@ -90,6 +91,8 @@ def process_run(run, settings: dict, library, spec: str | None = None,
     result = build_result(run, quant, groups, properties, library, settings,
                           extra_warnings=id_warnings, identification=identification,
                           generated_at=generated_at)
+    from dha.explain import result_keys as _octane_keys
+    result.update(jsonable(_octane_keys(quant.table, library, settings, result["properties"])))
     if spec is None:
         spec = settings.get("report", {}).get("spec", "")
     if spec:
@@ -113,7 +116,7 @@ def process_file(path: str | Path, settings: dict, library, spec: str | None = N
 
     Returns
     -------
-    list of result dicts (CONTRACT.md), in the file's run order; ``process_file_stems`` gives
+    list of result dicts (the dha-result/1 schema), in the file's run order; ``process_file_stems`` gives
     each with its output stem
     """
     return [r for _, r in process_file_stems(path, settings, library, spec)]
@@ -171,11 +174,9 @@ def write_outputs(result: dict, out_dir: str | Path, stem: str | None = None,
             result["warnings"].append(msg)
         log.warning("%s: %s", stem, msg)
     todo = {f: p for f, p in targets.items() if f not in missing}
-    if not overwrite:
-        for p in todo.values():
-            if p.exists():
-                raise InputError(f"{p} exists; use --overwrite to replace it")
-    out_dir.mkdir(parents=True, exist_ok=True)
+    for p in todo.values():
+        check_target(p, overwrite)  # an existing file or any symbolic link: refused
+    make_folder(out_dir)
     written = []
     # JSON last, so that it carries every warning the other writers added
     for fmt in sorted(todo, key=lambda f: f == "json"):

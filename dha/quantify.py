@@ -15,7 +15,7 @@ Notes
 Response factors (relative mass response, methane = 1):
 
 - hydrocarbons: ``RRF = (M·0.7487)/(12.011·n_C)``, 0.7487 = 12.011/16.043, i.e. the mass of a
-  compound per mole of carbon relative to methane's (FID responds to carbon; facts.md fact 2);
+  compound per mole of carbon relative to methane's (FID responds to carbon; FID carbon-mass response, ASTM D6730 §15);
 - oxygenates: ``RRF = (M·0.7487)/(12.011·ECN)`` with the library's effective carbon number
   (Sternberg et al. 1962; Scanlon and Willis, J. Chromatogr. Sci. 23 (1985) 333). The library's
   ``ecn`` column is computed with a primary-alcohol oxygen contribution of −0.6 (Sternberg); when
@@ -64,7 +64,7 @@ from dha.errors import InputError, SettingsError
 
 log = logging.getLogger("dha.quantify")
 
-#: The DHA convention 12.011/16.043 (facts.md fact 2: checked equal to M_C/M_CH4).
+#: The DHA convention 12.011/16.043 (FID carbon-mass response, ASTM D6730 §15: checked equal to M_C/M_CH4).
 RRF_CONSTANT = 0.7487
 #: IUPAC abridged standard atomic weights (IUPAC 2013, conventional values).
 ATOMIC_WEIGHT = {"C": 12.011, "H": 1.008, "O": 15.999, "N": 14.007, "S": 32.06}
@@ -137,7 +137,7 @@ def hydrocarbon_rrf(molar_mass_g_mol: float, n_carbon: float) -> float:
 
     Notes
     -----
-    RRF = (M·0.7487)/(12.011·n_C); 0.7487 = 12.011/16.043 (facts.md fact 2).
+    RRF = (M·0.7487)/(12.011·n_C); 0.7487 = 12.011/16.043 (FID carbon-mass response, ASTM D6730 §15).
 
     >>> round(hydrocarbon_rrf(78.114, 6), 4)   # benzene
     0.8115
@@ -354,7 +354,7 @@ def _carbon_numbers(peaks: pd.DataFrame, warnings: list[str]) -> pd.Series:
         else pd.Series(np.nan, index=peaks.index)
     ri = pd.to_numeric(peaks.get("retention_index"), errors="coerce") \
         if "retention_index" in peaks else pd.Series(np.nan, index=peaks.index)
-    from_ri = np.ceil(ri / 100.0 - 1e-9)  # DOMAIN.md §3: n-C6 < peak <= n-C7 -> C7
+    from_ri = np.ceil(ri / 100.0 - 1e-9)  # common trade practice: n-C6 < peak <= n-C7 -> C7
     cn = cn.fillna(from_ri.where(from_ri >= 1))
     if cn.isna().any():
         rows = peaks.loc[cn.isna(), "row"].tolist() if "row" in peaks else list(cn.index[cn.isna()])

@@ -87,6 +87,7 @@ import numpy as np
 import pandas as pd
 
 from dha.errors import InputError, SettingsError
+from dha.safety import has_controls, terminal_text, visible_controls
 
 log = logging.getLogger("dha.reader")
 
@@ -109,6 +110,18 @@ _READER_DEFAULTS: dict[str, Any] = {
     "columns": {}, "zero_area": "skip", "rt_unit": "auto", "decimal": "auto",
     "separator": "auto", "profile": "",
 }
+#: Size guards (``[limits]`` in the settings); these defaults apply when a key is absent.
+LIMIT_DEFAULTS: dict[str, float] = {
+    "max_file_mb": 50.0, "max_workbook_mb": 100.0, "max_rows": 20000, "max_text_chars": 1000,
+}
+#: An area (or composition amount) at or above this is not a measurement: the row is skipped.
+ABSURD_AMOUNT = 1e15
+#: Retention indices outside this range are ignored (methane is 100 by definition; n-C100 is
+#: 10000, far beyond petrol).
+INDEX_RANGE = (100.0, 10000.0)
+#: Retention times beyond this [min] (about a week) are not a chromatogram's.
+MAX_RT_MIN = 10000.0
+
 _TIME_UNITS = {"min": "min", "mins": "min", "minute": "min", "minutes": "min", "m": "min",
                "s": "s", "sec": "s", "secs": "s", "second": "s", "seconds": "s"}
 _SEPARATORS = {"tab": "\t", ";": ";", ",": ",", "whitespace": "  ", "space": " "}
@@ -154,11 +167,20 @@ class Run:
 
 # ----------------------------------------------------------------------------- settings, aliases
 
+def _limits(settings: dict | None) -> dict[str, float]:
+    """The [limits] section with defaults filled in."""
+    out = dict(LIMIT_DEFAULTS)
+    if settings is not None:
+        out.update({k: v for k, v in (settings.get("limits") or {}).items() if k in out})
+    return out
+
+
 def _reader_settings(settings: dict | None) -> dict[str, Any]:
     """The [reader] section with defaults filled in and the import profile applied."""
     out = dict(_READER_DEFAULTS)
     if settings is not None:
         out.update(settings.get("reader", {}))
+    out["limits"] = _limits(settings)
     if out.get("profile"):
         path = Path(out["profile"])
         try:
@@ -168,6 +190,9 @@ def _reader_settings(settings: dict | None) -> dict[str, Any]:
             raise SettingsError(f"{path}: import profile not found; fix [reader] profile") from None
         except (OSError, tomllib.TOMLDecodeError) as err:
             raise SettingsError(f"{path}: import profile is not valid TOML ({err})") from None
+        except UnicodeDecodeError:
+            raise SettingsError(f"{path}: import profile is not a text (TOML) file; fix "
+                                "[reader] profile") from None
         prof = prof.get("reader", prof)
         for key, value in prof.items():
             if key not in _READER_DEFAULTS or key == "profile":
@@ -814,15 +839,18 @@ def read_text(text: str, name: str = "<text>", settings: dict | None = None) -> 
     return [_read_text(text, name, rs)]
 
 
-def _read_text(text: str, name: str, rs: dict[str, Any]) -> Run:
+def _read_text(text: str, name: str, rs: dict[str, Any],
+               pre_logs: list[dict[str, Any]] | None = None) -> Run:
     text = text.lstrip("\ufeff")
     if "\r" in text:
         text = text.replace("\r\n", "\n").replace("\r", "\n")
-    if "\x00" in text:
-        text = text.replace("\x00", "")
     lines = text.split("\n")
     if not text.strip():
         raise InputError(f"{name}: the file is empty; export the peak table again")
+    pre_logs = list(pre_logs or [])
+    if has_controls(text):
+        pre_logs += _clean_control_lines(lines)
+    _check_text_limits(lines, name, rs)
     pinned = rs["columns"]
     seps = _TRY_ORDER if rs["separator"] == "auto" else (_SEPARATORS[rs["separator"]],)
     best: tuple[int, _Header] | None = None
@@ -885,25 +913,96 @@ def _read_text(text: str, name: str, rs: dict[str, Any]) -> Run:
             *fast, decimal = fast
         else:
             decimal = fixed
-            try:
-                parsed = list(csv.reader(kept, delimiter=sep,
-                                         skipinitialspace=True))
-            except csv.Error as err:
-                raise InputError(f"{name}: cannot split the table into cells ({err}); check "
-                                 f"the quotes in the export") from None
-            numbered = list(zip(line_nos.tolist(), kept))
-            if len(parsed) == len(numbered):
-                body = [(ln, cells, None) for (ln, _), cells in zip(numbered, parsed)]
-            else:   # a quoted field spans lines: fall back to line-by-line splitting
-                body = [(ln, _split_line(raw, sep), None) for ln, raw in numbered]
+            body = _split_records(kept, line_nos.tolist(), sep, name, pre_logs)
     else:
         body = [(j, _split_line(ln, sep), ln.replace("\t", "  "))
                 for j, ln in enumerate(lines[hi + 1:], start=hi + 2) if ln.strip()]
     if fast is None:
         fast = _rows_to_columns(body, hdr, sep, spans)
     line_arr, cols, extra, logs = fast
-    return _build_run(name, stem, None, sample, hdr, hi + 1, line_arr, cols, extra, logs,
-                      decimal, rs)
+    return _build_run(name, stem, None, sample, hdr, hi + 1, line_arr, cols, extra,
+                      pre_logs + logs, decimal, rs)
+
+
+def _clean_control_lines(lines: list[str]) -> list[dict[str, Any]]:
+    """Replace control characters in ``lines`` (in place) visibly; one log entry per line.
+
+    NUL characters are removed (they come from padding or a UTF-16 file read as 8-bit text);
+    a form feed or vertical tab becomes a space (a page break); any other control character is
+    shown as ``<BEL>``, ``<ESC>``... Lines holding only white space and page breaks are blank.
+    """
+    logs = []
+    for i, line in enumerate(lines):
+        if not has_controls(line):
+            continue
+        fixed = line.replace("\x00", "").replace("\x0c", " ").replace("\x0b", " ")
+        if not fixed.strip():
+            lines[i] = ""
+            continue
+        shown = visible_controls(fixed)
+        lines[i] = shown
+        what = []
+        if "\x00" in line:
+            what.append(f"{line.count(chr(0))} NUL character(s) removed")
+        if "\x0c" in line or "\x0b" in line:
+            what.append("page-break character(s) replaced by spaces")
+        if shown != fixed:
+            names = sorted(set(re.findall(r"<(?:[A-Z]{2,3}|U\+[0-9A-F]{4})>", shown))
+                           - set(re.findall(r"<(?:[A-Z]{2,3}|U\+[0-9A-F]{4})>", fixed)))
+            what.append("control character(s) shown as " + ", ".join(names))
+        logs.append({"row": i + 1, "action": "changed",
+                     "reason": "; ".join(what) + f" (line now {terminal_text(shown.strip())[:60]!r})"})
+    return logs
+
+
+def _check_text_limits(lines: list[str], name: str, rs: dict[str, Any]) -> None:
+    """Refuse a text with more rows, or a longer line, than ``[limits]`` allows."""
+    limits = rs["limits"]
+    n = len(lines)
+    if n > limits["max_rows"] + 1000:   # metadata lines and blank lines get some room
+        raise InputError(
+            f"{name}: {n} lines, more than [limits] max_rows = {int(limits['max_rows'])} rows "
+            "(a DHA run has a few hundred to a few thousand peaks); split the file or raise "
+            "the limit in a settings file")
+    longest = max(map(len, lines), default=0)
+    if longest > 4 * limits["max_text_chars"] + 2000:
+        row = next(i for i, ln in enumerate(lines, start=1) if len(ln) == longest)
+        raise InputError(
+            f"{name}, row {row}: a line of {longest} characters, longer than [limits] "
+            f"max_text_chars = {int(limits['max_text_chars'])} allows for its cells; check the "
+            "export (or raise the limit in a settings file)")
+
+
+def _split_records(kept: list[str], line_nos: list[int], sep: str, name: str,
+                   logs: list[dict[str, Any]]) -> list[tuple[int, list[Any], None]]:
+    """Rows of a delimited body with quoted cells that may span lines.
+
+    A line break inside a quoted cell is replaced by a space and logged (``changed``) at the
+    row's first line; the row keeps the line number where it starts.
+    """
+    reader = csv.reader((ln + "\n" for ln in kept), delimiter=sep, skipinitialspace=True)
+    body = []
+    before = 0
+    try:
+        for cells in reader:
+            row = line_nos[before] if before < len(line_nos) else line_nos[-1]
+            if reader.line_num - before > 3:
+                # a stray quote, not a name on two lines: split every line on its own
+                return [(ln, _split_line(raw, sep), None) for ln, raw in zip(line_nos, kept)]
+            if reader.line_num - before > 1 or any("\n" in c for c in cells):
+                joined = [c.replace("\n", " ") for c in cells]
+                if joined != cells:
+                    logs.append({"row": row, "action": "changed",
+                                 "reason": f"line break inside a quoted cell (rows {row}-"
+                                           f"{line_nos[min(reader.line_num, len(line_nos)) - 1]}) "
+                                           "replaced by a space"})
+                cells = joined
+            before = reader.line_num
+            body.append((row, cells, None))
+    except csv.Error as err:
+        raise InputError(f"{name}, row {line_nos[min(before, len(line_nos) - 1)]}: cannot split "
+                         f"the table into cells ({err}); check the quotes in the export") from None
+    return body
 
 
 def _fast_columns(body_text: str, line_nos: np.ndarray, sep: str, hdr: _Header,

@@ -1,7 +1,7 @@
-"""The JSON result (``schema: "dha-result/1"``, CONTRACT.md): build it and write it.
+"""The JSON result (``schema: "dha-result/1"``, the dha-result/1 schema): build it and write it.
 
 Determinism: the same input, library and settings give byte-identical JSON apart from
-``generated_at`` (UTC time of the run). Keys come in a fixed order (CONTRACT.md's order, then
+``generated_at`` (UTC time of the run). Keys come in a fixed order (the dha-result/1 schema's order, then
 the extra keys ``mass_balance``, ``aromatics_detail``, ``identification``, ``cyclic_olefins`` (when asked for),
 ``property_details``, ``generated_at``); every float is rounded to 9 significant digits (more
 than any input carries, few enough that summation-order noise in the last bits never shows);
@@ -26,7 +26,7 @@ from dha.properties import PROPERTY_KEYS, PropertyResult
 SCHEMA = "dha-result/1"
 #: Significant digits kept for every float in the JSON.
 FLOAT_DIGITS = 9
-#: Per-component keys of ``components`` (CONTRACT.md), then extras.
+#: Per-component keys of ``components`` (the dha-result/1 schema), then extras.
 COMPONENT_KEYS = ("name", "cas", "group", "carbon_number", "rt_min", "retention_index", "area",
                   "mass_pct", "vol_pct", "mol_pct", "match", "ri_source")
 COMPONENT_EXTRAS = ("rrf", "model_component")
@@ -137,7 +137,7 @@ def build_result(run, composition, groups: dict, properties, library, settings: 
                  checks: list[dict] | None = None, extra_warnings: list[str] | None = None,
                  identification: dict | None = None,
                  generated_at: str | None = None) -> dict[str, Any]:
-    """Every CONTRACT.md key of one run's result, JSON-safe and in a fixed order.
+    """Every the dha-result/1 schema key of one run's result, JSON-safe and in a fixed order.
 
     Parameters
     ----------
@@ -200,6 +200,5 @@ def dumps(result: dict[str, Any]) -> str:
 
 def write_json(result: dict[str, Any], path: str | Path) -> Path:
     """Write a result as JSON to ``path``; returns the path."""
-    path = Path(path)
-    path.write_text(dumps(result), encoding="utf-8")
-    return path
+    from dha.safety import atomic_write_text
+    return atomic_write_text(path, dumps(result))

@@ -11,7 +11,7 @@ The index of a peak is interpolated between the two n-alkane markers that bracke
 A bracket that straddles the end of the isothermal hold uses the linear form. Peaks before the
 first or after the last marker are extrapolated with the first / last bracket. Both forms with
 non-adjacent markers carry the factor (N - n). Source: IUPAC Gold Book R05360 (PAC 1993, 65,
-819, p. 844), ``shared/data/facts.md`` (beside the checkout) fact 7.
+819, p. 844); van den Dool & Kratz, J. Chromatogr. 11 (1963) 463-471.
 
 The hold-up time ``t_M``: the setting ``identify.holdup_time_min`` when > 0, else estimated from
 three consecutive isothermal n-alkanes, whose adjusted times form a geometric series:

@@ -76,19 +76,39 @@ def _read_profile(path: Path) -> dict[str, Any]:
         with path.open("rb") as fh:
             data = tomllib.load(fh)
     except tomllib.TOMLDecodeError as err:
-        raise SpecError(f"{path.name}: not valid TOML ({err})") from None
+        raise SpecError(f"specification profile {path}: not valid TOML ({err}); fix the "
+                        "file") from None
+    except UnicodeDecodeError:
+        raise SpecError(f"specification profile {path}: not a text (TOML) file; give a .toml "
+                        "profile, see dha/spec_profiles/README.md") from None
+    except OSError as err:
+        raise SpecError(f"specification profile {path}: cannot be read ({err.strerror}); "
+                        "check the path and its permissions") from None
     limits = data.get("limit")
-    if not isinstance(limits, list) or not limits:
-        raise SpecError(f"{path.name}: no [[limit]] entries; see dha/spec_profiles/README.md")
+    if not isinstance(limits, list) or not limits or not all(isinstance(x, dict) for x in limits):
+        raise SpecError(f"specification profile {path.name}: key 'limit' must be [[limit]] "
+                        "tables (quantity, kind, value), not "
+                        f"{'missing' if limits is None else repr(limits)[:60]}; see "
+                        "dha/spec_profiles/README.md")
+    bounds: dict[str, dict[str, float]] = {}
     for i, lim in enumerate(limits, start=1):
-        where = f"{path.name}, limit {i}"
+        where = f"specification profile {path.name}, limit {i}"
         if lim.get("quantity") not in QUANTITIES:
             raise SpecError(f"{where}: unknown quantity {lim.get('quantity')!r}; "
                             f"known: {', '.join(QUANTITIES)}")
         if lim.get("kind") not in ("min", "max"):
             raise SpecError(f"{where}: kind must be 'min' or 'max', not {lim.get('kind')!r}")
         if not isinstance(lim.get("value"), (int, float)) or isinstance(lim.get("value"), bool):
-            raise SpecError(f"{where}: value must be a number")
+            raise SpecError(f"{where}: value must be a number, not {lim.get('value')!r}")
+        if not math.isfinite(lim["value"]):
+            raise SpecError(f"{where}: value must be a finite number, not {lim['value']!r}")
+        kinds = bounds.setdefault(lim["quantity"], {})
+        # the tightest limit of each kind decides whether the range is empty
+        pick = max if lim["kind"] == "min" else min
+        kinds[lim["kind"]] = pick(kinds.get(lim["kind"], lim["value"]), lim["value"])
+        if "min" in kinds and "max" in kinds and kinds["min"] > kinds["max"]:
+            raise SpecError(f"{where}: {lim['quantity']} min {kinds['min']:g} is above max "
+                            f"{kinds['max']:g}; no value could pass; fix the limits")
     return {"name": path.stem, "description": str(data.get("description", "")),
             "source": str(data.get("source", "")), "limits": limits}
 

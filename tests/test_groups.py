@@ -31,7 +31,7 @@ def test_one_component_per_group_exact():
         assert g["totals"]["mass_pct"][group] == pytest.approx(value, abs=1e-12)
     assert g["totals"]["mass_pct"]["unidentified"] == 0.0
     assert list(g["totals"]["vol_pct"]) == list(GROUPS)
-    # volume totals: v_i = m_i/ρ_i normalised (DOMAIN.md §4), by hand
+    # volume totals: v_i = m_i/ρ_i normalised (common trade practice), by hand
     rho = tiny_library().components["density_15c_kg_m3"]
     v = {grp: amounts[name] / rho[name] for grp, name in zip(expect, amounts)}
     for grp in expect:

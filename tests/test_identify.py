@@ -112,7 +112,7 @@ def test_missing_column_is_input_error(lib):
 
 def test_coelution_split_when_partner_has_no_peak(lib):
     # coelution.csv: toluene / 2,3,3-trimethylpentane share one peak on this phase
-    # (DOMAIN.md section 3, classic pair); the partner without its own peak gets its share
+    # (common trade practice, classic pair); the partner without its own peak gets its share
     co = lib.coelution
     pair = co[(co["name_a"] == "toluene") | (co["name_b"] == "toluene")]
     if pair.empty:
@@ -458,7 +458,7 @@ def test_infer_hold_needs_a_geometric_series():
 
 def test_expected_oxygenates_default_is_the_en228_list(lib):
     # EN 228 names methanol, ethanol, isopropyl, isobutyl and tert-butyl alcohol and "ethers
-    # with 5 or more carbon atoms" in its oxygenate limits (shared/data/facts.md, fact 4)
+    # with 5 or more carbon atoms" in its oxygenate limits (EN 228:2012+A1:2017, Table 2)
     got = expected_oxygenates(lib, default_settings()["identify"])
     assert got == {"methanol", "ethanol", "2-propanol", "2-methyl-1-propanol",
                    "2-methyl-2-propanol", "2-methoxy-2-methylpropane", "2-ethoxy-2-methylpropane",

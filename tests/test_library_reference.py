@@ -7,8 +7,9 @@
 - density at 15 °C and vapour pressure at 37.8 °C: CoolProp 8.0.0 reference equations of state
   (saturated liquid at 288.15 K; saturation pressure at 310.93 K) for every component CoolProp
   has, matched by CAS number;
-- neat RON/MON: ``../shared/data/octane/pure_components.csv`` for the source id named by
-  ``ron_source``/``mon_source`` (provenance: ``../shared/data/octane/PROVENANCE.md``).
+- neat RON/MON: ``tests/data/octane/pure_components.csv`` (ECNet database, Schweidtmann et al.
+  2020 compilation, Kuzhagaliyeva et al. 2022; see ``tests/data/PROVENANCE.md``) for the source
+  id named by ``ron_source``/``mon_source``.
 
 Tolerances are from the task brief of the library work: 0.01 g/mol, 0.3 % (density), 1 %
 (vapour pressure), equality (to the 3 decimals stored) for octane numbers from the dataset.
@@ -24,8 +25,7 @@ import pytest
 
 from dha.library import load_library
 
-OCTANE_CSV = Path(__file__).resolve().parents[2] / "shared" / "data" / "octane" / \
-    "pure_components.csv"
+OCTANE_CSV = Path(__file__).resolve().parent / "data" / "octane" / "pure_components.csv"
 
 
 @pytest.fixture(scope="module")
@@ -153,7 +153,7 @@ def test_cis_trans_names_match_smiles(comps):
 def test_cas_matches_structure_in_chemicals(comps):
     # chemicals 1.5.2 identifier database (PubChem-derived); compare the connectivity block of
     # the InChIKey only: the database's cis/trans labels of some olefins are doubtful
-    # (../shared/data/reference-libraries/REPORT.md, section 2)
+    # (found when checking them against RDKit structures, cis/trans-resolved SMILES)
     from chemicals.identifiers import search_chemical
 
     bad = []
@@ -181,7 +181,7 @@ def coolprop_fluids(comps):
     by_cas = {CP.get_fluid_param_string(f, "CAS"): f
               for f in CP.get_global_param_string("FluidsList").split(",")}
     found = {name: by_cas[cas] for name, cas in comps["cas"].items() if cas in by_cas}
-    # CoolProp has about 29 petrol-range fluids (REPORT.md, section 2); most should be here
+    # CoolProp has about 29 petrol-range fluids (CoolProp 8.0.0 fluid list); most should be here
     assert len(found) >= 20, found
     return found
 
@@ -217,7 +217,7 @@ def test_vapour_pressure_37_8c_against_coolprop(lib, coolprop_fluids):
 
 @pytest.fixture(scope="module")
 def octane_data():
-    # ../shared/data/octane/pure_components.csv; provenance and licences in PROVENANCE.md there
+    # tests/data/octane/pure_components.csv; sources and licences in tests/data/PROVENANCE.md
     return pd.read_csv(OCTANE_CSV, dtype={"cas": str, "source_id": str})
 
 

@@ -3,7 +3,7 @@
 Sources: the PRF scale (ASTM D2699 / D2700: RON = MON = % v/v isooctane in n-heptane);
 KUZ2022_MON mixtures (Kuzhagaliyeva et al., Commun. Chem. 5 (2022) 111, CC BY 4.0) and the
 COOPTIMA surrogate + oxygenate blends (NREL Co-Optima database, NB6022), both copied in
-dha/properties/octane_data/ from the shared open-data folder.
+dha/properties/octane_data/ (open datasets, see PROVENANCE.md there).
 """
 from __future__ import annotations
 

@@ -3,7 +3,7 @@
 Unit tests run on a tiny stand-in library (``tiny_library``) whose values come from outside the
 project: molar masses from ``chemicals`` (IUPAC atomic weights), liquid densities at 15 °C from
 ``thermo`` 0.6 (``Chemical(T=288.15).rhol``); ECNs from Sternberg's contributions (aliphatic C
-1.0, ether O −1.0, primary alcohol O −0.6, secondary −0.75; facts.md fact 3, from memory for
+1.0, ether O −1.0, primary alcohol O −0.6, secondary −0.75; Scanlon & Willis, J. Chromatogr. Sci. 23 (1985) 333, from memory for
 −0.6). The other quantification test modules import ``tiny_library`` from here.
 """
 from __future__ import annotations
@@ -116,7 +116,7 @@ def settings():
 # ------------------------------------------------------------------ response factors
 
 def test_hydrocarbon_rrf_equals_carbon_mass_rule(lib, settings):
-    # facts.md fact 2: the mass RRF vs methane is M/(n_C·M_CH4) (petrochromatics.com form);
+    # FID carbon-mass response, ASTM D6730 §15: the mass RRF vs methane is M/(n_C·M_CH4) (petrochromatics.com form);
     # 0.7487 = 12.011/16.043 to 4 digits, so both forms agree to 5e-5 relative.
     comps = lib.components
     rrf = library_rrf(["benzene", "n-heptane", "2,2,4-trimethylpentane"], lib, settings)
@@ -128,7 +128,7 @@ def test_hydrocarbon_rrf_equals_carbon_mass_rule(lib, settings):
 
 
 def test_oxygenate_rrf_from_ecn_and_primary_alcohol_setting(lib, settings):
-    # Sternberg ECN: ethanol 2 - 0.6 = 1.4; MTBE 5 - 1.0 = 4 (facts.md fact 3)
+    # Sternberg ECN: ethanol 2 - 0.6 = 1.4; MTBE 5 - 1.0 = 4 (Scanlon & Willis, J. Chromatogr. Sci. 23 (1985) 333)
     mw_e = lib.components.at["ethanol", "molar_mass_g_mol"]
     mw_m = lib.components.at["2-methoxy-2-methylpropane", "molar_mass_g_mol"]
     mw_p = lib.components.at["propan-2-ol", "molar_mass_g_mol"]
@@ -315,7 +315,7 @@ def test_density_at_60f_against_coolprop():
 
 
 def test_reference_temperature_60f_changes_volume_pct_only_slightly(lib, settings):
-    # 60 °F = 15.56 °C (US practice, DOMAIN.md §4): densities shift by ~0.07 %, and the volume
+    # 60 °F = 15.56 °C (US practice, common trade practice): densities shift by ~0.07 %, and the volume
     # split of a heptane/toluene blend moves by far less than 0.01 % v/v
     table = pd.DataFrame({"row": [1, 2], "component": ["n-heptane", "toluene"], "amount": [50.0, 50.0]})
     v15 = quantify_composition(table, "mass_pct", lib, settings).table["vol_pct"]

@@ -1,4 +1,4 @@
-"""``dha report``: outputs, overwrite refusal, exit codes 0/1/2/3 (CONTRACT.md)."""
+"""``dha report``: outputs, overwrite refusal, exit codes 0/1/2/3 (the dha-result/1 schema)."""
 from __future__ import annotations
 
 import json
@@ -20,7 +20,7 @@ def runner(monkeypatch):
 
 @pytest.fixture
 def blend(tmp_path):
-    # invented recipe; 5 % v/v benzene is far above the EN 228 limit of 1.0 % v/v (facts.md fact 4)
+    # invented recipe; 5 % v/v benzene is far above the EN 228 limit of 1.0 % v/v (EN 228:2012+A1:2017)
     path = tmp_path / "blend_tk7.csv"
     path.write_text("component,vol_pct\nbenzene,5\ntoluene,30\nn-heptane,65\n", encoding="utf-8")
     return path

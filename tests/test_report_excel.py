@@ -2,7 +2,7 @@
 
 Reports are tested by reading them back (STYLE.md §14). The fixture tests/data/sample_result.json
 is an invented scenario (sample "T-14 summer blend", Harbour Point refinery, QC lab 2) with the
-keys of CONTRACT.md "dha-result/1"; its checks were made by dha.specs.check.
+keys of the dha-result/1 schema "dha-result/1"; its checks were made by dha.specs.check.
 """
 from __future__ import annotations
 
@@ -20,7 +20,7 @@ from dha.report.excel import SHEETS, write_xlsx
 
 FIXTURE = Path(__file__).parent / "data" / "sample_result.json"
 
-# Units a numeric header may carry (CONTRACT.md units; the brief's list for the reports).
+# Units a numeric header may carry (the dha-result/1 schema units; the brief's list for the reports).
 UNIT_MARKERS = ("mass %", "% v/v", "mol %", "[min]", "[-]", "[CDS units]", "[unit]", "kPa",
                 "°C", "kg/m³", "MJ/kg")
 
@@ -41,8 +41,8 @@ def wb(workbook_path):
 
 
 def test_fixture_is_a_contract_result(result):
-    # Every key CONTRACT.md lists for "dha-result/1" is present; group totals sum to 100
-    # per basis ("each sums with the others to 100", CONTRACT.md).
+    # Every key the dha-result/1 schema lists for "dha-result/1" is present; group totals sum to 100
+    # per basis ("each sums with the others to 100", the dha-result/1 schema).
     for key in ("schema", "tool", "sample", "library", "settings", "totals", "by_carbon_number",
                 "benzene", "oxygen_mass_pct", "oxygenates", "properties", "uncertainty",
                 "checks", "components", "import_log", "warnings"):
@@ -155,7 +155,7 @@ def test_summary_identifies_sample_library_and_checks(wb, result):
 
 
 def test_notes_carry_the_responsibility_text(wb):
-    # DOMAIN.md §8: drafts until released; calculated properties are estimates; benzene is a
+    # common trade practice: drafts until released; calculated properties are estimates; benzene is a
     # human carcinogen; petrol is highly flammable.
     text = " ".join(str(c.value) for row in wb["Notes"].iter_rows() for c in row if c.value)
     for phrase in ("DRAFT", "authorised person", "estimates", "carcinogen", "highly flammable",

@@ -1,7 +1,7 @@
 """PDF certificate draft: write the sample result, read the PDF back, check layout.
 
 Reports are tested by reading them back (STYLE.md §14): the file exists, its page count, and
-that the sample id and the safety/responsibility words (DOMAIN.md §8) appear in its text. The
+that the sample id and the safety/responsibility words (common trade practice) appear in its text. The
 layout is checked on the drawn pages: no text leaves the page and no two texts overlap.
 """
 from __future__ import annotations
@@ -55,7 +55,7 @@ def test_page_one_marks_draft_and_identifies_the_sample(pages_text, result):
     assert "en228-e10-summer" in p1
     assert "FAIL" in p1                                       # DVPE 63.4 kPa > 60 + 2u
     assert p1.count("within uncertainty of the limit") >= 2   # RON and MON
-    # Responsibility text (DOMAIN.md §8) and an empty signature block on page 1.
+    # Responsibility text (common trade practice) and an empty signature block on page 1.
     for phrase in ("carcinogen", "highly flammable", "estimates", "authorised person",
                    "reviewed by", "released by", "date"):
         assert phrase in p1, phrase

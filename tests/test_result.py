@@ -1,4 +1,4 @@
-"""The JSON result: every CONTRACT.md key, deterministic text, NaN -> null."""
+"""The JSON result: every the dha-result/1 schema key, deterministic text, NaN -> null."""
 from __future__ import annotations
 
 import json
@@ -20,7 +20,7 @@ def Run(**kw):  # the fields of dha.reader.Run (DEVELOPERS.md), without needing 
     from types import SimpleNamespace
     return SimpleNamespace(**kw)
 
-# CONTRACT.md "The JSON result": keys that must be present
+# the dha-result/1 schema "The JSON result": keys that must be present
 CONTRACT_KEYS = ("schema", "tool", "sample", "library", "settings", "totals", "by_carbon_number",
                  "benzene", "oxygen_mass_pct", "oxygenates", "properties", "uncertainty",
                  "checks", "components", "import_log", "warnings")
@@ -124,7 +124,7 @@ HAND_BLEND = {"n-butane": 4.0, "ethanol": 10.0, "n-pentane": 8.0, "2-methoxy-2-m
 
 
 def _rrf_by_hand(lib, name):
-    # facts.md fact 2 / DOMAIN.md §4: RRF = M·0.7487/(12.011·n_C), oxygenates with the ECN
+    # FID carbon-mass response, ASTM D6730 §15 / common trade practice: RRF = M·0.7487/(12.011·n_C), oxygenates with the ECN
     row = lib.components.loc[name]
     n = row["ecn"] if row["group"] == "oxygenates" else row["carbon_number"]
     return row["molar_mass_g_mol"] * 0.7487 / (12.011 * n)

@@ -13,7 +13,7 @@ from dha.retention import (IndexScale, align_indices, estimate_holdup, extend_ma
 
 def test_linear_index_van_den_dool_kratz():
     # I = 100 [n + (t - t_n)/(t_n+1 - t_n)] (van den Dool & Kratz 1963; IUPAC Gold Book
-    # R05360, facts.md fact 7): a peak at 14.0 min between n-C7 (12.0) and n-C8 (16.0) -> 750
+    # R05360, IUPAC Gold Book R05360): a peak at 14.0 min between n-C7 (12.0) and n-C8 (16.0) -> 750
     s = IndexScale(np.array([7, 8]), np.array([12.0, 16.0]))
     assert s.index([14.0])[0] == pytest.approx(750.0)
     assert s.index([12.0, 16.0]).tolist() == pytest.approx([700.0, 800.0])
@@ -21,7 +21,7 @@ def test_linear_index_van_den_dool_kratz():
 
 def test_non_adjacent_markers_carry_n_difference():
     # general form with markers n and N: I = 100 [n + (N - n)(t - t_n)/(t_N - t_n)]
-    # (facts.md fact 7, note on non-adjacent alkanes)
+    # (IUPAC Gold Book R05360, note on non-adjacent alkanes)
     s = IndexScale(np.array([6, 8]), np.array([10.0, 20.0]))
     assert s.index([15.0])[0] == pytest.approx(700.0)
 

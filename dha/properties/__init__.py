@@ -15,7 +15,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-#: Property keys of the result (CONTRACT.md); a key no model fills is null with a warning.
+#: Property keys of the result (the dha-result/1 schema); a key no model fills is null with a warning.
 PROPERTY_KEYS = (
     "ron", "mon", "aki", "sensitivity", "dvpe_kpa", "density_kg_m3",
     "e70_vol_pct", "e100_vol_pct", "e150_vol_pct", "t10_c", "t50_c", "t90_c", "fbp_c",

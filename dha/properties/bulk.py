@@ -5,7 +5,7 @@ values of its ``model_component`` (an unidentified peak takes those of its stand
 isoparaffin; the spread of the library's components of the same carbon number enters the
 uncertainty).
 
-- Density at 15 °C by volume additivity (the DHA convention, DOMAIN.md §6):
+- Density at 15 °C by volume additivity (the DHA convention, common trade practice):
   :math:`1/\rho = \sum_i w_i/\rho_i` with mass fractions w and the library's 15 °C densities.
 - Gross and net heat of combustion (liquid, 25 °C), mass-weighted:
   :math:`H = \sum_i w_i H_i` (heats of mixing neglected).
@@ -35,8 +35,8 @@ M_CO2 = ATOMIC_WEIGHT["C"] + 2 * ATOMIC_WEIGHT["O"]
 
 #: Relative standard uncertainty of volume additivity at 15 °C [-]. Basis: the RMS deviation
 #: of volume-additive densities from measured ones, 0.40 % (max 0.65 %), over the six binary
-#: mixtures at 298.15 K in shared/data/density/binary_mixtures_density_hmix.csv whose pure
-#: densities are in the same file (isooctane + DIPE, cyclohexane + benzene; NIST ThermoML);
+#: mixtures at 298.15 K in the NIST ThermoML archive (openff-sage compilation) whose pure
+#: densities are in the same set (isooctane + DIPE, cyclohexane + benzene);
 #: tests/test_bulk.py recomputes it. Petrol's excess volumes are mostly smaller.
 U_DENSITY_REL = 0.004
 #: Relative standard uncertainty of the heats of combustion [-]: mixing rule plus the
@@ -228,7 +228,7 @@ def compute(composition: pd.DataFrame, library, settings: dict | None = None) ->
                   "elements": "from formulas, IUPAC conventional atomic weights"},
         "uncertainty_basis": {
             "density_kg_m3": "0.4 %: RMS deviation of volume additivity on measured binary "
-                             "mixtures (shared/data/density), plus the unidentified share",
+                             "mixtures (NIST ThermoML), plus the unidentified share",
             "net_heat_mj_kg": "0.2 % (judgement, no source) plus the unidentified share",
             "mean_molar_mass_g_mol": "unidentified share only",
             "h_to_c_molar": "unidentified share only",

@@ -437,7 +437,7 @@ def fit_neat_estimator(components: pd.DataFrame, prop: str) -> NeatEstimator:
     :math:`e_i / (1 - h_{ii})` with the ridge hat matrix
     :math:`H = X (X^T X + \lambda I)^{-1} X^T` (exact for ridge regression).
     Our own design; the features follow the known trends (branching raises, chain length
-    lowers the octane number of paraffins; DOMAIN.md section 6).
+    lowers the octane number of paraffins; common trade practice).
     """
     rows = components.dropna(subset=[prop])
     rows = rows[rows["smiles"].fillna("").astype(str).str.len() > 0]

@@ -10,7 +10,7 @@ Phase model (both calculations): modified Raoult's law with an ideal gas,
 DVPE (ASTM D5191; EN 13016-1 the same, from memory): an isothermal flash of the liquid at
 37.8 °C (310.93 K) in a closed chamber whose vapour volume is 4 times the equilibrium liquid
 volume. The flash gives the total pressure P_tot; then DVPE = 0.965·P_tot − 3.78 kPa
-(facts.md fact 1). Dissolved air is not modelled: the sample is taken as air-free, so P_tot is
+(ASTM D5191-19 / EN 13016-1:2018). Dissolved air is not modelled: the sample is taken as air-free, so P_tot is
 the pure vapour pressure of the petrol at V/L = 4 (the air a real air-saturated sample adds is
 one reason the standard's correlation has its constants). Liquid molar volumes are those at
 15 °C (M/ρ15); thermal expansion to 37.8 °C (about 3 %) is ignored — it changes the vapour
@@ -24,13 +24,13 @@ volumes at 15 °C. Setting ``volatility.distillation_curve`` chooses what is rep
   against volume % evaporated). A D86 flask is close to such a one-stage still.
 - ``"riazi-daubert"``: the Rayleigh curve taken as TBP-like and converted to D86-like
   temperatures with the Riazi–Daubert (1986) correlation in its reverse, **kelvin** form
-  (facts.md fact 6, Wauquier Table 4.16a): T_D86 = a·T_TBP^b at 0, 10, 30, 50, 70, 90 and
+  (Riazi & Daubert 1986; Wauquier vol. 1 Table 4.16a): T_D86 = a·T_TBP^b at 0, 10, 30, 50, 70, 90 and
   95 % evaporated; in between the D86 − TBP shift is interpolated linearly in volume % and
   added to the curve (exact at the seven points; beyond 95 % the 95 % shift holds).
   Not the default: the Rayleigh curve is already an equilibrium (one-stage) curve, far flatter
   than a TBP at its front, and the correlation adds about 20 °C at 0–10 %; for the invented
   base petrol of the tests it gives IBP 86 °C, T10 88 °C and E70 = 0 % (T50 110 °C).
-- ``"boiling-order"``: the simple route of DOMAIN.md §6, an ideal TBP (components in
+- ``"boiling-order"``: the simple common route, an ideal TBP (components in
   boiling-point order) converted by the same Riazi–Daubert coefficients; no activity model,
   so no ethanol effect.
 
@@ -66,7 +66,7 @@ R_J_MOL_K = 8.314462618
 KPA_PER_PSI = 6.894757
 
 #: Riazi–Daubert (1986) TBP -> D86, kelvin set: T_D86 = a·T_TBP^b (Wauquier, Petroleum
-#: Refining vol. 1, Table 4.16a; facts.md fact 6). Rows: volume % evaporated, a, b.
+#: Refining vol. 1, Table 4.16a; Riazi & Daubert 1986). Rows: volume % evaporated, a, b.
 RIAZI_DAUBERT_TBP_TO_D86_K = np.array([
     [0.0, 1.08947, 0.99810],
     [10.0, 1.71243, 0.91743],
@@ -87,10 +87,10 @@ FBP_EVAPORATED_PCT = 98.0
 
 #: Standard uncertainty of P_tot from the activity model, relative [-]. Basis: original and
 #: Dortmund UNIFAC differ by 6 % (hydrocarbon blend) and 7 % (E10) in P at V/L = 4
-#: (shared/data/reference-libraries/REPORT.md §4); half that spread, rounded up, is taken as
+#: (flash of an invented E10 blend with thermo 0.6.1, original vs Dortmund 2016 parameters); half that spread, rounded up, is taken as
 #: one standard uncertainty. No comparison with measured DVPE of petrols was available.
 U_PTOT_REL = 0.04
-#: Average error of the Riazi–Daubert TBP/D86 conversion [°C] (facts.md fact 6).
+#: Average error of the Riazi–Daubert TBP/D86 conversion [°C] (Riazi & Daubert 1986; Wauquier vol. 1 Table 4.16a).
 U_RIAZI_DAUBERT_C = 5.0
 #: Extra standard uncertainty of the FBP rule [°C] (judgement, no source).
 U_FBP_RULE_C = 10.0
@@ -435,7 +435,7 @@ def vapour_pressure_kpa(composition: pd.DataFrame, library, t_k: float = T_DVPE_
     return total_vapour_pressure_kpa(mix, t_k, vl_ratio)
 
 
-#: DVPE range of EN 13016-1 (2018 and later editions; shared/data/facts.md fact 1) [kPa]
+#: DVPE range of EN 13016-1 (2018 and later editions, scope) [kPa]
 DVPE_RANGE_KPA = (15.5, 106.0)
 
 
@@ -460,7 +460,7 @@ def rvp_psi(dvpe_kpa: float) -> float:
 
 
 def vapour_lock_index(dvpe_kpa: float, e70_vol_pct: float) -> float:
-    """Vapour lock index VLI = 10·DVPE [kPa] + 7·E70 [% v/v] (EN 228; facts.md fact 4).
+    """Vapour lock index VLI = 10·DVPE [kPa] + 7·E70 [% v/v] (EN 228:2012+A1:2017).
 
     >>> vapour_lock_index(60.0, 30.0)
     810.0
@@ -586,7 +586,7 @@ def tbp_to_d86_k(evaporated_vol_pct, t_tbp_k) -> np.ndarray:
     d86 = t + np.interp(pct, nodes, shift_nodes)
     if len(d86) and np.all(np.diff(pct) >= 0):
         # made non-decreasing from the back (running minimum): the point-by-point conversion
-        # can put a front point above later ones (facts.md fact 6); the later points win.
+        # can put a front point above later ones (Riazi & Daubert 1986; Wauquier vol. 1 Table 4.16a); the later points win.
         d86 = np.minimum.accumulate(d86[::-1])[::-1]
     return d86
 
@@ -701,8 +701,8 @@ def compute(composition: pd.DataFrame, library, settings: dict) -> PropertyResul
     Notes
     -----
     Uncertainty of the distillation temperatures: the Riazi–Daubert average error of 5 °C
-    (facts.md fact 6) combined with the difference, at that point, between the chosen curve and
-    the other route DOMAIN.md names (the boiling-order TBP converted by Riazi–Daubert; when
+    (Riazi & Daubert 1986; Wauquier vol. 1 Table 4.16a) combined with the difference, at that point, between the chosen curve and
+    the other common route (the boiling-order TBP converted by Riazi–Daubert; when
     that is the chosen curve, the equilibrium curve). E values take the temperature
     uncertainty through the curve's slope. FBP adds :data:`U_FBP_RULE_C` for its rule.
     """
@@ -754,7 +754,7 @@ def compute(composition: pd.DataFrame, library, settings: dict) -> PropertyResul
         result.uncertainty[key] = 0.5 * (above - below)
 
     e70 = points["e70_vol_pct"]
-    # extra property keys (beyond CONTRACT.md's), shown in the reports and checkable in specs
+    # extra property keys (beyond the dha-result/1 schema's), shown in the reports and checkable in specs
     result.values["rvp_psi"] = rvp_psi(dvpe)
     result.uncertainty["rvp_psi"] = rvp_psi(result.uncertainty["dvpe_kpa"])
     if e70 is not None and np.isfinite(e70):
@@ -780,9 +780,9 @@ def compute(composition: pd.DataFrame, library, settings: dict) -> PropertyResul
         "curve": curve.to_dict(orient="list"),
         "uncertainty_basis": {
             "dvpe_kpa": "4 % of P_tot: half the original-vs-Dortmund UNIFAC spread "
-                        "(reference-libraries/REPORT.md §4), plus the unidentified share; not "
+                        "(original vs Dortmund UNIFAC flash with thermo 0.6.1), plus the unidentified share; not "
                         "validated against measured DVPE",
-            "distillation": "Riazi–Daubert average error 5 °C (facts.md fact 6) combined with "
+            "distillation": "Riazi–Daubert average error 5 °C (Riazi & Daubert 1986; Wauquier vol. 1 Table 4.16a) combined with "
                             f"the difference from the {other_kind} curve; E values through the "
                             "curve; FBP rule +10 °C (judgement)",
         },

@@ -1,6 +1,6 @@
 """Report writers: a result dict (``schema: dha-result/1``) -> Excel workbook or PDF draft.
 
-Both writers take the JSON result dict only (CONTRACT.md) and never recompute science: what
+Both writers take the JSON result dict only (the dha-result/1 schema) and never recompute science: what
 they show is what the result holds. This module keeps what both share: the words a person
 reads (labels, units, the responsibility text), number formatting and the settings digest.
 
@@ -16,7 +16,7 @@ import json
 import math
 from typing import Any
 
-#: Group keys of the result, in the order reports show them (CONTRACT.md spellings).
+#: Group keys of the result, in the order reports show them (the dha-result/1 schema spellings).
 GROUP_KEYS = (
     "n_paraffins", "isoparaffins", "olefins", "naphthenes", "aromatics", "oxygenates",
     "unidentified",
@@ -85,7 +85,7 @@ _SUFFIX_UNITS = (
     ("_psi", "psi"), ("_min", "min"), ("_c", "°C"), ("_k", "K"), ("_pct", "%"),
 )
 
-#: What the reports say where a person reads them (DOMAIN.md §8). One paragraph per item.
+#: What the reports say where a person reads them (common trade practice). One paragraph per item.
 RESPONSIBILITY_TEXT = (
     "This is a DRAFT, not a certificate. It becomes one only when an authorised person has "
     "reviewed and released it under the laboratory's own accredited procedures.",

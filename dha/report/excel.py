@@ -25,6 +25,7 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 
 from dha.errors import InputError
+from dha.safety import save_workbook, visible_data
 from dha.report import (
     AROMATICS_DETAIL_LABELS, BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, RESPONSIBILITY_TEXT,
     VERDICT_WORDS, carbon_number_sort_key, decimals_of, flatten_mapping, flatten_settings,
@@ -379,7 +380,7 @@ def write_xlsx(result: dict, path) -> Path:
     Parameters
     ----------
     result : dict
-        A result dict of schema ``dha-result/1`` (CONTRACT.md). Missing keys give empty
+        A result dict of schema ``dha-result/1`` (the dha-result/1 schema). Missing keys give empty
         sheets; null values give empty cells (reason in the ``Warnings`` sheet).
     path : str or Path
         File to write (parent folders are created); overwritten if it exists.
@@ -391,6 +392,7 @@ def write_xlsx(result: dict, path) -> Path:
     """
     if not isinstance(result, dict):
         raise InputError(f"write_xlsx: result must be a dict (dha-result/1), got {type(result).__name__}")
+    result = visible_data(result)  # control characters shown, never written raw
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     wb = Workbook()
@@ -417,6 +419,6 @@ def write_xlsx(result: dict, path) -> Path:
     stamp = _fixed_time(result)
     wb.properties.created = stamp
     wb.properties.modified = stamp
-    wb.save(path)
+    save_workbook(wb, path)  # string cells only (no live formula), atomic
     log.info("wrote %s", path)
     return path

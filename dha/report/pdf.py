@@ -30,6 +30,7 @@ from matplotlib.font_manager import FontProperties, findfont, get_font
 from matplotlib.patches import Rectangle
 
 from dha.errors import InputError
+from dha.safety import atomic_write, visible_data
 from dha.report import (
     AROMATICS_DETAIL_LABELS, BASIS_UNITS, carbon_label, GROUP_KEYS, GROUP_LABELS, NULL_TEXT,
     RESPONSIBILITY_TEXT, VERDICT_WORDS, decimals_of, flatten_mapping, flatten_settings,
@@ -824,7 +825,7 @@ def write_pdf(result: dict, path) -> Path:
     Parameters
     ----------
     result : dict
-        A result dict of schema ``dha-result/1`` (CONTRACT.md); extra keys ``generated_at``
+        A result dict of schema ``dha-result/1`` (the dha-result/1 schema); extra keys ``generated_at``
         and ``mass_balance`` are shown when present. Null values print as "—".
     path : str or Path
         File to write (parent folders are created); overwritten if it exists.
@@ -836,14 +837,17 @@ def write_pdf(result: dict, path) -> Path:
     """
     if not isinstance(result, dict):
         raise InputError(f"write_pdf: result must be a dict (dha-result/1), got {type(result).__name__}")
+    result = visible_data(result)  # control characters shown, never written raw
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     with matplotlib.rc_context(_RC):
         pages = render_pages(result)
         metadata = {"Title": f"Certificate draft: {_sample_id(result)}", "Creator": "dha",
                     "Producer": "dha (matplotlib)", "CreationDate": None}
-        with PdfPages(path, metadata=metadata) as pdf:
-            for fig in pages:
-                pdf.savefig(fig)
+        def _save(fh):
+            with PdfPages(fh, metadata=metadata) as pdf:
+                for fig in pages:
+                    pdf.savefig(fig)
+        atomic_write(path, _save)
     log.info("wrote %s (%d pages)", path, len(pages))
     return path

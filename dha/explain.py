@@ -1,0 +1,298 @@
+r"""Why a petrol has its octane number: contributions of its components, cells and classes.
+
+Method (blending-value decomposition along the composition simplex)
+-------------------------------------------------------------------
+Let ``F(x)`` be the octane number (RON or MON) the default model gives for volume fractions
+``x`` (summing to 1), with the lab calibration applied when one is set, exactly as
+``dha.properties.octane.compute`` does. For every row *i* of the composition table
+
+.. math:: D_i = \frac{d}{dh} F\Big(\frac{x + h\,e_i}{1 + h}\Big)\Big|_{h=0},\qquad
+          b_i = F + D_i - \sum_j x_j D_j
+
+``D_i`` is the derivative of the octane number when a little more of component *i* is added
+to the sample (the rest diluted in proportion); ``b_i`` is the component's *blending value*
+in this sample (the value it would need in a linear-by-volume model to give the same local
+response). ``Σ_j x_j D_j`` is zero for an exact derivative (adding "more of the sample itself"
+changes nothing); subtracting its numerical value makes ``Σ_i x_i b_i = F`` exact, to
+rounding, whatever the model. The contribution of row *i* is ``c_i = x_i b_i`` [octane
+number]; cells (group × carbon number) and classes are sums of rows, so they add up to F.
+
+The *pull* of a row, ``p_i = x_i (b_i - F) = x_i (D_i - Σ x_j D_j)``, is to first order the
+change of the sample's octane number when that row is taken out and the rest renormalised
+(with the sign reversed): a negative pull holds the number down. The ten components with the
+most negative pull on RON are "the components that pull the number down most"; structural
+classes (n-paraffins by chain length, isoparaffins by number of branches, naphthenes,
+olefins, aromatics, oxygenates, unidentified) are summed the same way.
+
+Why this and not Shapley or leave-one-out: with several hundred components an exact Shapley
+split needs exponentially many model calls (and a sampled one is noisy); leave-one-out
+contributions do not add up to the predicted value for a non-linear model. The blending-value
+split is the local (first-order) attribution that is exact in sum, needs one model call per
+row, and for a linear-by-volume model gives exactly ``x_i ON_i``. The derivative is taken by a
+forward difference with step ``STEP`` in one batched model call when the model exposes its
+vectorised ``blend``; otherwise ``predict_inputs`` is called once per row.
+
+A calibration applied after the model (``[octane] calibration``) is part of ``F``, so the
+contributions add up to the calibrated ``properties.ron``/``mon``; any residual left between
+``F`` and the reported value (only rounding, normally) is spread over the rows by volume and
+reported as ``residual``.
+"""
+from __future__ import annotations
+
+import logging
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from dha.groups import carbon_bucket
+from dha.properties import octane
+
+log = logging.getLogger("dha.explain")
+
+PROPS = ("ron", "mon")
+#: Forward-difference step on the volume fraction [-].
+STEP = 1e-6
+#: Number of components listed as pulling the octane number down most.
+N_COMPONENTS = 10
+#: Use the model's vectorised ``blend`` when it reproduces ``predict_inputs`` (False: always
+#: call ``predict_inputs`` once per row; slower, same numbers).
+BATCHED = True
+METHOD = ("blending-value decomposition along the composition simplex: b_i = ON + D_i - "
+          "sum_j x_j D_j with D_i the derivative of ON when component i is added (rest "
+          "diluted); contribution = x_i b_i (sums to ON); pull = x_i (b_i - ON), negative "
+          "holds the number down")
+
+CLASS_ORDER = ("n-paraffins", "isoparaffins", "naphthenes", "olefins", "aromatics",
+               "oxygenates", "unidentified")
+
+
+# --------------------------------------------------------------------------------------------
+# The model as a function of volume fractions
+# --------------------------------------------------------------------------------------------
+
+def _model_name(settings: dict) -> str:
+    return (settings or {}).get("octane", {}).get("model", "interaction")
+
+
+def _calibration(settings: dict) -> dict | None:
+    path = (settings or {}).get("octane", {}).get("calibration", "") or ""
+    return octane.load_calibration(path, _model_name(settings)) if path else None
+
+
+def _group_fracs(inputs: pd.DataFrame, x: np.ndarray) -> list[dict[str, float]]:
+    """Volume fractions of the calibration's groups for each row of ``x``."""
+    groups = inputs["group"].astype(str).to_numpy()
+    names = octane.CALIBRATION_TERMS["groups"][1:]
+    tot = x.sum(axis=1)
+    cols = {g: x[:, groups == g].sum(axis=1) / tot for g in names}
+    return [{g: float(cols[g][k]) for g in names} for k in range(x.shape[0])]
+
+
+def predict_matrix(inputs: pd.DataFrame, x: np.ndarray, settings: dict) -> dict[str, np.ndarray]:
+    """Octane numbers for many volume-fraction vectors (rows of ``x``) of the same components.
+
+    Uses ``octane.predict_inputs`` (the model interface); when the model module has a vectorised
+    ``blend`` that reproduces ``predict_inputs`` on the first row, it is used for all rows at
+    once. A lab calibration from the settings is applied to every row.
+    """
+    x = np.atleast_2d(np.asarray(x, dtype=float))
+    model = _model_name(settings)
+    params = octane.load_params()
+    out: dict[str, np.ndarray] | None = None
+    blend = getattr(octane, "blend", None)
+    if BATCHED and blend is not None and hasattr(octane, "model_params"):
+        try:
+            out = {p: np.asarray(blend(x, inputs[p].to_numpy(float),
+                                       inputs["molar_volume_cm3_mol"].to_numpy(float),
+                                       list(inputs["class"]), model,
+                                       octane.model_params(model, p, params)), dtype=float)
+                   for p in PROPS}
+            check = octane.predict_inputs(inputs.assign(vol_frac=x[0]), model, params)
+            if any(abs(float(check[p]) - out[p][0]) > 1e-9 for p in PROPS):
+                out = None
+        except Exception:  # noqa: BLE001 - a different model: fall back to the interface
+            log.debug("vectorised blend not usable; calling predict_inputs per row",
+                      exc_info=True)
+            out = None
+    if out is None:
+        rows = [octane.predict_inputs(inputs.assign(vol_frac=xr), model, params) for xr in x]
+        out = {p: np.array([float(r[p]) for r in rows]) for p in PROPS}
+    cal = _calibration(settings)
+    if cal:
+        gv = _group_fracs(inputs, x) if cal["kind"] == "groups" else [None] * len(x)
+        for p in PROPS:
+            entry = cal.get("properties", {}).get(p)
+            if entry:
+                out[p] = np.array([octane.apply_calibration(float(v), entry, cal["kind"], g)
+                                   for v, g in zip(out[p], gv)])
+    return out
+
+
+def blending_values(inputs: pd.DataFrame, settings: dict) -> tuple[dict[str, float],
+                                                                    dict[str, np.ndarray]]:
+    """(ON of the sample, blending value b_i of every row) for RON and MON (see module notes)."""
+    x = inputs["vol_frac"].to_numpy(float)
+    x = x / x.sum()
+    n = len(x)
+    rows = np.vstack([x, (x[None, :] + STEP * np.eye(n)) / (1.0 + STEP)])
+    pred = predict_matrix(inputs, rows, settings)
+    on = {p: float(pred[p][0]) for p in PROPS}
+    b = {}
+    for p in PROPS:
+        d = (pred[p][1:] - pred[p][0]) / STEP
+        b[p] = on[p] + d - float(x @ d)
+    return on, b
+
+
+# --------------------------------------------------------------------------------------------
+# Classes
+# --------------------------------------------------------------------------------------------
+
+def structural_class(group: str, carbon_number: Any, smiles: Any) -> str:
+    """Structural class of a row for the explanation.
+
+    >>> structural_class("n_paraffins", 5, "CCCCC")
+    'n-paraffin C5'
+    >>> structural_class("isoparaffins", 8, "CC(C)CC(C)(C)C")
+    'isoparaffins, tri-branched or more'
+    >>> structural_class("aromatics", 7, "Cc1ccccc1")
+    'aromatics'
+    """
+    g = str(group)
+    if g == "n_paraffins":
+        return f"n-paraffin C{int(carbon_number)}" if pd.notna(carbon_number) else "n-paraffins"
+    if g == "isoparaffins":
+        branches = 1
+        if isinstance(smiles, str) and smiles:
+            st = octane.parse_smiles(smiles)
+            branches = max(st.n_ch3 - 2, 1)
+        label = {1: "mono-branched", 2: "di-branched"}.get(branches, "tri-branched or more")
+        return f"isoparaffins, {label}"
+    return g if g in CLASS_ORDER else "unidentified"
+
+
+def _class_key(label: str) -> tuple:
+    for i, base in enumerate(("n-paraffin", "isoparaffins", "naphthenes", "olefins",
+                              "aromatics", "oxygenates", "unidentified")):
+        if label.startswith(base):
+            tail = label[len(base):]
+            num = int(tail.strip().lstrip("C")) if base == "n-paraffin" and tail.strip() else 0
+            order = {"": 0, ", mono-branched": 1, ", di-branched": 2,
+                     ", tri-branched or more": 3}.get(tail, num)
+            return (i, order)
+    return (99, 0)
+
+
+# --------------------------------------------------------------------------------------------
+# The result keys
+# --------------------------------------------------------------------------------------------
+
+def empty_keys(reason: str | None = None) -> dict[str, Any]:
+    """The two result keys when there is no octane number to explain."""
+    return {"octane_contributions": [],
+            "octane_explained": {"method": METHOD, "components": [], "classes": [],
+                                 "note": reason}}
+
+
+def explain(composition: pd.DataFrame, library, settings: dict,
+            properties: dict[str, Any] | None = None) -> dict[str, Any]:
+    """``octane_contributions`` and ``octane_explained`` of a composition table.
+
+    Parameters
+    ----------
+    composition : composition table (DEVELOPERS.md): ``vol_pct``, ``group``,
+        ``carbon_number``, ``name``, ``model_component``
+    library : ``dha.library.Library``
+    settings : full settings (``[octane] model`` and ``calibration``)
+    properties : the result's ``properties``; its ``ron``/``mon`` are the totals the
+        contributions must add up to (default: the model's own value)
+
+    Returns
+    -------
+    dict with ``octane_contributions`` (list of {group, carbon_number, ron, mon, vol_pct},
+    sums = RON/MON) and ``octane_explained`` ({method, components, classes, residual}).
+    """
+    properties = properties or {}
+    if any(properties.get(p, 0) is None for p in PROPS):
+        return empty_keys("no octane number in this result")
+    if composition is None or len(composition) == 0:
+        return empty_keys("empty composition")
+    comp = composition[composition["vol_pct"].fillna(0) > 0].reset_index(drop=True)
+    if comp.empty:
+        return empty_keys("empty composition")
+    inputs = octane.model_inputs(comp, library.components)
+    on, b = blending_values(inputs, settings)
+    x = inputs["vol_frac"].to_numpy(float)
+    x = x / x.sum()
+    contrib, pull, residual = {}, {}, {}
+    for p in PROPS:
+        target = properties.get(p)
+        target = on[p] if target is None else float(target)
+        residual[p] = target - on[p]
+        contrib[p] = x * b[p] + residual[p] * x
+        pull[p] = x * (b[p] - on[p])
+        if abs(residual[p]) > 0.005:
+            log.warning("octane contributions: model gives %s %.4f, result says %.4f; the "
+                        "difference is spread by volume", p.upper(), on[p], target)
+    comps = library.components
+    smiles = comp["model_component"].map(
+        lambda n: comps.at[n, "smiles"] if isinstance(n, str) and n in comps.index else None)
+    frame = pd.DataFrame({
+        "name": comp["name"].astype(str),
+        "group": comp["group"].astype(str),
+        "bucket": [carbon_bucket(c) if pd.notna(c) else "13+" for c in comp["carbon_number"]],
+        "class": [structural_class(g, c, s) for g, c, s in
+                  zip(comp["group"], comp["carbon_number"], smiles)],
+        "vol_pct": 100.0 * x,
+        "ron": contrib["ron"], "mon": contrib["mon"],
+        "ron_pull": pull["ron"], "mon_pull": pull["mon"],
+        "ron_b": b["ron"] * x, "mon_b": b["mon"] * x,
+    })
+    cells = []
+    bucket_rank = {bk: i for i, bk in enumerate((3, 4, 5, 6, 7, 8, 9, 10, 11, 12, "13+"))}
+    for (g, bk), part in frame.groupby(["group", "bucket"], sort=False):
+        cells.append({"group": g, "carbon_number": bk,
+                      "ron": float(part["ron"].sum()), "mon": float(part["mon"].sum()),
+                      "vol_pct": float(part["vol_pct"].sum())})
+    group_rank = {g: i for i, g in enumerate(("n_paraffins", "isoparaffins", "olefins",
+                                              "naphthenes", "aromatics", "oxygenates",
+                                              "unidentified"))}
+    cells.sort(key=lambda c: (group_rank.get(c["group"], 99), bucket_rank.get(c["carbon_number"],
+                                                                               99)))
+    by_name = frame.groupby("name", sort=False).agg(
+        vol_pct=("vol_pct", "sum"), ron=("ron_pull", "sum"), mon=("mon_pull", "sum"),
+        ron_b=("ron_b", "sum"), mon_b=("mon_b", "sum"))
+    worst = by_name[by_name["ron"] < 0].sort_values(["ron", "mon"]).head(N_COMPONENTS)
+    components = [{"name": str(name), "vol_pct": float(r.vol_pct), "ron": float(r.ron),
+                   "mon": float(r.mon),
+                   "ron_blending_value": float(r.ron_b / r.vol_pct * 100.0),
+                   "mon_blending_value": float(r.mon_b / r.vol_pct * 100.0)}
+                  for name, r in worst.iterrows()]
+    by_class = frame.groupby("class", sort=False).agg(
+        vol_pct=("vol_pct", "sum"), ron=("ron_pull", "sum"), mon=("mon_pull", "sum"),
+        ron_contribution=("ron", "sum"), mon_contribution=("mon", "sum"))
+    classes = [{"class": str(c), "vol_pct": float(r.vol_pct), "ron": float(r.ron),
+                "mon": float(r.mon), "ron_contribution": float(r.ron_contribution),
+                "mon_contribution": float(r.mon_contribution)}
+               for c, r in sorted(by_class.iterrows(), key=lambda kv: _class_key(kv[0]))]
+    return {"octane_contributions": cells,
+            "octane_explained": {
+                "method": METHOD,
+                "components": components,
+                "classes": classes,
+                "note": ("components/classes: ron and mon are the pull, x_i (b_i - ON): the "
+                         "first-order change of the sample's number if that part were taken "
+                         "out, sign reversed (negative = holds the number down); "
+                         "*_contribution and octane_contributions add up to RON/MON"),
+                "residual": residual,
+            }}
+
+
+def result_keys(composition, library, settings: dict, properties: dict) -> dict[str, Any]:
+    """As :func:`explain`, but never raises: a failure gives empty keys with the reason."""
+    try:
+        return explain(composition, library, settings, properties)
+    except Exception as err:  # noqa: BLE001 - an explanation must not lose the run
+        log.warning("octane contributions failed", exc_info=True)
+        return empty_keys(f"not computed ({type(err).__name__}: {err})")

@@ -663,6 +663,29 @@ def blend(vol_frac: np.ndarray, neat_on: np.ndarray, molar_volume_cm3_mol: np.nd
     return float(out[0]) if single else out
 
 
+def blend_ron(vol_frac: np.ndarray, neat_ron: np.ndarray, neat_mon: np.ndarray,
+              molar_volume_cm3_mol: np.ndarray, classes: list[str], params: dict[str, Any],
+              categories: list[str] | None = None) -> np.ndarray:
+    r"""RON of the ``interaction`` model: the MON model plus a blended sensitivity.
+
+    .. math:: RON = MON + \sum_i z_i\,a\,S_i + \sum_o k_o Z_o (1 - Z_o)
+
+    with :math:`S_i = RON_i - MON_i` the neat sensitivity (paraffins about 0, olefins,
+    aromatics and alcohols well above), :math:`z_i` the mole-lump weights of :func:`blend`,
+    a fitted scale :math:`a` and oxygenate-base terms (Anderson and Wallington 2020 form).
+    ``params``: ``{"mode": "mon_plus_sensitivity", "mon": <MON parameters>, "sensitivity":
+    {"scale": a, "k": {...}, "beta": {...}}}``. A primary reference fuel has S = 0 (both
+    reference fuels have RON = MON), so RON = MON = % v/v isooctane.
+    """
+    mon = blend(vol_frac, neat_mon, molar_volume_cm3_mol, classes, "interaction",
+                params.get("mon", {}), categories=categories)
+    sp = params.get("sensitivity", {})
+    sens = float(sp.get("scale", 1.0)) * (np.asarray(neat_ron, float) - np.asarray(neat_mon, float))
+    s = blend(vol_frac, sens, molar_volume_cm3_mol, classes, "interaction",
+              {"k": sp.get("k", {}), "beta": sp.get("beta", {})})
+    return mon + s
+
+
 def _known_k_name(name: str) -> bool:
     """Whether ``name`` is an interaction parameter :func:`blend` understands."""
     a, _, b = name.partition("*")
@@ -918,11 +941,18 @@ def predict_inputs(inputs: pd.DataFrame, model: str, params: dict[str, Any] | No
     """RON and MON of one sample from :func:`model_inputs` (uncalibrated)."""
     p = params if params is not None else load_params()
     out = {}
+    cats = list(inputs["structure"]) if "structure" in inputs else None
     for prop in PROPERTIES:
-        cats = list(inputs["structure"]) if "structure" in inputs else None
+        mp = model_params(model, prop, p)
+        if mp.get("mode") == "mon_plus_sensitivity":
+            out[prop] = blend_ron(inputs["vol_frac"].to_numpy(), inputs["ron"].to_numpy(),
+                                  inputs["mon"].to_numpy(),
+                                  inputs["molar_volume_cm3_mol"].to_numpy(),
+                                  list(inputs["class"]), mp, categories=cats)
+            continue
         out[prop] = blend(inputs["vol_frac"].to_numpy(), inputs[prop].to_numpy(),
                           inputs["molar_volume_cm3_mol"].to_numpy(), list(inputs["class"]),
-                          model, model_params(model, prop, p), categories=cats)
+                          model, mp, categories=cats)
     return out
 
 

@@ -7,17 +7,15 @@
    automatic marker search (hold given, and hold left for the search to find); the search
    alone (``dha.retention.find_markers``) is timed too.
    Targets: identification <= 50 ms, marker search <= 100 ms.
-2. Accuracy on unnamed runs of the three example petrols (``dha.synthetic``; the library's
-   indices are the truth there), seeds 0-9 (the methods were tuned on seeds 100-109): mass
-   identified correctly (``identification_accuracy``), mean and minimum, with the true markers
-   given and with the automatic search, and the share of runs whose automatic markers are all
-   right; with the sample's oxygenates stated (``expected_oxygenates``,
-   ``other_oxygenate_odds = 0``) as a lab that knows its blends would; and with both the
-   lab's alkane standard (C3-C13 times of the same programme) as markers and the oxygenates
-   stated. Conditions: index noise sd 0.5; sd 1.5 with 0.5 % retention-time drift. Targets of
-   the issue: >= 99 % and >= 97 %. Beside them the ceiling
-   (``identification_ceiling``: an identifier told which components are present), the most
-   any identifier can expect without knowing the composition beforehand.
+2. Accuracy on unnamed runs of REAL compositions (``dha.fuel_data``: the 40 fuels of
+   Kuzhagaliyeva et al. 2022 whose components the library holds; ``dha.synthetic`` only places
+   the peaks), seeds 7001-7003 (never used while choosing the methods), priors refitted without
+   the fuel's family (held out): mass identified correctly with the lab's alkane standard as
+   markers and with automatic markers, beside the ceiling (``identification_ceiling``: an
+   identifier told which components are present), and how many runs the identification check
+   flags. Conditions: index noise sd 0.5; sd 1.5 with 0.5 % retention-time drift. Targets of
+   issue 13: mean >= 97 % and every run >= 93 % (sd 0.5), >= 90 % (sd 1.5), or within 1 / 2
+   points of the ceiling; automatic markers: no run below 90 % without a flag.
 
     .venv/bin/python benchmarks/bench_identify.py [N] [--quick]
 """
@@ -27,12 +25,13 @@ import sys
 import time
 
 import numpy as np
+import pandas as pd
 
 from dha import retention as rx
 from dha.identify import _group_prior, _index_for, _library_indices, _peak_size, identify
 from dha.library import load_library
 from dha.settings import default_settings
-from dha.synthetic import (EXAMPLE_KINDS, alkane_retention_times, example_composition,
+from dha.synthetic import (example_composition,
                            identification_accuracy, identification_ceiling, synthetic_run)
 
 N_PEAKS = 600
@@ -102,51 +101,57 @@ def speed(lib, n):
     print(f"  marker search alone (hold given)  {1000 * t:7.1f} ms  ({flag})")
 
 
-def accuracy(lib, seeds):
-    print(f"accuracy on unnamed example petrols, seeds {seeds[0]}-{seeds[-1]}: mass identified "
-          "correctly, mean / min")
-    print("  columns: run = the sample's own n-alkanes as markers; +oxy = and its oxygenates "
-          "stated; lab = the alkane standard C3-C13 as markers and the oxygenates stated; "
-          "auto = markers found (n right / runs); ceiling = told the components")
-    standard = {str(c): t for c, t in alkane_retention_times().items() if 3 <= c <= 13}
-    for sd, drift, target in ((0.5, 0.0, 0.99), (1.5, 0.5, 0.97)):
-        print(f"  index noise sd {sd}, drift {drift} %, target {target:.2f}")
-        for kind in EXAMPLE_KINDS:
-            comp = example_composition(kind, lib)
-            oxy = [c for c in comp if lib.components.at[c, "group"] == "oxygenates"]
-            stated = dict(expected_oxygenates=oxy, other_oxygenate_odds=0.0)
-            cols = {k: [] for k in ("run", "+oxy", "lab", "auto", "ceiling")}
-            ok = 0
+def real_accuracy(lib, seeds, auto=True):
+    """Accuracy on unnamed runs of the real fuels (dha.fuel_data), held out by family."""
+    from dha.fuel_data import fuel_table
+    from dha.synthetic import lab_standard, real_fuel_run
+
+    fuels = fuel_table(lib)
+    usable = fuels[fuels["unmatched_mass_pct"] < 1.0]
+    print(f"accuracy on unnamed runs of REAL compositions ({len(usable)} of {len(fuels)} fuels of "
+          "Kuzhagaliyeva et al. 2022 whose components the library holds; the prenol blends are "
+          f"left out), seeds {seeds}; priors refitted without the fuel's family (HELD-OUT)")
+    print("  std = the alkane standard C3-C13 as markers; auto = markers found; ceiling = told "
+          "the components; flagged = identification check not 'pass'")
+    for sd, drift, target, near in ((0.5, 0.0, 0.97, 0.01), (1.5, 0.5, 0.90, 0.02)):
+        rows = []
+        for r in usable.itertuples():
             for seed in seeds:
-                peaks, truth = synthetic_run(comp, lib, seed=seed, index_noise_sd=sd,
+                peaks, truth = real_fuel_run(lib, r.mixture_id, seed=seed, index_noise_sd=sd,
                                              drift_pct=drift)
-                own = true_markers(truth, lib)
-                for key, kw in (("run", dict(markers=own)),
-                                ("+oxy", dict(markers=own, **stated)),
-                                ("lab", dict(markers=standard, **stated))):
-                    cols[key].append(identification_accuracy(
-                        identify(peaks, lib, settings(**kw)), truth))
-                out = identify(peaks, lib, settings())
-                cols["auto"].append(identification_accuracy(out, truth))
-                cols["ceiling"].append(identification_ceiling(peaks, truth, lib))
-                rt = peaks["rt_min"].to_numpy()
-                true = {int(round(i / 100)): float(rt[int(r) - 1]) for c, i, r in
-                        zip(truth["component"], truth["true_index"], truth["row"])
-                        if c is not None and r == r
-                        and lib.components.at[c, "group"] == "n_paraffins"}
-                ok += all(abs(true.get(c, -1.0) - t) < 1e-9
-                          for c, t in out.attrs["markers"].items())
-            text = "  ".join(f"{k} {np.mean(v):.3f}/{np.min(v):.3f}" for k, v in cols.items())
-            met = [k for k in ("run", "+oxy", "lab") if np.mean(cols[k]) >= target]
-            below = sum(c < target for c in cols["ceiling"])
-            print(f"    {kind:10s} {text}  auto markers right {ok}/{len(seeds)}; mean target "
-                  f"met by: {', '.join(met) or 'none'}; ceiling runs below it {below}/{len(seeds)}")
+                row = {"family": r.family, "label": r.label, "seed": seed, "peaks": len(peaks),
+                       "ceiling": identification_ceiling(peaks, truth, lib)}
+                for key, kw in (("std", dict(markers=lab_standard())), ("auto", {})):
+                    if key == "auto" and not auto:
+                        continue
+                    out = identify(peaks, lib, settings(prior_exclude_families=[r.family], **kw))
+                    row[key] = identification_accuracy(out, truth)
+                    q = out.attrs.get("quality") or {}
+                    row[key + "_flag"] = q.get("verdict", "pass") != "pass"
+                rows.append(row)
+        d = pd.DataFrame(rows)
+        print(f"  index noise sd {sd}, drift {drift} %: target mean >= {target:.2f} (every run "
+              f">= 0.93 at sd 0.5) or within {near:.2f} of the ceiling")
+        for key in ("std", "auto"):
+            if key not in d:
+                continue
+            gap = d["ceiling"].mean() - d[key].mean()
+            unflagged_bad = int(((d[key] < 0.90) & ~d[key + "_flag"]).sum())
+            print(f"    {key:4s} mean {d[key].mean():.4f} min {d[key].min():.4f} | ceiling mean "
+                  f"{d['ceiling'].mean():.4f} min {d['ceiling'].min():.4f} | gap {gap:+.4f} | "
+                  f"flagged {int(d[key + '_flag'].sum())}/{len(d)}, runs < 0.90 without a flag "
+                  f"{unflagged_bad}")
+        by = d.groupby("family").agg(**{f"{k}_{f}": (k, f) for k in ("std", "auto", "ceiling")
+                                        if k in d for f in ("mean", "min")})
+        print("    per family (held out):")
+        for fam, r in by.iterrows():
+            print("      " + f"{fam:13s} " + "  ".join(f"{c} {v:.4f}" for c, v in r.items()))
 
 
 def main(n: int = 5, quick: bool = False) -> None:
     lib = load_library()
     speed(lib, n)
-    accuracy(lib, list(range(3 if quick else 10)))
+    real_accuracy(lib, [7001] if quick else [7001, 7002, 7003])
 
 
 if __name__ == "__main__":

@@ -25,6 +25,8 @@ COMMAND_MODULES = (
     "dha.commands.demo",
     "dha.commands.index",
     "dha.commands.octane",
+    "dha.commands.history",
+    "dha.commands.levers",
 )
 
 

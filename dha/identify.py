@@ -185,6 +185,20 @@ class _NameIndex:
                 self.n_alkanes[int(row["carbon_number"])] = name
         for kk in self.ambiguous:
             self.by_key.pop(kk, None)
+        # names and CAS numbers without cis/trans (component_library/stereo_unspecified.csv)
+        self.stereo_by_key: dict[str, str] = {}
+        self.stereo_by_cas: dict[str, str] = {}
+        stereo = getattr(library, "stereo", None)
+        if stereo is not None:
+            for entry, srow in stereo.iterrows():
+                for k in [entry] + [t for t in str(srow.get("synonyms") or "").split(";")
+                                    if t.strip()]:
+                    kk = name_key(k)
+                    if kk and kk not in self.by_key:
+                        self.stereo_by_key.setdefault(kk, entry)
+                ck = cas_key(srow.get("cas"))
+                if ck and ck not in self.by_cas:
+                    self.stereo_by_cas.setdefault(ck, entry)
         if self.ambiguous:
             log.warning("library: %d names/synonyms are shared by two components and are not "
                         "used for matching: %s", len(self.ambiguous), ", ".join(sorted(self.ambiguous)[:5]))
@@ -259,6 +273,74 @@ def match_name(text: Any, library: Any) -> str | None:
         The library's canonical name.
     """
     return _index_for(library).match(text)[0]
+
+
+def match_stereo(text: Any, library: Any) -> str | None:
+    """Stereo-unspecified entry (``library.stereo``) for a name or CAS number without cis/trans.
+
+    Tolerant in the same way as :func:`match_name`, which is tried first: a name or CAS number
+    of a library component never lands here. ``library.stereo_isomers(entry)`` gives the
+    isomers and their default shares.
+
+    >>> from dha.library import load_library
+    >>> match_stereo("Cyclohexane, 1,3-dimethyl-", load_library())
+    '1,3-dimethylcyclohexane'
+    """
+    index = _index_for(library)
+    if text is None or (isinstance(text, float) and math.isnan(text)) or not str(text).strip():
+        return None
+    ck = cas_key(text)
+    if ck is not None:
+        return index.stereo_by_cas.get(ck)
+    return index.stereo_by_key.get(name_key(text))
+
+
+def _stereo_named(table: pd.DataFrame, library: Any) -> dict[int, str]:
+    """Row position -> stereo-unspecified entry, for peaks whose CAS or name has no cis/trans."""
+    out: dict[int, str] = {}
+    if getattr(library, "stereo", None) is None or library.stereo.empty:
+        return out
+    for i in np.flatnonzero(table["component"].isna().to_numpy()):
+        entry = match_stereo(table.at[i, "cas"], library) or match_stereo(table.at[i, "name"],
+                                                                          library)
+        if entry is not None:
+            out[int(i)] = entry
+    return out
+
+
+def _assign_stereo(table: pd.DataFrame, stereo_of: dict[int, str], peak_ri: np.ndarray,
+                   library: Any, warnings: list[str]) -> None:
+    """Give each peak named without cis/trans one library isomer (in place).
+
+    Rule (DEVELOPERS.md): among the entry's isomers not already named on another peak, the one
+    whose library retention index is nearest the peak's index; without a peak index, the
+    isomer with the largest default share (the first listed on a tie). The choice is listed
+    in a warning. A peak is not split: the isomers of one name elute apart on this phase.
+    """
+    comps = library.components
+    used = set(table["component"].dropna())
+    notes = []
+    for i, entry in sorted(stereo_of.items()):
+        isomers = [(n, w) for n, w in library.stereo_isomers(entry) if n not in used]
+        if not isomers:
+            continue
+        ri = float(peak_ri[i]) if np.isfinite(peak_ri[i]) else math.nan
+        lib_ri = pd.to_numeric(comps.loc[[n for n, _ in isomers], "retention_index"],
+                               errors="coerce").to_numpy(dtype=float)
+        if math.isfinite(ri) and np.isfinite(lib_ri).any():
+            k = int(np.nanargmin(np.abs(lib_ri - ri)))
+            why = f"nearest index, {ri:.1f} vs {lib_ri[k]:.1f}"
+        else:
+            k = int(np.argmax([w for _, w in isomers]))
+            why = "no peak index: largest default share"
+        name = isomers[k][0]
+        table.at[i, "component"] = name
+        table.at[i, "match"] = "name"
+        used.add(name)
+        notes.append(f"row {table.at[i, 'row']} {entry!r} -> {name} ({why})")
+    if notes:
+        warnings.append("peak names without cis/trans assigned to one library isomer: "
+                        + "; ".join(notes))
 
 
 def match_names(peaks: pd.DataFrame, library: Any, use_names: bool = True) -> pd.DataFrame:
@@ -394,8 +476,8 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     log-likelihood ratio of the matches (Gaussian index errors, sd = tolerance / 2) plus log
     prior odds per library entry: ``identify.learnt_prior`` for indices the lab learnt, and
     the group prior (typical petrol group shares spread over the library's entries of each
-    group, :data:`TYPICAL_GROUP_MASS_PCT`, and within hydrocarbon groups over carbon numbers,
-    :data:`TYPICAL_CARBON_MASS_PCT`; scaled by ``identify.group_prior``); each peak's
+    group, and within hydrocarbon groups over carbon numbers, from real fuels'
+    compositions, :func:`prior_shares`; scaled by ``identify.group_prior``); each peak's
     term is weighted by ``1 + ln(1 + area / median area)`` (``identify.size_weight``).
     With ``identify.adapt_tolerance`` a second alignment uses a window and sd adapted to the
     run's own spread of index differences (:func:`_adapted_window`); the window used is in
@@ -415,11 +497,15 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     table["component"] = nm["component"].astype(object)
     table["match"] = nm["match"].astype(object)
 
+    # names/CAS numbers without cis/trans: assigned to an isomer once indices are known
+    stereo_of = _stereo_named(table, library) if s.get("use_names", True) else {}
     # export names the library does not know: kept, listed
     unknown_names: list[str] = []
     if s.get("use_names", True):
         has_name = table["name"].notna() & (table["name"].astype(str).str.strip() != "")
         for i in np.flatnonzero(has_name.to_numpy() & table["component"].isna().to_numpy()):
+            if i in stereo_of:
+                continue
             unknown_names.append(str(table.at[i, "name"]))
         if unknown_names:
             uniq = sorted(set(unknown_names))
@@ -461,6 +547,9 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         elif not table["component"].notna().all():
             warnings.append("no retention indices: the export has none and no n-alkane markers "
                             "were found; peaks without a known name stay unidentified")
+
+    if stereo_of:
+        _assign_stereo(table, stereo_of, peak_ri, library, warnings)
 
     # 2. alignment of the peaks left
     comp = table["component"].to_numpy(dtype=object).copy()
@@ -562,12 +651,6 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     return table
 
 
-#: Typical petrol group totals [mass %] for the group prior (common practice, no source; in
-#: line with the EN 228 caps of 35 % v/v aromatics and 18 % v/v olefins).
-TYPICAL_GROUP_MASS_PCT = {"n_paraffins": 10.0, "isoparaffins": 35.0, "olefins": 10.0,
-                          "naphthenes": 8.0, "aromatics": 30.0, "oxygenates": 3.0}
-
-
 def _weights(size: np.ndarray, s: dict[str, Any]) -> np.ndarray:
     """Weight of each peak's match in the alignment: ``1 + ln(1 + size / median size)``.
 
@@ -579,12 +662,6 @@ def _weights(size: np.ndarray, s: dict[str, Any]) -> np.ndarray:
         return np.ones(len(size))
     med = np.median(size[size > 0]) if np.any(size > 0) else 1.0
     return 1.0 + np.log1p(size / med)
-
-
-#: Typical carbon-number distribution of petrol hydrocarbons [mass %] for the prior (common
-#: practice, no source: petrol boils from about 30 to 210 degC, C4-C12, most mass in C5-C9).
-TYPICAL_CARBON_MASS_PCT = {3: 0.3, 4: 5.0, 5: 14.0, 6: 16.0, 7: 18.0, 8: 18.0, 9: 13.0,
-                           10: 8.0, 11: 4.0, 12: 1.5, 13: 0.5}
 
 
 #: The oxygenates EN 228 names (methanol, ethanol, isopropyl, isobutyl and tert-butyl alcohol);
@@ -659,18 +736,19 @@ def _warn_unexpected_oxygenates(table: pd.DataFrame, rows: np.ndarray, comp: np.
 def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarray:
     """Log prior odds of each entry: ln(expected mass share per entry of its cell), centred.
 
-    A unit of petrol mass belongs to a group with its typical share
-    (:data:`TYPICAL_GROUP_MASS_PCT`) and, for hydrocarbons, to a carbon number with the
-    typical petrol distribution (:data:`TYPICAL_CARBON_MASS_PCT`, taken over the carbon
-    numbers the library has for that group); within such a (group, carbon number) cell to
-    any of the library's entries alike. So an entry of a crowded cell with little mass (the
-    many C10-C12 aromatics, C6-C7 olefins) is a priori less likely than one of a rich, sparse
-    cell (the C8 aromatics). Oxygenates are there because they were blended in: the share of
-    the group goes to the expected oxygenates (:func:`expected_oxygenates`) alike, each other
-    oxygenate getting ``identify.other_oxygenate_odds`` times an expected one's (their carbon
-    number says nothing of their share; 0 takes them out of index matching altogether).
-    ``identify.group_prior`` scales it (0 = off); ``identify.carbon_prior = false`` uses the
-    group shares alone.
+    The shares come from real fuels, not from invented profiles: the group and, for
+    hydrocarbons, (group, carbon number) mass shares of the detailed compositions of
+    :mod:`dha.fuel_data` (Kuzhagaliyeva et al. 2022, CC BY 4.0; see :func:`prior_shares`).
+    A unit of petrol mass belongs to a cell with its share there; within a cell to any of the
+    library's entries alike. So an entry of a crowded cell with little mass (the many C10-C12
+    aromatics, C6-C7 olefins) is a priori less likely than one of a rich, sparse cell (the C8
+    aromatics). Oxygenates are there because they were blended in: the share of the group goes
+    to the expected oxygenates (:func:`expected_oxygenates`) alike, each other oxygenate
+    getting ``identify.other_oxygenate_odds`` times an expected one's (their carbon number
+    says nothing of their share; 0 takes them out of index matching altogether).
+    ``identify.group_prior`` scales it (0 = off: every entry alike); ``identify.carbon_prior
+    = false`` uses the group shares alone; ``identify.prior_exclude_families`` leaves fuel
+    families of the data out (for held-out evaluation).
     """
     scale = float(s.get("group_prior", 1.0))
     if scale == 0 or len(names) == 0:
@@ -680,19 +758,100 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
         raise SettingsError(f"[identify] other_oxygenate_odds = {odds!r}: give a number >= 0 "
                             "(1 = no preference, 0 = never match them by index)")
     odds = max(odds, 1e-6)          # 0: the entries leave the pool (identify); finite here
+    exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
     table = _prior_table(library, bool(s.get("carbon_prior", True)),
-                         expected_oxygenates(library, s), odds)
+                         expected_oxygenates(library, s), odds, exclude,
+                         bool(s.get("component_prior", True)))
     return scale * table.reindex(pd.Index(names, dtype=object)).fillna(0.0).to_numpy(dtype=float)
 
 
 _PRIOR_CACHE: dict[tuple, tuple] = {}
 
+#: Mass share [%] given to every (group, carbon number) cell of the library on top of the
+#: data's, so a cell the 40 fuels lack is unlikely, not impossible (common practice, no source:
+#: additive smoothing; about the size of the smallest components the data report).
+PRIOR_FLOOR_PCT = 0.05
+
+#: Weight of a cell's average share per entry beside a component's own share in the data,
+#: in the component prior (a half: chosen beforehand, not tuned; common practice, no source).
+PRIOR_CELL_WEIGHT = 0.5
+
+#: Oxygen limit [% m/m] of EN 228 petrol (E10 grade); fuels of the data above it (the 25-90 %
+#: blends of a blending study) are left out of the oxygenate share.
+EN228_MAX_OXYGEN_PCT = 3.7
+
+
+def prior_shares(library: Any, exclude_families: tuple = ()) -> tuple[dict, dict]:
+    """Mass shares of groups and (group, carbon number) cells in real fuels [%].
+
+    From :func:`dha.fuel_data.real_fuels`: each family (a base fuel and its blends) counts
+    once, its members averaged. Hydrocarbon cells: the share of the hydrocarbon mass;
+    the oxygenate share: mean oxygenate mass % of the family members within EN 228's oxygen
+    limit (:data:`EN228_MAX_OXYGEN_PCT`). Every library cell gets :data:`PRIOR_FLOOR_PCT` on top.
+
+    Returns
+    -------
+    groups : dict
+        group -> mass % (sums to 100).
+    cells : dict
+        (group, carbon number) -> mass % of petrol (hydrocarbon groups; sums with the
+        oxygenate share to 100).
+    components : dict
+        hydrocarbon library name -> mean mass % in the data (on the same scale as ``cells``,
+        without the floor; components the data lack are absent).
+    """
+    from dha.fuel_data import real_fuels
+
+    comps = library.components
+    f = real_fuels(library)
+    f = f[f["component"].notna() & ~f["family"].isin(list(exclude_families))].copy()
+    if f.empty:
+        raise SettingsError("[identify] prior_exclude_families leaves no fuel for the priors")
+    f["group"] = f["component"].map(comps["group"])
+    f["carbon"] = f["component"].map(pd.to_numeric(comps["carbon_number"], errors="coerce"))
+    formula = comps["formula"].astype(str) if "formula" in comps else pd.Series("", index=comps.index)
+    n_o = formula.str.extract(r"O(\d*)")[0].map(lambda x: np.nan if pd.isna(x) else
+                                                   (int(x) if x else 1))
+    o_frac = (15.999 * n_o.fillna(0) / pd.to_numeric(comps["molar_mass_g_mol"], errors="coerce")).fillna(0)
+    f["oxygen"] = f["mass_pct"] * f["component"].map(o_frac).fillna(0)
+    fam_oxy, fam_cells, fam_comps = [], [], []
+    for _, fam in f.groupby("family", sort=True):
+        per, per_c = [], []
+        for _, fuel in fam.groupby("mixture_id", sort=True):
+            hc = fuel[fuel["group"] != "oxygenates"]
+            cell = hc.groupby(["group", "carbon"])["mass_pct"].sum()
+            per.append(cell / cell.sum())
+            one = hc.groupby("component")["mass_pct"].sum()
+            per_c.append(one / one.sum())
+            if fuel["oxygen"].sum() <= EN228_MAX_OXYGEN_PCT:
+                fam_oxy.append((fam["family"].iat[0], fuel.loc[fuel["group"] == "oxygenates",
+                                                               "mass_pct"].sum()))
+        fam_cells.append(pd.concat(per, axis=1).fillna(0.0).mean(axis=1))
+        fam_comps.append(pd.concat(per_c, axis=1).fillna(0.0).mean(axis=1))
+    cells_hc = pd.concat(fam_cells, axis=1).fillna(0.0).mean(axis=1)
+    oxy = pd.DataFrame(fam_oxy, columns=["family", "pct"]).groupby("family")["pct"].mean()
+    oxy_pct = float(oxy.mean()) if len(oxy) else 0.0
+    lib_cells = comps.assign(c=pd.to_numeric(comps["carbon_number"], errors="coerce"))
+    lib_cells = lib_cells[lib_cells["group"] != "oxygenates"].groupby(["group", "c"]).size()
+    cells: dict = {}
+    for key in lib_cells.index:
+        cells[key] = (100.0 - oxy_pct) * float(cells_hc.get(key, 0.0)) + PRIOR_FLOOR_PCT
+    total = sum(cells.values()) + oxy_pct + PRIOR_FLOOR_PCT
+    cells = {k: 100.0 * v / total for k, v in cells.items()}
+    groups: dict = {}
+    for (g, _), v in cells.items():
+        groups[g] = groups.get(g, 0.0) + v
+    groups["oxygenates"] = 100.0 * (oxy_pct + PRIOR_FLOOR_PCT) / total
+    comp_hc = pd.concat(fam_comps, axis=1).fillna(0.0).mean(axis=1)
+    components = {c: (100.0 - oxy_pct) * float(v) * 100.0 / total for c, v in comp_hc.items()}
+    return groups, cells, components
+
 
 def _prior_table(library: Any, by_carbon: bool, expected: frozenset = frozenset(),
-                 odds: float = 1.0) -> pd.Series:
+                 odds: float = 1.0, exclude: tuple = (), by_component: bool = True) -> pd.Series:
     """Unscaled log prior odds of every library entry (see :func:`_group_prior`), cached per
     library object and content checksum."""
-    key = (id(library), by_carbon, expected, odds)
+    key = (id(library), by_carbon, expected, odds, exclude, by_component)
     sha = getattr(library, "sha256", None)
     hit = _PRIOR_CACHE.get(key)
     if hit is not None and hit[0] is library and hit[1] == sha:
@@ -700,35 +859,30 @@ def _prior_table(library: Any, by_carbon: bool, expected: frozenset = frozenset(
     comps = library.components
     groups = comps["group"]
     carbon = pd.to_numeric(comps.get("carbon_number"), errors="coerce")
+    g_share, c_share, comp_share = prior_shares(library, exclude)
     counts = groups.value_counts()
-    share = {g: TYPICAL_GROUP_MASS_PCT.get(g, 1.0) for g in counts.index}
-    total = sum(share.values())
-    per: dict[tuple, float] = {}
-    for g, n_g in counts.items():
-        in_g = carbon[groups == g]
-        cells = in_g.value_counts()
-        if not by_carbon or g == "oxygenates" or cells.empty:
-            for n in list(cells.index) + [np.nan]:
-                per[(g, n)] = np.log(share[g] / total / n_g)
-            continue
-        w = {n: TYPICAL_CARBON_MASS_PCT.get(int(n), 0.1) for n in cells.index}
-        w_sum = sum(w.values())
-        for n, n_cell in cells.items():
-            per[(g, n)] = np.log(share[g] / total * w[n] / w_sum / n_cell)
-        per[(g, np.nan)] = np.log(share[g] / total / n_g)
+    cell_n = pd.DataFrame({"g": groups, "c": carbon}).groupby(["g", "c"]).size()
     uniform = np.log(1.0 / len(comps))
     n_oxy = int(counts.get("oxygenates", 0))
     n_exp = len(expected)            # a subset of the library's oxygenates
-    one_oxy = share.get("oxygenates", 1.0) / total / max(n_exp + odds * (n_oxy - n_exp), 1e-300)
+    one_oxy = g_share.get("oxygenates", 1e-3) / 100.0 / max(n_exp + odds * (n_oxy - n_exp), 1e-300)
     vals = []
     for name, g, n in zip(comps.index, groups, carbon):
         if g == "oxygenates":
             vals.append(np.log(one_oxy * (1.0 if name in expected else odds)) - uniform)
-            continue
-        key_c = (g, n if pd.notna(n) else np.nan)
-        vals.append(per.get(key_c, per.get((g, np.nan), uniform)) - uniform)
+        elif by_carbon and pd.notna(n) and (g, n) in c_share:
+            # the component's own mean share in the data, plus a part of its cell's
+            # average share per entry (PRIOR_CELL_WEIGHT), so an entry the data lack keeps
+            # a cell-sized chance
+            own = comp_share.get(name, 0.0) if by_component else 0.0
+            w_cell = PRIOR_CELL_WEIGHT if by_component else 1.0
+            vals.append(np.log((own + w_cell * c_share[(g, n)] / cell_n[(g, n)]) / 100.0)
+                        - uniform)
+        else:
+            vals.append(np.log(max(g_share.get(g, PRIOR_FLOOR_PCT), 1e-9) / 100.0
+                               / counts.get(g, 1)) - uniform)
     table = pd.Series(vals, index=comps.index, dtype=float)
-    if len(_PRIOR_CACHE) > 8:
+    if len(_PRIOR_CACHE) > 32:
         _PRIOR_CACHE.clear()
     _PRIOR_CACHE[key] = (library, sha, table)
     return table

@@ -64,6 +64,7 @@ LIBRARY_FILES = (
     "references.toml",
     "unifac/subgroups.csv",
     "unifac/interactions.csv",
+    "stereo_unspecified.csv",
 )
 
 GROUPS = ("n_paraffins", "isoparaffins", "olefins", "naphthenes", "aromatics", "oxygenates")
@@ -117,6 +118,10 @@ VP_EQUATIONS = {
 COELUTION_COLUMNS = ("name_a", "name_b", "share_a", "source", "note")
 SUBGROUP_COLUMNS = ("subgroup", "main_group", "name", "r", "q")
 INTERACTION_COLUMNS = ("main_i", "main_j", "a_ij_k")
+#: Names and CAS numbers without cis/trans (E/Z) and the library isomers they stand for
+#: (``stereo_unspecified.csv``, optional; see component_library/README.md).
+STEREO_COLUMNS = ("name", "synonyms", "cas", "smiles", "isomers", "shares", "identity_source",
+                  "share_source", "note")
 
 #: Temperature of the vapour-pressure specification, 37.8 °C = 100 °F [K].
 T_RVP_K = 310.93
@@ -443,6 +448,9 @@ class Library:
     folders: tuple[Path, ...]
     description: str = ""
     problems: tuple = ()
+    #: stereo-unspecified entries, indexed by ``name`` (columns of ``STEREO_COLUMNS``)
+    stereo: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(
+        columns=list(STEREO_COLUMNS[1:]), index=pd.Index([], name="name")))
     _tables: dict = field(default_factory=dict, repr=False)
     _meta: dict = field(default_factory=dict, repr=False)
 
@@ -496,6 +504,50 @@ class Library:
             if name not in out:
                 out.append(name)
         return out[:n]
+
+    @cached_property
+    def _stereo_lookup(self) -> dict[str, str]:
+        table: dict[str, str] = {}
+        for name, row in self.stereo.iterrows():
+            table.setdefault(normalise_key(name), name)
+            if row.get("cas"):
+                table.setdefault(normalise_key(row["cas"]), name)
+            for syn in split_synonyms(row.get("synonyms", "")):
+                table.setdefault(normalise_key(syn), name)
+        return table
+
+    def find_stereo(self, text: str | None) -> str | None:
+        """Stereo-unspecified entry (``stereo_unspecified.csv``) for a name, synonym or CAS.
+
+        Only consulted when :meth:`find` knows nothing: a library component of the same name
+        wins.
+
+        >>> load_library().find_stereo("591-21-9")
+        '1,3-dimethylcyclohexane'
+        """
+        if text is None or (isinstance(text, float) and math.isnan(text)):
+            return None
+        return self._stereo_lookup.get(normalise_key(str(text)))
+
+    def stereo_isomers(self, entry: str, shares: dict | None = None) -> list[tuple[str, float]]:
+        """The library isomers of a stereo-unspecified entry with their shares (sum 1).
+
+        Rule (component_library/README.md): ``shares`` (a lab's {isomer: share}, e.g. from
+        ``[quantify] stereo_shares``) if given, else the row's ``shares`` column, else equal
+        shares. Shares are normalised to sum to 1.
+
+        >>> load_library().stereo_isomers("2-butene")
+        [('cis-2-butene', 0.5), ('trans-2-butene', 0.5)]
+        """
+        row = self.stereo.loc[entry]
+        isomers = split_synonyms(row["isomers"])
+        given = parse_shares(row.get("shares", ""), len(isomers))
+        if shares:
+            given = [float(shares.get(i, 0.0)) for i in isomers]
+        if given is None or not sum(given) > 0:
+            given = [1.0] * len(isomers)
+        total = float(sum(given))
+        return [(i, float(v) / total) for i, v in zip(isomers, given)]
 
     # -- properties ---------------------------------------------------------------------------
     def psat_kpa(self, t_k: float) -> pd.Series:
@@ -654,6 +706,20 @@ def split_synonyms(text: str) -> list[str]:
     return [s.strip() for s in str(text or "").split(";") if s.strip()]
 
 
+def parse_shares(text: str, n: int) -> list[float] | None:
+    """``"0.6;0.4"`` -> ``[0.6, 0.4]``; None when blank, not ``n`` numbers or negative."""
+    parts = split_synonyms(text)
+    if len(parts) != n:
+        return None
+    try:
+        values = [float(p) for p in parts]
+    except ValueError:
+        return None
+    if any(not math.isfinite(v) or v < 0 for v in values):
+        return None
+    return values
+
+
 def split_source(text: str) -> list[str]:
     """A source cell may name several keys separated by ``;``."""
     return [s.strip() for s in str(text or "").split(";") if s.strip()]
@@ -809,14 +875,16 @@ def read_library(folders: str | Path | Sequence[str | Path]) -> Library:
     references: dict[str, Any] = {}
     tables: dict[str, _Table | None] = {k: None for k in
                                         ("components", "vapour_pressure", "coelution",
-                                         "subgroups", "interactions")}
+                                         "subgroups", "interactions", "stereo")}
     specs = {
         "components": ("components.csv", COMPONENT_COLUMNS, True),
         "vapour_pressure": ("vapour_pressure.csv", VP_COLUMNS, False),
         "coelution": ("coelution.csv", COELUTION_COLUMNS, True),
         "subgroups": ("unifac/subgroups.csv", SUBGROUP_COLUMNS, False),
         "interactions": ("unifac/interactions.csv", INTERACTION_COLUMNS, False),
+        "stereo": ("stereo_unspecified.csv", STEREO_COLUMNS, True),
     }
+    optional = {"stereo"}
     versions: list[str] = []
     names: list[str] = []
     for i, folder in enumerate(folders):
@@ -850,13 +918,15 @@ def read_library(folders: str | Path | Sequence[str | Path]) -> Library:
         for kind, (rel, cols, cellwise) in specs.items():
             raw = _read_csv(folder, rel, problems)
             if raw is None:
-                if not is_overlay and not (folder / rel).exists():
+                if not is_overlay and not (folder / rel).exists() and kind not in optional:
                     problems.append(Problem(_label(folder, rel), None, None,
                                             "required file missing"))
                 continue
             found_any = True
             if is_overlay and tables[kind] is None:
-                continue  # base file missing: already reported
+                if kind not in optional:
+                    continue  # base file missing: already reported
+                tables[kind] = _Table(columns=list(cols))
             tables[kind] = _merge(tables[kind], raw, kind, cellwise, cols, is_overlay, problems)
         if is_overlay and not found_any:
             problems.append(Problem(str(folder), None, None,
@@ -871,6 +941,12 @@ def read_library(folders: str | Path | Sequence[str | Path]) -> Library:
     subs = _to_frame(tables["subgroups"], ("r", "q"), ("subgroup", "main_group"), problems,
                      "subgroup")
     inter = _to_frame(tables["interactions"], ("a_ij_k",), ("main_i", "main_j"), problems, None)
+    if tables["stereo"] is None:
+        tables["stereo"] = _Table(columns=list(STEREO_COLUMNS))
+    stereo = _to_frame(tables["stereo"], (), (), problems, "name")
+    for col in STEREO_COLUMNS[1:]:
+        if col not in stereo.columns:
+            stereo[col] = ""
     # extra (unknown) component columns that read as numbers become float
     for col in comps.columns:
         if col not in COMPONENT_COLUMNS and comps[col].dtype == object:
@@ -887,7 +963,7 @@ def read_library(folders: str | Path | Sequence[str | Path]) -> Library:
         unifac_subgroups=subs, unifac_interactions=inter,
         name=meta["name"] if len(names) == 1 else "+".join(names), version=version,
         sha256=library_sha256(folders), folders=folders, description=meta["description"],
-        _tables=tables, _meta=meta,
+        stereo=stereo, _tables=tables, _meta=meta,
     )
 
 
@@ -981,6 +1057,7 @@ def check_library(lib: Library | str | Path | Sequence[str | Path]) -> list[Prob
     _check_vapour_pressure(lib, problems)
     _check_coelution(lib, problems)
     _check_unifac(lib, problems)
+    _check_stereo(lib, problems)
     return problems
 
 
@@ -1305,3 +1382,56 @@ def _check_unifac(lib: Library, problems: list[Problem]) -> None:
             if reason:
                 label, number = inter.where(key, "source")
                 problems.append(Problem(label, number, "source", reason))
+
+
+def _check_stereo(lib: Library, problems: list[Problem]) -> None:
+    """``stereo_unspecified.csv``: isomers are library components of one formula carrying a
+    cis/trans (E/Z) descriptor, shares are non-negative numbers (one per isomer), the CAS number
+    is valid and claimed by no component, names are no component's name, CAS or synonym, and
+    every source resolves."""
+    table: _Table | None = lib._tables.get("stereo")
+    if table is None or lib.stereo.empty:
+        return
+    comps = lib.components
+    taken = lib._lookup
+    seen: dict[str, str] = {}
+    for name, row in lib.stereo.iterrows():
+        def add(column: str | None, message: str, key=name) -> None:
+            label, number = table.where(key, column)
+            problems.append(Problem(label, number, column, message))
+
+        for text, col in [(name, "name"), (row["cas"], "cas")] + [
+                (syn, "synonyms") for syn in split_synonyms(row["synonyms"])]:
+            if not text:
+                continue
+            key = normalise_key(text)
+            if key in taken:
+                add(col, f"{text!r} is already the library component {taken[key]!r}; "
+                         "remove it here (a component of that name wins)")
+            elif key in seen and seen[key] != name:
+                add(col, f"{text!r} also names the entry {seen[key]!r}")
+            seen.setdefault(key, name)
+        if row["cas"] and not cas_is_valid(row["cas"]):
+            add("cas", f"{row['cas']!r} is not a valid CAS number (format or check digit)")
+        isomers = split_synonyms(row["isomers"])
+        if len(isomers) < 1:
+            add("isomers", "no isomer given; list the library names separated by ';'")
+        formulas = set()
+        for iso in isomers:
+            if iso not in comps.index:
+                close = difflib.get_close_matches(iso, list(comps.index), n=1)
+                add("isomers", f"{iso!r} is not a component name"
+                    + (f" (did you mean {close[0]!r}?)" if close else ""))
+                continue
+            formulas.add(comps.at[iso, "formula"])
+            if not re.search(r"(^|[-,(])(cis|trans|e|z)([-,)]|$)", iso):
+                add("isomers", f"{iso!r} carries no cis/trans (E/Z) descriptor")
+        if len(formulas) > 1:
+            add("isomers", f"the isomers have different formulas ({', '.join(sorted(formulas))})")
+        if row["shares"] and parse_shares(row["shares"], len(isomers)) is None:
+            add("shares", f"{row['shares']!r}: give {len(isomers)} non-negative numbers "
+                          "separated by ';' (or leave blank for equal shares)")
+        for col in ("identity_source", "share_source"):
+            reason = _resolves(row[col], lib.references)
+            if reason:
+                add(col, reason)

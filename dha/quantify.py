@@ -99,14 +99,19 @@ class Quantified:
     """What quantification returns.
 
     table : the composition table (``COMPOSITION_COLUMNS``), percentages summing to 100
-    mass_balance : peak runs only (None for composition input): areas and shares of identified,
-        unidentified and excluded peaks, raw and response-corrected, and the closure check
+    mass_balance : peak runs: areas and shares of identified,
+        unidentified and excluded peaks, raw and response-corrected, and the closure check;
+        composition input: rows and amounts in the library, split over stereo isomers and not
+        in the library, the not-in-library share in each basis
     warnings : human-readable strings for the result's ``warnings``
     """
 
     table: pd.DataFrame
     mass_balance: dict[str, Any] | None = None
     warnings: list[str] = field(default_factory=list)
+    #: rows of the input changed here (composition tables: stereo splits, unknown components),
+    #: ``{"row", "action", "reason"}``; the result appends them to the reader's import log
+    import_log: list[dict[str, Any]] = field(default_factory=list)
 
 
 # --------------------------------------------------------------------------- formula helpers
@@ -608,7 +613,8 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
 
     Parameters
     ----------
-    table : columns ``row``, ``component`` (name, synonym or CAS), ``amount`` [``basis``]
+    table : columns ``row``, ``component`` (name, synonym or CAS), ``amount`` [``basis``];
+        optional ``formula`` (Hill formula, used for components outside the library)
     basis : ``"mass_pct"``, ``"vol_pct"`` or ``"mol_pct"``
     library, settings : as for :func:`quantify_peaks`
     source : file name for messages
@@ -618,57 +624,244 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
     m_i ∝ v_i·ρ_i (volume basis) or n_i·M_i (mole basis); then v_i ∝ m_i/ρ_i, n_i ∝ m_i/M_i,
     each normalised to 100 %. Repeated components are summed (warning); amounts not summing to
     100 are normalised (warning when off by more than 0.5).
+
+    A name or CAS number without cis/trans (``library.stereo``) is split over the library's
+    isomers by ``Library.stereo_isomers`` (``[quantify] stereo_shares`` overrides the shares).
+    A component the library does not know is kept as an unidentified row (``match``
+    "unidentified", ``component`` None) with its amount: carbon number and group from its
+    name or formula (:mod:`dha.unknown_components`), else group ``unidentified`` and the
+    amount-weighted mean carbon number of the known rows; its molar mass and density (and
+    its properties, through ``model_component``) are those of a library stand-in of that group
+    and carbon number (:func:`stand_in_component`). Every such row is in the import log and
+    one warning; ``mass_balance`` gives the shares in the library, split and not in the library.
     """
+    from dha.unknown_components import guess_from_formula, guess_from_name, looks_like_cas
+
     where = source or "composition table"
     if basis not in BASES:
         raise InputError(f"{where}: basis {basis!r} unknown; use one of {', '.join(BASES)}")
+    lab_shares = _stereo_settings(settings, library)
     warnings: list[str] = []
-    resolved, how = [], []
+    import_log: list[dict[str, Any]] = []
+    amounts: dict[Any, float] = {}
+    matches: dict[Any, str] = {}
+    unknown: dict[str, dict[str, Any]] = {}
+    part = {"in_library": 0.0, "stereo_split": 0.0, "not_in_library": 0.0}
+    rows = {"in_library": 0, "stereo_split": 0, "not_in_library": 0}
+    has_formula = "formula" in table.columns
+    explicit: set[str] = set()
+    n_rows = 0
     for i, rec in table.reset_index(drop=True).iterrows():
         text = rec["component"]
         row = rec["row"] if "row" in table else i + 1
-        name = _resolve_name(text, library) if _clean(text) is not None else None
-        if name is None:
-            hint = _suggestions(str(text), library)
-            raise InputError(f"{where}, row {row}: unknown component {str(text)!r}"
-                             + (f"; did you mean {', '.join(repr(h) for h in hint)}?" if hint else
-                                "; use a library name, synonym or CAS number (dha library show)"))
         amount = pd.to_numeric(pd.Series([rec["amount"]]), errors="coerce").iloc[0]
         if pd.isna(amount) or amount < 0:
             raise InputError(f"{where}, row {row}: amount {rec['amount']!r} of {text} is not a "
                              "non-negative number")
-        resolved.append((name, float(amount)))
-        how.append("cas" if re.fullmatch(r"\d{2,7}-\d{2}-\d", str(text).strip()) else "name")
-    if not resolved:
+        amount = float(amount)
+        if _clean(text) is None or not str(text).strip():
+            raise InputError(f"{where}, row {row}: no component name or CAS number; fill it in "
+                             "or delete the row")
+        n_rows += 1
+        text = str(text).strip()
+        how = "cas" if looks_like_cas(text) else "name"
+        name = _resolve_name(text, library)
+        if name is not None:
+            if name in explicit:
+                warnings.append(f"{where}: {name} given more than once; amounts summed")
+            explicit.add(name)
+            amounts[name] = amounts.get(name, 0.0) + amount
+            matches.setdefault(name, how)
+            part["in_library"] += amount
+            rows["in_library"] += 1
+            continue
+        entry = _resolve_stereo(text, library)
+        if entry is not None:
+            split = library.stereo_isomers(entry, lab_shares.get(entry))
+            for iso, share in split:
+                amounts[iso] = amounts.get(iso, 0.0) + amount * share
+                matches.setdefault(iso, how)
+            part["stereo_split"] += amount
+            rows["stereo_split"] += 1
+            import_log.append({"row": int(row), "action": "changed", "reason": (
+                f"{text!r} has no cis/trans: {amount:.6g} {basis} split over "
+                + ", ".join(f"{iso} {100 * share:.3g} %" for iso, share in split))})
+            continue
+        formula = _clean(rec.get("formula")) if has_formula else None
+        guess = guess_from_name(text)
+        if formula is not None:
+            fg = guess_from_formula(formula)
+            guess = type(guess)(fg.carbon_number or guess.carbon_number,
+                                guess.group or fg.group, "formula" if fg.carbon_number else
+                                guess.how)
+        key = text
+        got = unknown.setdefault(key, {"amount": 0.0, "guess": guess, "rows": [], "how": how})
+        got["amount"] += amount
+        got["rows"].append(int(row))
+        part["not_in_library"] += amount
+        rows["not_in_library"] += 1
+    if n_rows == 0:
         raise InputError(f"{where}: no components")
-    amounts: dict[str, float] = {}
-    matches: dict[str, str] = {}
-    for (name, amount), m in zip(resolved, how):
-        if name in amounts:
-            warnings.append(f"{where}: {name} given more than once; amounts summed")
-        amounts[name] = amounts.get(name, 0.0) + amount
-        matches.setdefault(name, m)
-    total = sum(amounts.values())
+    total = sum(part.values())
     if total <= 0:
         raise InputError(f"{where}: amounts sum to zero")
     if abs(total - 100.0) > 0.5:
         warnings.append(f"{where}: amounts ({basis}) sum to {total:.6g}, normalised to 100")
-    names = pd.Series(list(amounts), dtype=object)
-    mw, rho = _physical(names, library, settings)
-    x = pd.Series(list(amounts.values()), dtype=float)
+    known = pd.Series(amounts, dtype=float)
+    mean_cn = None
+    if len(known) and known.sum() > 0:
+        cn_known = library.components.loc[known.index, "carbon_number"].astype(float)
+        mean_cn = int(round(float((cn_known * known).sum() / known.sum())))
+    records = []
+    for name, amount in amounts.items():
+        records.append({"name": name, "component": name, "group": None, "carbon_number": None,
+                        "amount": amount, "match": matches[name], "model_component": name})
+    unknown_notes = []
+    for text, got in unknown.items():
+        guess = got["guess"]
+        cn = guess.carbon_number or mean_cn or 7
+        group = guess.group or "unidentified"
+        stand_in, note = stand_in_component(group, cn, library)
+        if note:
+            warnings.append(note)
+        desc = (f"C{cn} {group} from its {guess.how}" if guess.group else
+                f"C{cn} from its {guess.how}, group unknown" if guess.carbon_number else
+                f"nothing known: C{cn} (the known rows' mean carbon number), group unidentified")
+        hint = _unknown_hint(text, library)
+        for r in got["rows"]:
+            import_log.append({"row": r, "action": "changed", "reason": (
+                f"component {text!r} not in the library: kept as an unidentified row "
+                f"({desc}; properties from {stand_in}){hint}")})
+        unknown_notes.append(f"{text} ({desc})")
+        records.append({"name": text, "component": None, "group": group, "carbon_number": cn,
+                        "amount": got["amount"], "match": "unidentified",
+                        "model_component": stand_in,
+                        "cas": text if got["how"] == "cas" else None})
+    frame = pd.DataFrame(records)
+    mw, rho = _physical(frame["model_component"], library, settings)
+    x = frame["amount"].astype(float)
     mass = {"mass_pct": x, "vol_pct": x * rho, "mol_pct": x * mw}[basis]
     pct = _percentages(mass, mw, rho)
-    comps = library.components.loc[names.values]
-    rows = pd.DataFrame({
-        "name": names, "component": names, "cas": [_clean(c) for c in comps["cas"]],
-        "group": comps["group"].to_numpy(),
-        "carbon_number": comps["carbon_number"].astype(int).to_numpy(),
+    comps = library.components
+    lib_rows = frame["component"].notna()
+    names = frame["model_component"]
+    out = pd.DataFrame({
+        "name": frame["name"], "component": frame["component"].astype(object),
+        "cas": [(_clean(comps.at[n, "cas"]) if ok else c) for n, ok, c in
+                zip(names, lib_rows, frame.get("cas", pd.Series([None] * len(frame))))],
+        "group": np.where(lib_rows, comps.loc[names.values, "group"].to_numpy(),
+                          frame["group"].to_numpy(dtype=object)),
+        "carbon_number": np.where(lib_rows, comps.loc[names.values, "carbon_number"].to_numpy(),
+                                  frame["carbon_number"].to_numpy(dtype=object)).astype(int),
         "rt_min": np.nan, "retention_index": np.nan, "area": np.nan, "rrf": np.nan,
         "mass_pct": pct["mass_pct"], "vol_pct": pct["vol_pct"], "mol_pct": pct["mol_pct"],
-        "match": [matches[n] for n in names], "ri_source": None, "model_component": names,
+        "match": frame["match"], "ri_source": None, "model_component": names,
         "molar_mass_g_mol": mw, "density_kg_m3": rho,
     })
-    return Quantified(table=rows[list(COMPOSITION_COLUMNS)], mass_balance=None, warnings=warnings)
+    unk = ~lib_rows.to_numpy()
+    unknown_pct = {b: float(out.loc[unk, b].sum()) for b in BASES}
+    if unknown:
+        listed = "; ".join(unknown_notes[:20]) + (" ..." if len(unknown_notes) > 20 else "")
+        warnings.append(
+            f"{where}: {len(unknown)} component(s) not in the library kept as unidentified rows "
+            f"({unknown_pct['mass_pct']:.3g} % m/m, {unknown_pct['vol_pct']:.3g} % v/v, "
+            f"{unknown_pct['mol_pct']:.3g} % mol): {listed}. Their properties use library "
+            "stand-ins of the same group and carbon number; add them to the library (a lab "
+            "overlay) for exact values")
+    if rows["stereo_split"]:
+        warnings.append(f"{where}: {rows['stereo_split']} component(s) named without cis/trans "
+                        "split over the library's isomers (import log; shares from "
+                        "component_library/stereo_unspecified.csv or [quantify] stereo_shares)")
+    mass_balance = {
+        "basis": basis,
+        "rows": {**rows, "total": n_rows},
+        "amount": {**part, "total": total},
+        "amount_share_pct": {k: 100.0 * v / total for k, v in part.items()},
+        "not_in_library_pct": unknown_pct,
+        "sum_before_normalisation": total,
+        "closes": bool(abs(sum(part.values()) - total) <= 1e-9 * max(total, 1.0)),
+    }
+    return Quantified(table=out[list(COMPOSITION_COLUMNS)], mass_balance=mass_balance,
+                      warnings=warnings, import_log=import_log)
+
+
+def _resolve_stereo(text: str, library) -> str | None:
+    """Stereo-unspecified entry for a name or CAS (exact, then the tolerant matcher)."""
+    finder = getattr(library, "find_stereo", None)
+    entry = finder(text) if finder is not None else None
+    if entry is None and getattr(library, "stereo", None) is not None:
+        from dha.identify import match_stereo
+        entry = match_stereo(text, library)
+    return entry
+
+
+def _stereo_settings(settings: dict, library) -> dict[str, dict[str, float]]:
+    """``[quantify] stereo_shares`` checked: {entry: {isomer: share}}."""
+    given = (settings.get("quantify", {}) or {}).get("stereo_shares") or {}
+    if not isinstance(given, dict):
+        raise SettingsError("[quantify] stereo_shares must be a table like "
+                            "{ \"2-hexene\" = { \"cis-2-hexene\" = 0.3, \"trans-2-hexene\" = 0.7 } }")
+    out: dict[str, dict[str, float]] = {}
+    for key, shares in given.items():
+        entry = _resolve_stereo(str(key), library)
+        if entry is None:
+            raise SettingsError(f"[quantify] stereo_shares: {key!r} is not a name without "
+                                "cis/trans of component_library/stereo_unspecified.csv")
+        isomers = [n for n, _ in library.stereo_isomers(entry)]
+        if not isinstance(shares, dict) or not shares:
+            raise SettingsError(f"[quantify] stereo_shares.{key}: give {{isomer = share}} for "
+                                f"{', '.join(isomers)}")
+        clean: dict[str, float] = {}
+        for iso, value in shares.items():
+            name = library.find(str(iso))
+            if name not in isomers:
+                raise SettingsError(f"[quantify] stereo_shares.{key}: {iso!r} is not one of "
+                                    f"{', '.join(isomers)}")
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or value < 0:
+                raise SettingsError(f"[quantify] stereo_shares.{key}.{iso} = {value!r}: give a "
+                                    "non-negative number")
+            clean[name] = float(value)
+        if not sum(clean.values()) > 0:
+            raise SettingsError(f"[quantify] stereo_shares.{key}: the shares sum to zero")
+        out[entry] = clean
+    return out
+
+
+def _unknown_hint(text: str, library) -> str:
+    """'; did you mean ...' for an unknown component: CAS numbers for a CAS, names for a name."""
+    from dha.unknown_components import cas_suggestions, looks_like_cas
+    if looks_like_cas(text) or re.fullmatch(r"\d{5,10}", text):
+        numbers = list(library.components["cas"]) + list(library.stereo["cas"]) \
+            if getattr(library, "stereo", None) is not None else list(library.components["cas"])
+        note, close = cas_suggestions(text, numbers)
+        out = f"; {note}" if note else ""
+        if close:
+            out += "; close library CAS numbers: " + ", ".join(
+                f"{c} ({library.find(c) or library.find_stereo(c)})" for c in close)
+        return out
+    close = _suggestions(text, library)
+    return f"; close library names: {', '.join(close)}" if close else ""
+
+
+def stand_in_component(group: str, n_carbon: int, library) -> tuple[str, str | None]:
+    """Library component whose properties stand in for an unknown row of ``group`` and C``n``.
+
+    Paraffins and unknown groups: :func:`representative_component` (a 2-methylalkane). Other
+    groups: the component of that group at the nearest carbon number (equal distance: the
+    lower), first by name (common practice, no source). Returns (name, warning or None).
+    """
+    if group in ("isoparaffins", "n_paraffins", "unidentified"):
+        return representative_component(int(n_carbon), library)
+    comps = library.components
+    cn = pd.to_numeric(comps["carbon_number"], errors="coerce")
+    for n in _nearest_first(int(n_carbon)):
+        hit = sorted(comps.index[(comps["group"] == group) & (cn == n)])
+        if hit:
+            note = None if n == n_carbon else (
+                f"no {group} of C{n_carbon} in the library: unknown C{n_carbon} {group} use "
+                f"{hit[0]} (C{n}) for their properties")
+            return hit[0], note
+    return representative_component(int(n_carbon), library)
 
 
 def quantify_run(run, identified: pd.DataFrame | None, library, settings: dict) -> Quantified:

@@ -180,7 +180,8 @@ def build_result(run, composition, groups: dict, properties, library, settings: 
         "uncertainty": unc,
         "checks": list(checks or []),
         "components": components_records(table),
-        "import_log": [dict(e) for e in (getattr(run, "import_log", None) or [])],
+        "import_log": [dict(e) for e in (getattr(run, "import_log", None) or [])]
+        + [dict(e) for e in (getattr(composition, "import_log", None) or [])],
         "warnings": quant_warnings + prop_warnings + list(extra_warnings or []),
         "mass_balance": mass_balance,
         "aromatics_detail": groups.get("aromatics_detail"),

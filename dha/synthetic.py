@@ -409,3 +409,22 @@ def example_composition(kind: str, library: Any = None, *, seed: int = 7) -> dic
                 out[name] = out.get(name, 0.0) + cell_mass * share
     total = sum(out.values())
     return {k: 100.0 * v / total for k, v in sorted(out.items())}
+
+
+# --------------------------------------------------------------------------------------------
+# Runs of real compositions (for judging identification on what the project did not shape)
+# --------------------------------------------------------------------------------------------
+
+def real_fuel_run(library: Any, mixture_id: str, **kwargs: Any
+                  ) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """A synthetic run of one of the real fuels of :mod:`dha.fuel_data` (composition from the
+    data, peaks placed by :func:`synthetic_run` with ``kwargs``)."""
+    from dha.fuel_data import composition
+    return synthetic_run(composition(library, mixture_id), library, **kwargs)
+
+
+def lab_standard(programme: Mapping[str, float] | None = None,
+                 carbons: range = range(3, 14)) -> dict[str, float]:
+    """The retention times of a lab's n-alkane standard (C3-C13) under the programme, as
+    ``identify.markers`` takes them ({"5": 7.98, ...}) [min]."""
+    return {str(c): t for c, t in alkane_retention_times(programme).items() if c in carbons}

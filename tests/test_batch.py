@@ -1,13 +1,34 @@
-"""dha batch: summary rows, flags, failures kept, outputs written (runs from tests/exports)."""
+"""dha batch: summary rows, flags, failures kept, mirrored outputs, incremental and resumable."""
+import json
+import os
+import shutil
+import signal
+import sqlite3
+import subprocess
+import sys
+import time
 from pathlib import Path
 
 import pandas as pd
+import pytest
 from click.testing import CliRunner
 
-from dha.batch import expand_inputs, summary_row
+from dha import batch, results_db
+from dha.batch import expand_inputs, plan_batch, summary_row
 from dha.cli import cli
+from dha.errors import InputError
 
 EXPORTS = Path(__file__).parent / "exports"
+GOOD = EXPORTS / "v01_comma_meta_total.csv"
+COMP = EXPORTS / "v12_composition_wt.csv"
+
+
+@pytest.fixture
+def quick(tmp_path):
+    """--settings file without trend charts (they cost seconds and are tested once)."""
+    path = tmp_path / "quick.toml"
+    path.write_text("[batch]\ntrend_quantities = []\n")
+    return ["--settings", str(path)]
 
 
 def test_expand_inputs_folder_glob_and_dedup():
@@ -15,6 +36,18 @@ def test_expand_inputs_folder_glob_and_dedup():
     names = [f.name for f in files]
     assert names.count("v01_comma_meta_total.csv") == 1
     assert all(not n.endswith(".json") for n in names)
+
+
+def test_expand_inputs_recursive_leaves_out_the_output_folder(tmp_path):
+    (tmp_path / "2024-01").mkdir()
+    (tmp_path / "out").mkdir()
+    shutil.copy(COMP, tmp_path / "2024-01" / "run.csv")
+    shutil.copy(COMP, tmp_path / "top.csv")
+    (tmp_path / "out" / "summary.csv").write_text("input\n")
+    flat = expand_inputs([tmp_path], exclude=tmp_path / "out")
+    deep = expand_inputs([tmp_path], recursive=True, exclude=tmp_path / "out")
+    assert [f.name for f in flat] == ["top.csv"]
+    assert sorted(f.relative_to(tmp_path).as_posix() for f in deep) == ["2024-01/run.csv", "top.csv"]
 
 
 def test_summary_row_flags():
@@ -35,22 +68,157 @@ def test_summary_row_flags():
     assert row["flags"].split() == ["benzene_vol_pct>1", "~ron<95", "~e70_vol_pct(22..50)",
                                     "poor-identification"]
     assert row["checks_failed"] == 1 and row["checks_marginal"] == 3
+    assert row["status"] == batch.FAILS
 
 
 def test_batch_cli_writes_summary_and_keeps_going(tmp_path):
-    bad = tmp_path / "in" / "broken.csv"
-    bad.parent.mkdir()
+    src = tmp_path / "in"
+    src.mkdir()
+    bad = src / "broken.csv"
     bad.write_text("this is not a peak table\n")
-    good = EXPORTS / "v01_comma_meta_total.csv"
-    comp = EXPORTS / "v12_composition_wt.csv"
+    shutil.copy(GOOD, src / GOOD.name)
+    shutil.copy(COMP, src / COMP.name)
     out = tmp_path / "out"
-    r = CliRunner().invoke(cli, ["batch", str(good), str(comp), str(bad), "-o", str(out), "--jobs", "1"])
+    r = CliRunner().invoke(cli, ["batch", str(src), "-o", str(out), "--jobs", "1"])
     assert r.exit_code == 1, r.output          # one input failed
     assert "broken.csv" in r.output and "Traceback" not in r.output
     summary = pd.read_csv(out / "summary.csv")
-    assert list(summary["status"]) == ["ok", "ok", "error"]
+    assert list(summary["input"]) == ["broken.csv", GOOD.name, COMP.name]
+    assert summary["status"].iloc[0] == batch.NOT_PROCESSED
+    assert set(summary["status"].iloc[1:]) <= {batch.PASSES, batch.FAILS}
     assert (out / "summary.xlsx").is_file()
     assert (out / "v01_comma_meta_total.json").is_file()
     assert any(p.name.startswith("trend_") for p in out.iterdir())
     flagged = pd.read_excel(out / "summary.xlsx", sheet_name="flagged runs")
-    assert set(flagged["file"]) <= {"v01_comma_meta_total.csv", "v12_composition_wt.csv"}
+    assert set(flagged["input"]) <= {GOOD.name, COMP.name}
+
+
+def test_same_file_name_in_two_folders_gives_two_results(tmp_path, quick):
+    # The archive case: every month's folder holds a run.csv; neither result may be lost.
+    for month, source in (("A", GOOD), ("B", COMP)):
+        (tmp_path / month).mkdir()
+        shutil.copy(source, tmp_path / month / "run.csv")
+    out = tmp_path / "out"
+    r = CliRunner().invoke(cli, ["batch", str(tmp_path / "A"), str(tmp_path / "B"), "-o", str(out),
+                                 "--jobs", "1", "--overwrite"] + quick)
+    assert r.exit_code == 0, r.output
+    a = json.loads((out / "A" / "run.json").read_text())
+    b = json.loads((out / "B" / "run.json").read_text())
+    assert a["provenance"]["input_path"] == "A/run.csv"
+    assert b["provenance"]["input_path"] == "B/run.csv"
+    assert a["sample"]["source_sha256"] != b["sample"]["source_sha256"]
+    summary = pd.read_csv(out / "summary.csv")
+    assert list(summary["input"]) == ["A/run.csv", "B/run.csv"]
+    assert list(summary["output"]) == ["A/run.json", "B/run.json"]
+
+
+def test_two_inputs_onto_one_output_is_an_error_before_writing(tmp_path):
+    shutil.copy(GOOD, tmp_path / "run.csv")
+    shutil.copy(GOOD, tmp_path / "run.tsv")
+    out = tmp_path / "out"
+    with pytest.raises(InputError, match="run.csv and run.tsv"):
+        plan_batch([tmp_path / "run.csv", tmp_path / "run.tsv"], out)
+    r = CliRunner().invoke(cli, ["batch", str(tmp_path), "-o", str(out)])
+    assert r.exit_code == 1 and "nothing written" in r.output
+    assert not out.exists()
+
+
+def test_late_run_rerun_skips_what_is_up_to_date(tmp_path, quick):
+    src = tmp_path / "day"
+    src.mkdir()
+    shutil.copy(GOOD, src / "a.csv")
+    shutil.copy(COMP, src / "b.csv")
+    out = tmp_path / "out"
+    args = ["batch", str(src), "-o", str(out), "--jobs", "1"] + quick
+    assert CliRunner().invoke(cli, args).exit_code == 0
+    first = (out / "a.json").read_text()
+    shutil.copy(COMP, src / "c.csv")                       # a late run
+    r = CliRunner().invoke(cli, args)
+    assert r.exit_code == 0, r.output
+    assert "1 processed now, 2 up to date" in r.output
+    assert (out / "a.json").read_text() == first           # not rewritten
+    summary = pd.read_csv(out / "summary.csv")
+    assert list(summary["input"]) == ["a.csv", "b.csv", "c.csv"]
+    assert list(summary["this_batch"]) == [batch.UP_TO_DATE, batch.UP_TO_DATE, batch.DONE_NOW]
+    # only the late run named: the others still appear in the summary
+    r = CliRunner().invoke(cli, ["batch", str(src / "c.csv"), "-o", str(out), "--jobs", "1"] + quick)
+    assert r.exit_code == 0, r.output
+    summary = pd.read_csv(out / "summary.csv")
+    assert list(summary["this_batch"]) == [batch.EARLIER, batch.EARLIER, batch.UP_TO_DATE]
+    # a changed input is processed again; --overwrite processes everything
+    shutil.copy(GOOD, src / "b.csv")
+    r = CliRunner().invoke(cli, args)
+    assert "1 processed now, 2 up to date" in r.output
+    assert json.loads((out / "b.json").read_text())["provenance"]["input_sha256"] == \
+        batch.sha256_file(GOOD)
+    r = CliRunner().invoke(cli, args + ["--overwrite"])
+    assert "3 processed now, 0 up to date" in r.output
+
+
+def test_changed_settings_make_results_out_of_date(tmp_path, quick):
+    shutil.copy(COMP, tmp_path / "a.csv")
+    out = tmp_path / "out"
+    args = ["batch", str(tmp_path / "a.csv"), "-o", str(out), "--jobs", "1"] + quick
+    assert CliRunner().invoke(cli, args).exit_code == 0
+    r = CliRunner().invoke(cli, args + ["--spec", "en228-e5-summer"])
+    assert "1 processed now, 0 up to date" in r.output, r.output
+
+
+def test_atomic_write_leaves_old_file_when_writer_fails(tmp_path):
+    target = tmp_path / "r.json"
+    target.write_text("old")
+
+    def broken(tmp):
+        tmp.write_text("half")
+        raise RuntimeError("disk full")
+
+    with pytest.raises(RuntimeError):
+        batch.write_via_temp(target, broken)
+    assert target.read_text() == "old"
+    assert list(tmp_path.iterdir()) == [target]
+
+
+def test_sigkill_mid_batch_then_resume(tmp_path, quick):
+    src = tmp_path / "in"
+    src.mkdir()
+    n = 8
+    for i in range(n):
+        shutil.copy(GOOD, src / f"run{i}.csv")
+    out = tmp_path / "out"
+    cmd = [sys.executable, "-m", "dha", "batch", str(src), "-o", str(out), "--jobs", "2"] + quick
+    log = tmp_path / "stderr.txt"
+    with open(log, "wb") as err:
+        proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=err, start_new_session=True)
+    deadline = time.time() + 120
+    try:
+        while time.time() < deadline and proc.poll() is None:
+            if out.is_dir() and any(out.glob("run*.json")):
+                break
+            time.sleep(0.05)
+    finally:
+        if proc.poll() is None:
+            os.killpg(proc.pid, signal.SIGKILL)
+        proc.wait()
+    done_before = sorted(p.name for p in out.glob("run*.json"))
+    assert 0 < len(done_before), f"no result written before the kill: {log.read_text()}"
+    for p in out.glob("*.json"):          # every visible result is complete
+        if p.name != batch.BATCH_RECORD:
+            assert json.loads(p.read_text())["provenance"]["input_path"] == p.stem + ".csv"
+    assert not (out / "summary.csv").exists() or len(done_before) == n
+    with sqlite3.connect(out / results_db.DB_NAME) as con:   # whole runs only
+        assert con.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+        stored = con.execute("SELECT run_key, (SELECT COUNT(*) FROM components c "
+                             "WHERE c.run_key = r.run_key) FROM runs r").fetchall()
+    n_components = len(json.loads((out / done_before[0]).read_text())["components"])
+    assert all(k in done_before and m == n_components for k, m in stored)
+    r = CliRunner().invoke(cli, ["batch", str(src), "-o", str(out), "--jobs", "1"] + quick)
+    assert r.exit_code == 0, r.output
+    summary = pd.read_csv(out / "summary.csv")
+    assert len(summary) == n
+    assert (summary["this_batch"] == batch.UP_TO_DATE).sum() >= len(done_before)
+    with sqlite3.connect(out / results_db.DB_NAME) as con:   # the database caught up
+        assert con.execute("SELECT COUNT(*) FROM runs").fetchone()[0] == n
+    # what a killed writer may leave is a hidden temporary, never a result's name
+    assert all(p.name.startswith(".") and p.name.endswith(".part")
+               for p in out.rglob("*") if p.is_file() and p.suffix not in
+               (".json", ".csv", ".xlsx", ".png", ".sqlite", ".sqlite-wal", ".sqlite-shm"))

@@ -294,13 +294,17 @@ def test_mole_basis_by_hand(lib, settings):
     assert t.loc["ethanol", "match"] == "cas" and t.loc["n-heptane", "match"] == "name"
 
 
-def test_unknown_component_message(lib, settings):
+def test_unknown_component_kept_with_suggestion(lib, settings):
+    # issue 12: an unknown component no longer fails the file; it stays as an unidentified row
     table = pd.DataFrame({"row": [4, 5], "component": ["toluene", "toluen"], "amount": [50.0, 50.0]})
-    with pytest.raises(InputError) as err:
-        quantify_composition(table, "vol_pct", lib, settings, source="blend.csv")
-    msg = str(err.value)
-    assert "blend.csv" in msg and "row 5" in msg and "'toluen'" in msg and "toluene" in msg
-    assert "\n" not in msg
+    q = quantify_composition(table, "vol_pct", lib, settings, source="blend.csv")
+    t = q.table.set_index("name")
+    assert t.loc["toluen", "match"] == "unidentified" and t["vol_pct"].sum() == pytest.approx(100)
+    assert t.loc["toluen", "vol_pct"] == pytest.approx(50.0)
+    entry = [e for e in q.import_log if e["row"] == 5][0]
+    assert "'toluen'" in entry["reason"] and "toluene" in entry["reason"]
+    assert any("blend.csv" in w and "toluen" in w for w in q.warnings)
+    assert q.mass_balance["rows"]["not_in_library"] == 1 and q.mass_balance["closes"]
 
 
 def test_density_at_60f_against_coolprop():

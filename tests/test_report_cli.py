@@ -75,10 +75,21 @@ def test_bad_inputs_exit_1_one_line(runner, tmp_path):
     assert r.exit_code == 1 and "nope.csv" in r.output
     assert len(r.output.strip().splitlines()) == 1 and "Traceback" not in r.output
     bad = tmp_path / "recipe.csv"
-    bad.write_text("component,mass_pct\ntoluene,50\ntolune,50\n", encoding="utf-8")
+    bad.write_text("component,mass_pct\ntoluene,abc\ntolune,-5\n", encoding="utf-8")
     r = runner.invoke(cli, ["report", str(bad), "-o", str(tmp_path), "--format", "json"])
-    assert r.exit_code == 1 and "tolune" in r.output and "toluene" in r.output
+    assert r.exit_code == 1 and "recipe.csv" in r.output
     assert len(r.output.strip().splitlines()) == 1 and "Traceback" not in r.output
+
+
+def test_unknown_component_exit_0_with_suggestion(runner, tmp_path):
+    # issue 12: a misspelt name is kept as an unidentified row, the suggestion in the import log
+    recipe = tmp_path / "recipe.csv"
+    recipe.write_text("component,mass_pct\ntoluene,50\ntolune,50\n", encoding="utf-8")
+    r = runner.invoke(cli, ["report", str(recipe), "-o", str(tmp_path), "--format", "json"])
+    assert r.exit_code == 0, r.output
+    data = json.loads((tmp_path / "recipe.json").read_text(encoding="utf-8"))
+    assert any("tolune" in e["reason"] and "toluene" in e["reason"] for e in data["import_log"])
+    assert data["mass_balance"]["not_in_library_pct"]["mass_pct"] == pytest.approx(50.0)
 
 
 def test_usage_errors_exit_2(runner, blend):

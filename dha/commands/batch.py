@@ -1,4 +1,4 @@
-"""``dha batch``: many runs in parallel, with a summary, flags and trend charts."""
+"""``dha batch``: many runs in parallel, incremental, with a summary, flags and trend charts."""
 from __future__ import annotations
 
 from pathlib import Path
@@ -6,10 +6,6 @@ from pathlib import Path
 import click
 
 from dha.commands.options import library_option, settings_option
-
-from dha import batch, specs
-from dha.settings import load_settings
-from dha.batch import quiet_run_warnings
 
 
 @click.command("batch")
@@ -21,40 +17,67 @@ from dha.batch import quiet_run_warnings
 @click.option("--spec", "spec", default=None, help="Specification profile (name or .toml path).")
 @click.option("--format", "formats", default="json", show_default=True,
               help="Per-run formats, comma separated: json, xlsx, pdf.")
+@click.option("-r", "--recursive", is_flag=True,
+              help="Also take the export files in the folders' sub-folders (mirrored in the output).")
+@click.option("--engine", type=click.Choice(["local", "dask"]), default="local", show_default=True,
+              help="local: a process pool on this machine; dask: a dask.distributed cluster.")
+@click.option("--scheduler", "scheduler", default=None, metavar="ADDRESS",
+              help="With --engine dask: the scheduler (tcp://host:8786); default a local "
+                   "cluster of --jobs worker processes. Inputs and output folder must be on "
+                   "storage every worker sees under the same path.")
 @library_option
 @settings_option
-@click.option("--overwrite", is_flag=True, help="Replace existing per-run outputs.")
-def batch_command(paths, out_dir, jobs, spec, formats, library_dir, settings_file, overwrite):
+@click.option("--overwrite", is_flag=True,
+              help="Process every run again, even those whose results are up to date.")
+def batch_command(paths, out_dir, jobs, spec, formats, recursive, engine, scheduler, library_dir,
+                  settings_file, overwrite):
     """Process many runs (files, folders, globs) into one folder with a summary.
 
-    Writes one result per run, summary.csv and summary.xlsx (one row per run with benzene,
-    aromatics, olefins, oxygen, octane, DVPE and flags for failed or marginal specification
-    checks and poor identification) and trend charts across the batch. A file that cannot be
-    processed is listed in the summary with its error; the others go on. Exit 1 if any failed.
+    Writes one result per run, in sub-folders that mirror the inputs' folders below the
+    deepest folder holding them all (so `A/run.csv` and `B/run.csv` give `A/run.json` and
+    `B/run.json`). A run whose result is already there, made from the same input, library,
+    settings and tool version, is up to date and skipped (--overwrite processes it again);
+    a batch that was stopped picks up where it left off. summary.csv and summary.xlsx list
+    every result in the folder (one row per run with benzene, aromatics, olefins, oxygen,
+    octane, DVPE and flags for failed or marginal specification checks and poor
+    identification), with trend charts. A file that cannot be processed is listed with its
+    error; the others go on. Exit 1 if any failed.
 
     \b
     Example:
-        dha batch runs/2026-12-01/ -o qc/2026-12-01 --jobs 2 --spec en228-e10-summer
+        dha batch runs/2026-12/ -r -o qc/2026-12 --jobs 2 --spec en228-e10-summer
+        dha batch archive/ -r -o reprocessed/ --engine dask --scheduler tcp://head:8786
     """
+    if scheduler and engine != "dask":
+        raise click.UsageError("--scheduler is for --engine dask")
+    from dha import batch, specs
+    from dha.settings import load_settings
+
     settings = load_settings(settings_file)
-    quiet_run_warnings()
+    batch.quiet_run_warnings()
     spec = spec or settings["report"]["spec"]
     profile = specs.load_profile(spec)
-    files = batch.expand_inputs(paths)
+    files = batch.expand_inputs(paths, recursive=recursive, exclude=out_dir)
     fmt = tuple(f.strip() for f in formats.split(",") if f.strip())
-    with click.progressbar(length=len(files), label=f"{len(files)} runs", file=click.get_text_stream("stderr")) as bar:
+    click.echo(f"dha batch: {len(files)} input files -> {out_dir}/ (specification {spec})")
+    with click.progressbar(length=len(files), label=f"{len(files)} inputs",
+                           file=click.get_text_stream("stderr")) as bar:
         table = batch.run_batch(files, out_dir, settings, spec=spec, library_dir=library_dir,
-                                formats=fmt, jobs=jobs, overwrite=overwrite, progress=bar.update)
+                                formats=fmt, jobs=jobs, overwrite=overwrite, progress=bar.update,
+                                engine=engine, scheduler=scheduler)
     written = batch.write_summary(table, out_dir, profile, settings["batch"]["trend_quantities"])
-    n_err = int((table["status"] == "error").sum())
-    n_flag = int((table["flags"].fillna("").astype(str).str.len() > 0).sum())
-    click.echo(f"{len(table)} runs: {len(table) - n_err} processed, {n_flag} flagged, {n_err} failed")
-    for _, row in table[table["status"] == "error"].iterrows():
-        click.echo(f"  failed: {row['file']}: {row['error']}")
-    for _, row in table[(table["status"] == "ok") & (table["flags"].fillna("") != "")].iterrows():
-        click.echo(f"  flagged: {row['file']} {row['sample_id']}: {row['flags']}")
+    counts = table.attrs["counts"]
+    failed = table[batch.is_failure(table)]
+    flagged = table[~batch.is_failure(table) & (table["flags"].fillna("") != "")]
+    click.echo(f"{len(table)} runs in {out_dir}: {counts['processed']} processed now, "
+               f"{counts['up_to_date']} up to date, {counts['earlier']} from earlier batches, "
+               f"{counts['failed']} not processed; {len(flagged)} flagged")
+    for _, row in failed.iterrows():
+        click.echo(f"  not processed: {row['input']}: {row['error']}")
+    for _, row in flagged.iterrows():
+        click.echo(f"  flagged: {row['input']} {row['sample_id']}: {row['flags']}")
     click.echo(f"summary: {', '.join(str(p) for p in written[:2])}")
-    if n_err:
+    if len(failed):
         raise SystemExit(1)
 
 

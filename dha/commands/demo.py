@@ -48,15 +48,15 @@ def demo_command(out_dir: Path, jobs: int) -> None:
                                 overwrite=True, progress=bar.update)
     batch.write_summary(table, out_dir, specs.load_profile(spec), settings["batch"]["trend_quantities"])
     for _, row in table.iterrows():
-        if row["status"] == "ok":
-            click.echo(f"  {row['file']:<40} benzene {row['benzene_vol_pct']:.2f} % v/v  "
+        if row["status"] != batch.NOT_PROCESSED:
+            click.echo(f"  {row['input']:<40} benzene {row['benzene_vol_pct']:.2f} % v/v  "
                        f"flags: {row['flags'] or 'none'}  -> {row['output']}")
         else:
-            click.echo(f"  {row['file']:<40} FAILED: {row['error']}")
+            click.echo(f"  {row['input']:<40} FAILED: {row['error']}")
     click.echo(f"summary: {out_dir / 'summary.xlsx'}")
     click.echo("Calculated properties are estimates, not standard test results; reports are "
                "drafts until an authorised person releases them.")
-    if (table["status"] == "error").any():
+    if batch.is_failure(table).any():
         raise SystemExit(1)
 
 

@@ -1,0 +1,116 @@
+"""Detailed compositions of real gasoline-like fuels, mapped onto the component library.
+
+The data: ``dha/properties/octane_data/gasolines_mon_training.csv``, 40 fuels with detailed
+DHA-type compositions (mole fractions, CAS numbers by structure): three research gasolines
+(FACE A, C, G) neat and with 10-60 % v/v ethanol, an RBOB-type blendstock neat and with
+ethanol, prenol or isoprenol, an alkylate and an aromatic certification-type fuel.
+Source: Kuzhagaliyeva, Horvath, Williams, Nicolle, Sarathy, "Artificial intelligence-driven
+design of fuel mixtures", Communications Chemistry 5, 111 (2022); CC BY 4.0 (see that folder's
+PROVENANCE.md).
+
+Used for two things, kept apart by *family* (a base fuel and all its blends are one family):
+
+* the identification priors (:mod:`dha.identify`): how petrol mass spreads over groups and
+  carbon numbers, from outside compositions rather than invented profiles;
+* the evaluation of identification on runs whose compositions the project did not shape
+  (``benchmarks/bench_identify.py``, ``tests/test_identify.py``), with the priors refitted
+  without the family under test.
+"""
+from __future__ import annotations
+
+import re
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+DATA_FILE = Path(__file__).parent / "properties" / "octane_data" / "gasolines_mon_training.csv"
+SOURCE = ("KUZ2022_MON: Kuzhagaliyeva et al., Commun. Chem. 5, 111 (2022), CC BY 4.0; "
+          "40 real gasoline-like fuels with detailed compositions")
+
+
+def family_of(label: str) -> str:
+    """The base fuel of a mixture label: "FACE_A+E10" -> "FACE_A", "RBOB5 + 20 vol% prenol"
+    -> "RBOB5"."""
+    return re.split(r"\s*\+", str(label).strip())[0].strip()
+
+
+@lru_cache(maxsize=4)
+def _raw() -> pd.DataFrame:
+    return pd.read_csv(DATA_FILE, dtype={"component_cas": str})
+
+
+def real_fuels(library: Any) -> pd.DataFrame:
+    """The 40 fuels' compositions on the library, one row per (fuel, component).
+
+    Columns: ``mixture_id``, ``label``, ``family``, ``component`` (library name, None when the
+    library lacks it), ``source_name``, ``mass_pct`` (of the whole fuel, from the mole
+    fractions with molar masses from the library, or from ``mixture_components.csv`` beside the
+    data for a component the library lacks; rows without either are left out of the mass
+    conversion and counted in ``unmatched_mass_pct`` by :func:`fuel_table`).
+    Components are matched by CAS number first, then by name (:func:`dha.identify.match_name`).
+    """
+    key = (id(library), getattr(library, "sha256", None))
+    hit = _FUELS_CACHE.get(key)
+    if hit is not None and hit[0] is library:
+        return hit[1].copy()
+    out = _real_fuels(library)
+    if len(_FUELS_CACHE) > 4:
+        _FUELS_CACHE.clear()
+    _FUELS_CACHE[key] = (library, out)
+    return out.copy()
+
+
+_FUELS_CACHE: dict = {}
+
+
+def _real_fuels(library: Any) -> pd.DataFrame:
+    from dha.identify import match_name
+
+    d = _raw().copy()
+    comp = [match_name(c, library) if isinstance(c, str) else None for c in d["component_cas"]]
+    by_name = [match_name(n, library) for n in d["component_name"]]
+    d["component"] = [a or b for a, b in zip(comp, by_name)]
+    mm = pd.to_numeric(library.components["molar_mass_g_mol"], errors="coerce")
+    d["molar_mass"] = d["component"].map(mm)
+    extra = Path(__file__).parent / "properties" / "octane_data" / "mixture_components.csv"
+    if extra.exists() and d["molar_mass"].isna().any():
+        mc = pd.read_csv(extra)
+        col = next((c for c in mc.columns if "molar" in c), None)
+        key = next((c for c in mc.columns if c in ("cas", "component_cas")), None)
+        if col and key:
+            d["molar_mass"] = d["molar_mass"].fillna(
+                d["component_cas"].map(dict(zip(mc[key].astype(str), mc[col]))))
+    d = d[d["molar_mass"].notna()].copy()
+    d["mass"] = d["fraction"] * d["molar_mass"]
+    d["mass_pct"] = 100.0 * d["mass"] / d.groupby("mixture_id")["mass"].transform("sum")
+    d["family"] = d["mixture_label"].map(family_of)
+    out = d.rename(columns={"mixture_label": "label", "component_name": "source_name"})
+    return out[["mixture_id", "label", "family", "component", "source_name",
+                "mass_pct"]].reset_index(drop=True)
+
+
+def fuel_table(library: Any) -> pd.DataFrame:
+    """One row per fuel: ``mixture_id, label, family, n_components, unmatched_mass_pct``."""
+    f = real_fuels(library)
+    g = f.groupby("mixture_id", sort=True)
+    return pd.DataFrame({
+        "label": g["label"].first(), "family": g["family"].first(),
+        "n_components": g["component"].size(),
+        "unmatched_mass_pct": g.apply(lambda x: x.loc[x["component"].isna(), "mass_pct"].sum(),
+                                      include_groups=False),
+    }).reset_index()
+
+
+def composition(library: Any, mixture_id: str) -> dict[str, float]:
+    """{library name: mass %} of one fuel, its components the library lacks left out and the
+    rest renormalised to 100 (for synthetic runs)."""
+    f = real_fuels(library)
+    f = f[(f["mixture_id"] == mixture_id) & f["component"].notna()]
+    if f.empty:
+        from dha.errors import InputError
+        raise InputError(f"real fuels: no mixture {mixture_id!r}")
+    m = f.groupby("component", sort=True)["mass_pct"].sum()
+    return (100.0 * m / m.sum()).to_dict()

@@ -218,7 +218,10 @@ def data_components(components: pd.DataFrame) -> pd.DataFrame:
                 group = "isoparaffins" if s.n_ch3 > 2 else "n_paraffins"
                 subgroup = "alkane"
             vm = float(f["molar_mass_g_mol"]) / float(f["density_15c_kg_m3"]) * 1000.0
-            neat = {p: np.nan for p in oc.PROPERTIES}
+            # sourced neat values of the few components kept outside the library (column
+            # octane_source of mixture_components.csv); blank = estimated
+            neat = {p: float(f[p]) if p in f and pd.notna(f[p]) else np.nan
+                    for p in oc.PROPERTIES}
             in_lib = False
         else:
             raise LibraryError(f"octane data: component CAS {cas} is neither in the library nor "

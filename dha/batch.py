@@ -263,6 +263,10 @@ def summary_row(result: dict[str, Any], library=None, unidentified_flag: float =
     flags = []
     marginal = {}
     for c in checks:
+        if c.get("limit") is None:      # a run-quality check (identification): no limit
+            if c["verdict"] in ("fail", "marginal"):
+                flags.append(("" if c["verdict"] == "fail" else "~") + str(c["property"]))
+            continue
         if c["verdict"] == "fail":
             flags.append(f"{c['property']}{'<' if c['kind'] == 'min' else '>'}{c['limit']:g}")
         elif c["verdict"] == "marginal":

@@ -45,7 +45,7 @@ def _headline(result: dict) -> str:
 @library_option
 @settings_option
 @click.option("--overwrite", is_flag=True, help="Replace output files that exist.")
-@click.option("--strict", is_flag=True, help="Exit 3 when any specification check fails.")
+@click.option("--strict", is_flag=True, help="Exit 3 when any specification or identification check fails.")
 def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, overwrite,
                    strict) -> None:
     """Turn peak tables or composition tables into results: JSON (and Excel, PDF).

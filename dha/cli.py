@@ -26,6 +26,7 @@ COMMAND_MODULES = (
     "dha.commands.index",
     "dha.commands.octane",
     "dha.commands.history",
+    "dha.commands.levers",
 )
 
 

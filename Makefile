@@ -1,6 +1,6 @@
 # Two commands do everything on a fresh machine that has only Python:
 #   make test   -> .venv, package + test extras, the whole test suite
-#   make demo   -> .venv, package, the main job on example_runs/ into out/demo/
+#   make demo   -> .venv, package, the main job on the shipped example runs into out/demo/
 PYTHON ?= python3
 VENV := .venv
 BIN := $(VENV)/bin

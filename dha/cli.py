@@ -27,6 +27,7 @@ COMMAND_MODULES = (
     "dha.commands.octane",
     "dha.commands.history",
     "dha.commands.levers",
+    "dha.commands.blend",
 )
 
 

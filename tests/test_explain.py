@@ -19,7 +19,7 @@ from dha.library import load_library
 from dha.pipeline import process_file
 from dha.settings import load_settings
 
-EXAMPLES = Path(__file__).resolve().parents[1] / "example_runs"
+EXAMPLES = Path(__file__).resolve().parents[1] / "dha" / "example_runs"  # shipped with the package
 
 
 @pytest.fixture(scope="module")

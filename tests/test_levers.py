@@ -221,7 +221,7 @@ def test_cli_levers_and_explain_json_and_tables():
     from click.testing import CliRunner
 
     from dha.cli import cli
-    recipe = Path(__file__).resolve().parents[1] / "example_runs" / "hp-blend-recipe.csv"
+    recipe = Path(__file__).resolve().parents[1] / "dha" / "example_runs" / "hp-blend-recipe.csv"
     runner = CliRunner()
     r = runner.invoke(cli, ["levers", str(recipe), "--lever", "benzene-saturation",
                             "--json", "-"])

@@ -15,8 +15,8 @@ import pandas as pd
 import pytest
 
 from dha.errors import InputError
-from dha.report import GROUP_KEYS, RESPONSIBILITY_TEXT, settings_digest
-from dha.report.excel import SHEETS, write_xlsx
+from dha.report import GROUP_KEYS, RESPONSIBILITY_TEXT, carbon_label, settings_digest
+from dha.report.excel import SHEETS, sheet_names, write_xlsx
 
 FIXTURE = Path(__file__).parent / "data" / "sample_result.json"
 
@@ -100,7 +100,7 @@ def test_numbers_are_stored_as_numbers(wb, result):
 def test_every_numeric_header_carries_a_unit(wb):
     # Brief: every numeric header carries its unit. A column is numeric when its data cells
     # are numbers; "#" and "carbon number"/"row in input" are counts without a unit.
-    counts = {"#", "carbon number", "row in input"}
+    counts = {"#", "carbon number", "row in input", "carbon number (≤C3 holds C1-C3)"}
     for name in ("Groups", "Carbon number mass", "Carbon number volume", "Components",
                  "Oxygenates", "Properties", "Import log"):
         ws = wb[name]
@@ -114,11 +114,12 @@ def test_every_numeric_header_carries_a_unit(wb):
 
 def test_carbon_number_matrix_read_back(workbook_path, result):
     m = pd.read_excel(workbook_path, sheet_name="Carbon number volume", index_col=0)
-    assert "13+" in m.index
+    # labels as the PDF prints them: the lightest bucket holds C1-C3 (dha.groups)
+    assert "C13+" in m.index and "≤C3" in m.index and "C3" not in m.index
     for entry in result["by_carbon_number"]:
         col = {"n_paraffins": "n-paraffins"}.get(entry["group"], entry["group"]) + " [% v/v]"
         cn = entry["carbon_number"]
-        cell = m.loc[cn if cn == "13+" else int(cn), col]
+        cell = m.loc[carbon_label(cn), col]
         assert cell == pytest.approx(entry["vol_pct"], abs=1e-12)
     # Column totals of the matrix equal the group totals (the matrix is a split of them).
     for g in GROUP_KEYS:
@@ -224,3 +225,51 @@ def test_distillation_curve_read_back(result, tmp_path):
     assert list(sheet.iloc[:, 0]) == curve["evaporated_vol_pct"]
     assert list(sheet.iloc[:, 1]) == curve["t_c"]
     assert "°C" in sheet.columns[1] and "% v/v" in sheet.columns[0]
+
+
+def test_no_json_literals_in_any_cell(result, tmp_path):
+    # Settings hold lists and tables (formats, markers); a person reads them as words, never as
+    # JSON ("[]", "{}", '"json"'). Common practice, no source.
+    res = copy.deepcopy(result)
+    res["settings"].setdefault("identify", {})["markers"] = {"5": 7.0, "6": 12.25}
+    res["settings"].setdefault("report", {})["formats"] = ["json", "xlsx"]
+    res["settings"]["identify"]["expected_oxygenates"] = []
+    path = write_xlsx(res, tmp_path / "j.xlsx")
+    values = [c for _s, rows in _cell_values(path).items() for r in rows for c in r
+              if isinstance(c, str)]
+    for v in values:
+        assert not (v.startswith(("[", "{")) and v.endswith(("]", "}"))), v
+        assert not (v.startswith('"') and v.endswith('"')), v
+    settings = pd.read_excel(path, sheet_name="Settings", index_col=0)
+    assert settings.iloc[:, 0]["identify.markers"] == "5 = 7.0; 6 = 12.25"
+    assert settings.iloc[:, 0]["report.formats"] == "json, xlsx"
+    assert settings.iloc[:, 0]["identify.expected_oxygenates"] == "(none)"
+
+
+def test_peaks_to_review_and_octane_sheets_when_present(result, tmp_path):
+    res = copy.deepcopy(result)
+    res["identification"] = {"peaks_to_review": [
+        {"rt_min": 12.5, "name": "2-methylhexane", "group": "isoparaffins", "mass_pct": 1.2,
+         "confidence": 0.41, "reason": "two library entries within the window"}]}
+    res["checks"].append({"spec": "run quality", "property": "identification", "limit": None,
+                          "kind": "min", "value": 0.62, "verdict": "marginal",
+                          "reasons": ["markers found automatically"]})
+    res["octane_contributions"] = [
+        {"group": "aromatics", "carbon_number": 7, "ron": 30.0, "mon": 25.0},
+        {"group": "isoparaffins", "carbon_number": 5, "ron": 66.4, "mon": 60.3}]
+    res["octane_explained"] = {"method": "Shapley attribution", "components": [
+        {"name": "n-heptane", "vol_pct": 2.0, "ron": -1.1, "mon": -0.9}],
+        "classes": [{"class": "n-paraffins", "ron": -2.0, "mon": -1.5}]}
+    path = write_xlsx(res, tmp_path / "p.xlsx")
+    wb = openpyxl.load_workbook(path)
+    assert wb.sheetnames == sheet_names(res)
+    assert "Peaks to review" in wb.sheetnames and "Octane contributions" in wb.sheetnames
+    review = [r for r in wb["Peaks to review"].iter_rows(values_only=True)]
+    assert any("2-methylhexane" in r for r in review)
+    assert any(r[0] and "within uncertainty" in str(r[0]) for r in review)
+    octane = [r for r in wb["Octane contributions"].iter_rows(values_only=True)]
+    total = [r for r in octane if r[0] == "total"][0]
+    assert total[2] == pytest.approx(96.4) and total[3] == pytest.approx(85.3)
+    assert any(r[0] == "n-heptane" for r in octane)
+    # absent keys: no extra sheets
+    assert "Peaks to review" not in sheet_names(result)

@@ -1,112 +1,182 @@
-"""PDF certificate draft: write the sample result, read the PDF back, check layout.
+"""PDF certificate draft: write results, read the PDF text back (pypdf), check what a chemist and
+a client must find in it.
 
-Reports are tested by reading them back (STYLE.md §14): the file exists, its page count, and
-that the sample id and the safety/responsibility words (common trade practice) appear in its text. The
-layout is checked on the drawn pages: no text leaves the page and no two texts overlap.
+Reports are tested by reading them back: page 1 marks the draft, identifies the sample and the
+lab, gives method and instrument in full, the reference temperature, the standard method each
+calculated property stands in for, the specification verdicts and the responsibility text
+(common trade practice: drafts until released, estimates are not test results, petrol is
+flammable, benzene is carcinogenic). No settings syntax is printed.
 """
 from __future__ import annotations
 
 import copy
 import json
+import re
 from pathlib import Path
 
-import numpy as np
 import pytest
-from matplotlib.backends.backend_agg import FigureCanvasAgg
 
 from dha.errors import InputError
-from dha.report.pdf import (
-    BOTTOM_PT, PAGE_H_PT, SMALL_ROW_H_PT, TOP_PT, render_pages, write_pdf,
-)
+from dha.report import plain_words
+from dha.report.pdf import certificate_number, write_pdf
 
 pypdf = pytest.importorskip("pypdf")  # in the project's test extras
 
 FIXTURE = Path(__file__).parent / "data" / "sample_result.json"
-#: Pages of the fixture: 1 summary, 2 groups and chart, 3 components + logs, 4 settings.
-FIXTURE_PAGES = 4
+LONG_METHOD = ("petrol detailed hydrocarbons on 100 m x 0.25 mm x 0.5 um dimethylpolysiloxane, "
+               "35 C held 15 min, 2 C/min to 200 C, split 150:1, helium 1.0 mL/min constant flow, "
+               "FID 300 C, calibration sequence DHA-CAL-7 of the alkane standard C4-C13")
 
 
 @pytest.fixture(scope="module")
 def result() -> dict:
-    return json.loads(FIXTURE.read_text(encoding="utf-8"))
+    res = json.loads(FIXTURE.read_text(encoding="utf-8"))
+    res["sample"]["method"] = LONG_METHOD
+    res["sample"]["notes"] = ["# blend recipe B-0412 for tank T-14"]
+    res["settings"]["lab"] = {"name": "Harbour Point Refinery - QC Laboratory 2",
+                              "address": "1 Quay Road, Harbour Point",
+                              "accreditation": "ISO/IEC 17025, invented no. HP-0042"}
+    res["settings"].setdefault("report", {})["certificate_number"] = "HP2/{date}/{tank}"
+    res["warnings"] = list(res["warnings"]) + [
+        "isothermal hold inferred from the n-alkanes: hold-up time 4.00 min; set [identify] "
+        "isothermal_until_min and holdup_time_min to the method's",
+        "oxygenate(s) outside identify.expected_oxygenates matched by retention index only"]
+    res["properties"]["rvp_psi"] = 9.19
+    res["properties"]["vli"] = 908.0
+    res["checks"].append({"spec": "run quality", "property": "identification", "limit": None,
+                          "kind": "min", "value": 0.71, "verdict": "marginal",
+                          "reasons": ["the n-alkane markers were found automatically: check "
+                                      "peaks at 34.77 and 45.76 min"]})
+    res["identification"] = {"peaks_to_review": [
+        {"rt_min": 34.772, "name": "n-octane", "group": "n_paraffins", "mass_pct": 0.4,
+         "confidence": 0.52, "reason": "marker chosen automatically"}]}
+    res["octane_contributions"] = [
+        {"group": "aromatics", "carbon_number": 7, "ron": 30.0, "mon": 25.0},
+        {"group": "isoparaffins", "carbon_number": 5, "ron": 66.4, "mon": 60.3}]
+    res["octane_explained"] = {"method": "Shapley attribution over components", "components": [
+        {"name": "n-heptane", "vol_pct": 2.0, "ron": -1.1, "mon": -0.9}],
+        "classes": [{"class": "n-paraffins", "ron": -2.0, "mon": -1.5}]}
+    return res
+
+
+def _read(path: Path) -> list[str]:
+    return [" ".join(p.extract_text().split()) for p in pypdf.PdfReader(path).pages]
 
 
 @pytest.fixture(scope="module")
-def pages_text(result, tmp_path_factory) -> list[str]:
+def pages(result, tmp_path_factory) -> list[str]:
     path = write_pdf(result, tmp_path_factory.mktemp("pdf") / "out" / "T-14.pdf")
     assert path.is_file() and path.read_bytes()[:5] == b"%PDF-"
-    return [page.extract_text() for page in pypdf.PdfReader(path).pages]
+    return _read(path)
 
 
-def _one_line(text: str) -> str:
-    return " ".join(text.split())
-
-
-def test_page_count(pages_text):
-    assert len(pages_text) == FIXTURE_PAGES
-
-
-def test_page_one_marks_draft_and_identifies_the_sample(pages_text, result):
-    p1 = _one_line(pages_text[0])
+def test_page_one_is_the_certificate_face(pages, result):
+    p1 = pages[0]
     assert "DRAFT — not released" in p1
-    assert result["sample"]["id"] in p1                       # "T-14 summer blend"
-    assert result["library"]["sha256"] in p1
-    assert result["library"]["version"] in p1
+    assert result["sample"]["id"] in p1
+    assert result["library"]["sha256"] in p1 and result["library"]["version"] in p1
     assert "en228-e10-summer" in p1
-    assert "FAIL" in p1                                       # DVPE 63.4 kPa > 60 + 2u
-    assert p1.count("within uncertainty of the limit") >= 2   # RON and MON
-    # Responsibility text (common trade practice) and an empty signature block on page 1.
+    # lab identity from the settings, certificate number with its placeholders filled
+    assert "Harbour Point Refinery - QC Laboratory 2" in p1 and "HP-0042" in p1
+    assert "1 Quay Road, Harbour Point" in p1
+    assert "Certificate no.: HP2/20260611/T-14" in p1
+    # verdicts: DVPE 63.4 kPa > 60 + 2u fails; RON and MON lie within U of their limits
+    assert "FAIL" in p1 and p1.count("within uncertainty of the limit") >= 2
     for phrase in ("carcinogen", "highly flammable", "estimates", "authorised person",
                    "reviewed by", "released by", "date"):
         assert phrase in p1, phrase
-    # A null property prints as the dash; fbp_c is null in the fixture.
-    assert "final boiling point — —" in p1
 
 
-def test_every_page_has_footer(pages_text, result):
-    for i, text in enumerate(pages_text, start=1):
-        assert f"page {i} of {FIXTURE_PAGES}" in text
+def test_method_and_instrument_in_full(pages, result):
+    p1 = pages[0]
+    assert LONG_METHOD in p1                      # wrapped, never shortened
+    assert result["sample"]["instrument"] in p1
+    assert "…" not in " ".join(pages)
+
+
+def test_reference_temperature_and_standard_methods(pages):
+    p1 = pages[0]
+    assert "15 °C for densities and volume %" in p1
+    assert "density at 15 °C" in p1 and "volume % at 15 °C" in p1
+    # the standard test each calculated property stands in for (EN ISO 5164/5163 engine
+    # ratings, EN 13016-1 DVPE, EN ISO 12185 density, EN ISO 3405 distillation)
+    for std in ("EN ISO 5164", "EN ISO 5163", "EN 13016-1", "EN ISO 12185", "EN ISO 3405"):
+        assert std in p1, std
+    # RVP and VLI are among the calculated properties on page 1
+    assert "RVP (DVPE expressed in psi)" in p1 and "vapour lock index" in p1
+
+
+def test_no_settings_syntax_in_the_pdf(pages):
+    text = " ".join(pages)
+    # no settings section such as "[identify]" (units in brackets, "RT [min]", are fine)
+    assert not re.search(r"\[(reader|identify|quantify|octane|volatility|report|lab|batch)\]",
+                         text)
+    for key in ("isothermal_until_min", "holdup_time_min", "expected_oxygenates",
+                "identify.", "ri_tolerance", "trend_quantities"):
+        assert key not in text, key
+    # the warning is there, in words
+    assert "the end of the method's isothermal hold" in text
+    assert "the list of oxygenates the samples may hold" in text
+
+
+def test_settings_dump_only_outside_the_pdf(pages, result):
+    text = " ".join(pages)
+    assert "Settings used" not in text
+    assert "primary_alcohol_oxygen_ecn" not in text and "primary alcohol oxygen ecn" not in text
+
+
+def test_identification_check_and_mass_balance_in_words(pages, result):
+    p1 = pages[0]
+    assert "Identification check: marginal (score 0.71 of 1)" in p1
+    assert "markers were found automatically" in p1
+    mb = result["mass_balance"]["peaks"]
+    assert f"{mb['total']} peaks in the file" in p1
+    assert "see the import log" in p1
+
+
+def test_trade_names_beside_iupac_names(pages):
+    assert "ethyl tert-butyl ether (ETBE)" in " ".join(pages[1:])
+
+
+def test_octane_contributions_and_peaks_to_review_shown(pages):
+    rest = " ".join(pages[1:])
+    assert "What makes up the calculated octane numbers" in rest
+    assert "Shapley attribution over components" in rest
+    assert "n-heptane" in rest
+    assert "Peaks to review (1" in rest and "marker chosen automatically" in rest
+
+
+def test_every_page_has_footer(pages, result):
+    n = len(pages)
+    for i, text in enumerate(pages, start=1):
+        assert f"page {i} of {n}" in text
         assert result["sample"]["id"] in text
-        assert result["generated_at"] in text
 
 
-def test_all_components_listed(pages_text, result):
-    text = _one_line(" ".join(pages_text[2:]))
+def test_all_components_and_logs_listed(pages, result):
+    text = " ".join(pages[1:])
     assert "Components (49 rows" in text
     for comp in result["components"]:
         assert comp["name"] in text, comp["name"]
-    assert "Import log (5 rows" in text and "Warnings (5)" in text
+    assert "Import log (5 rows" in text and f"Warnings ({len(result['warnings'])})" in text
 
 
-def _text_boxes(fig) -> np.ndarray:
-    """Window extents [px] of the page's visible texts (the faint watermark excluded)."""
-    renderer = FigureCanvasAgg(fig).get_renderer()
-    boxes = []
-    for ax in fig.axes[:1]:
-        for t in ax.texts:
-            if not t.get_text() or (t.get_alpha() or 1.0) < 0.5:
-                continue
-            bb = t.get_window_extent(renderer)
-            boxes.append((bb.x0, bb.x1, bb.y0, bb.y1))
-    return np.array(boxes)
-
-
-def _assert_clean_layout(fig) -> None:
-    w, h = fig.bbox.width, fig.bbox.height
-    b = _text_boxes(fig)
-    assert (b[:, 0] >= 0).all() and (b[:, 1] <= w).all(), "text runs over the page edge"
-    assert (b[:, 2] >= 0).all() and (b[:, 3] <= h).all()
-    x0, x1, y0, y1 = (b[:, i][:, None] for i in range(4))
-    ox = np.minimum(x1, x1.T) - np.maximum(x0, x0.T)
-    oy = np.minimum(y1, y1.T) - np.maximum(y0, y0.T)
-    overlap = (ox > 0.5) & (oy > 0.5)
-    np.fill_diagonal(overlap, False)
-    assert not overlap.any(), f"{overlap.sum() // 2} overlapping text pairs"
-
-
-def test_fixture_pages_do_not_overlap(result):
-    for fig in render_pages(result):
-        _assert_clean_layout(fig)
+def test_composition_table_is_labelled_and_comment_lines_are_notes(result, tmp_path):
+    res = copy.deepcopy(result)
+    res["mass_balance"] = {"basis": "vol_pct", "rows": {"in_library": 48, "stereo_split": 0,
+                                                        "not_in_library": 1, "total": 49},
+                           "amount_share_pct": {"not_in_library": 0.4},
+                           "sum_before_normalisation": 99.6}
+    for c in res["components"]:
+        c["rt_min"] = None
+    text = _read(write_pdf(res, tmp_path / "c.pdf"))
+    assert "COMPOSITION TABLE" in text[0]
+    assert "49 rows in the composition table" in text[0] and "1 not in the library" in text[0]
+    assert "Composition from the composition table" in text[0]
+    assert "Composition (from the DHA)" not in text[0]
+    # the input's comment line is shown as a note of the file header, without its "#"
+    assert "blend recipe B-0412 for tank T-14" in text[0]
+    assert "# blend recipe" not in " ".join(text)
 
 
 def _many_components(result: dict, n: int) -> dict:
@@ -115,6 +185,7 @@ def _many_components(result: dict, n: int) -> dict:
     big["components"] = []
     for i in range(n):
         comp = dict(base[i % len(base)])
+        comp["mass_pct"] = 100.0 / (i + 1)
         if i % 7 == 0:
             comp["name"] = (f"peak {i + 1}: an invented component name far too long for its "
                             "column, 2,2,3,3,4-pentamethylhexane-like")
@@ -122,27 +193,36 @@ def _many_components(result: dict, n: int) -> dict:
     return big
 
 
-def test_600_components_paginate(result, tmp_path):
+def test_600_components_shortened_list_points_to_the_workbook(result, tmp_path):
     big = _many_components(result, 600)
-    path = write_pdf(big, tmp_path / "big.pdf")
-    reader = pypdf.PdfReader(path)
-    n = len(reader.pages)
-    # At most (page height - margins) / row height rows fit on a page (geometry of pdf.py).
-    rows_per_page = int((PAGE_H_PT - TOP_PT - BOTTOM_PT) / SMALL_ROW_H_PT)
-    assert n >= 2 + -(-600 // rows_per_page)
-    texts = [_one_line(p.extract_text()) for p in reader.pages]
-    assert f"page {n} of {n}" in texts[-1]
-    listing = " ".join(texts[2:])
-    assert "Components (600 rows" in listing
-    assert "599 " in listing and "600 " in listing          # row numbers of the last rows
-    assert "peak 596: an invented" in listing and "…" in listing   # long names shortened
-    # The header repeats on every page the listing runs over.
-    assert sum("RT [min]" in t for t in texts) >= -(-600 // rows_per_page)
+    big["settings"]["report"]["pdf_component_rows"] = 60
+    text = _read(write_pdf(big, tmp_path / "big.pdf"))
+    listing = " ".join(text)
+    assert "Components (600 rows; largest first, the 60 largest shown" in listing
+    assert "540 smaller components" in listing and "sheet Components" in listing
+    assert "peak 1: an invented component name far too long for its column" in listing
+    assert f"page {len(text)} of {len(text)}" in text[-1]
 
 
-def test_600_components_first_listing_page_layout(result):
-    figs = render_pages(_many_components(result, 600))
-    _assert_clean_layout(figs[2])
+def test_600_components_all_listed_when_asked(result, tmp_path):
+    big = _many_components(result, 600)
+    big["settings"]["report"]["pdf_component_rows"] = 0
+    text = _read(write_pdf(big, tmp_path / "all.pdf"))
+    listing = " ".join(text)
+    assert "Components (600 rows; largest first)" in listing
+    assert "peak 596: an invented component name" in listing      # long names wrap, in full
+    # the header repeats on every page the listing runs over
+    assert sum("RT [min]" in t for t in text) >= 5
+
+
+def test_certificate_number_empty_pattern_gives_a_blank_field():
+    assert certificate_number({}) == ""
+    assert certificate_number({"settings": {"report": {"certificate_number": "X-{nope}"}}}) == "X-"
+
+
+def test_plain_words_leaves_no_settings_syntax():
+    text = plain_words("set [identify] markers = {5 = 7.0} and identify.ri_tolerance")
+    assert "[" not in text.replace("{", "") and "identify." not in text
 
 
 def test_not_a_dict_is_an_input_error(tmp_path):
@@ -150,10 +230,8 @@ def test_not_a_dict_is_an_input_error(tmp_path):
         write_pdf("no result", tmp_path / "x.pdf")
 
 
-def test_empty_result_gives_the_three_page_skeleton(tmp_path):
-    path = write_pdf({}, tmp_path / "empty.pdf")
-    reader = pypdf.PdfReader(path)
-    assert len(reader.pages) == 3
-    p1 = _one_line(reader.pages[0].extract_text())
-    assert "DRAFT — not released" in p1 and "carcinogen" in p1
-    assert "no carbon-number data" in reader.pages[1].extract_text()
+def test_empty_result_still_gives_the_face_and_the_skeleton(tmp_path):
+    text = _read(write_pdf({}, tmp_path / "empty.pdf"))
+    assert len(text) >= 2
+    assert "DRAFT — not released" in text[0] and "carcinogen" in text[0]
+    assert "no carbon-number data" in " ".join(text[1:])

@@ -11,13 +11,24 @@ from dha.settings import load_settings
 from dha.batch import quiet_run_warnings
 
 
+#: The example runs ship inside the package (package data), so the demo works after any install.
+EXAMPLE_RUNS = Path(__file__).resolve().parents[1] / "example_runs"
+
+
 def find_example_runs() -> Path:
-    """The ``example_runs/`` folder: in the current directory, else beside the source tree."""
-    for candidate in (Path.cwd() / "example_runs", Path(__file__).resolve().parents[2] / "example_runs"):
-        if candidate.is_dir() and any(candidate.iterdir()):
-            return candidate
-    raise InputError("example_runs/ not found: run `dha demo` from the project folder "
-                     "(the example runs ship with the source, not the wheel)")
+    """The example runs shipped with the package (``dha/example_runs/``)."""
+    if EXAMPLE_RUNS.is_dir() and any(EXAMPLE_RUNS.iterdir()):
+        return EXAMPLE_RUNS
+    raise InputError("the example runs are missing from this installation of dha "
+                     "(dha/example_runs/): reinstall the package")
+
+
+def _shown(path: Path) -> str:
+    """A path as the user gave it, or relative to the current folder when inside it."""
+    try:
+        return str(Path(path).resolve().relative_to(Path.cwd().resolve()))
+    except ValueError:
+        return str(path)
 
 
 @click.command("demo")
@@ -35,13 +46,14 @@ def demo_command(out_dir: Path, jobs: int) -> None:
     Example:
         dha demo -o out/demo
     """
-    settings = load_settings()
-    quiet_run_warnings()
     folder = find_example_runs()
+    # the invented lab's own settings: its identity and its column's n-alkane markers
+    settings = load_settings(folder / "harbour-point-lab.toml")
+    quiet_run_warnings()
     files = batch.expand_inputs([folder])
     spec = settings["report"]["spec"]
-    click.echo(f"dha demo: {len(files)} example runs from {folder} -> {out_dir}/ "
-               f"(specification {spec})")
+    click.echo(f"dha demo: {len(files)} example runs (invented tanks, shipped with dha) -> "
+               f"{_shown(out_dir)}/ (specification {spec})")
     with click.progressbar(length=len(files), label="runs", file=click.get_text_stream("stderr")) as bar:
         table = batch.run_batch(files, out_dir, settings, spec=spec,
                                 formats=tuple(settings["report"]["formats"]), jobs=jobs,
@@ -53,7 +65,11 @@ def demo_command(out_dir: Path, jobs: int) -> None:
                        f"flags: {row['flags'] or 'none'}  -> {row['output']}")
         else:
             click.echo(f"  {row['input']:<40} FAILED: {row['error']}")
-    click.echo(f"summary: {out_dir / 'summary.xlsx'}")
+    click.echo(f"summary: {_shown(out_dir / 'summary.xlsx')}")
+    readme = folder / "README.md"
+    if readme.is_file():
+        (out_dir / "EXAMPLES.md").write_text(readme.read_text(encoding="utf-8"), encoding="utf-8")
+        click.echo(f"what each example run is: {_shown(out_dir / 'EXAMPLES.md')}")
     click.echo("Calculated properties are estimates, not standard test results; reports are "
                "drafts until an authorised person releases them.")
     if batch.is_failure(table).any():

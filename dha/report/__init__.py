@@ -317,6 +317,179 @@ def headline_rows(result: dict) -> list[tuple[str, str, Any, str]]:
     ]
 
 
+#: Standard test method each calculated property stands in for (EN / ISO first, then ASTM).
+STANDARD_METHODS: dict[str, str] = {
+    "ron": "EN ISO 5164 / ASTM D2699",
+    "mon": "EN ISO 5163 / ASTM D2700",
+    "aki": "from RON and MON",
+    "sensitivity": "from RON and MON",
+    "dvpe_kpa": "EN 13016-1 / ASTM D5191",
+    "rvp_psi": "ASTM D5191 (DVPE in psi)",
+    "density_kg_m3": "EN ISO 12185 / ASTM D4052",
+    "e70_vol_pct": "EN ISO 3405 / ASTM D86",
+    "e100_vol_pct": "EN ISO 3405 / ASTM D86",
+    "e150_vol_pct": "EN ISO 3405 / ASTM D86",
+    "t10_c": "EN ISO 3405 / ASTM D86",
+    "t50_c": "EN ISO 3405 / ASTM D86",
+    "t90_c": "EN ISO 3405 / ASTM D86",
+    "fbp_c": "EN ISO 3405 / ASTM D86",
+    "vli": "EN 228 (10·DVPE + 7·E70)",
+    "net_heat_mj_kg": "ASTM D4809 / D240",
+    "gross_heat_mj_kg": "ASTM D4809 / D240",
+    "mean_molar_mass_g_mol": "-",
+    "h_to_c_molar": "ASTM D5291",
+}
+
+#: Trade names of oxygenates by CAS number (the names the trade and EN 228 use).
+TRADE_NAMES: dict[str, str] = {
+    "1634-04-4": "MTBE", "637-92-3": "ETBE", "994-05-8": "TAME", "108-20-3": "DIPE",
+    "75-65-0": "TBA", "78-83-1": "isobutanol", "67-63-0": "isopropanol", "919-94-8": "TAEE",
+}
+
+
+def display_name(name: Any, cas: Any = None) -> str:
+    """A component name with its trade name beside it, e.g. ``2-methoxy-2-methylpropane (MTBE)``.
+
+    >>> display_name("2-ethoxy-2-methylpropane", "637-92-3"), display_name("toluene", "108-88-3")
+    ('2-ethoxy-2-methylpropane (ETBE)', 'toluene')
+    """
+    text = NULL_TEXT if name in (None, "") else str(name)
+    trade = TRADE_NAMES.get(str(cas or ""))
+    if trade and trade.lower() not in text.lower():
+        return f"{text} ({trade})"
+    return text
+
+
+def input_kind(result: dict) -> str:
+    """``"peak table"`` or ``"composition table"``: ``sample.input_kind`` when the result has it,
+    else a composition table when no component carries a retention time and there is no mass
+    balance of peaks.
+
+    >>> input_kind({"components": [{"rt_min": None}]}), input_kind({"mass_balance": {"peaks": {}}})
+    ('composition table', 'peak table')
+    """
+    kind = (result.get("sample") or {}).get("input_kind")
+    if kind:
+        return str(kind)
+    mb = result.get("mass_balance")
+    if isinstance(mb, dict) and "peaks" in mb:
+        return "peak table"
+    if isinstance(mb, dict) and "rows" in mb:
+        return "composition table"
+    comps = result.get("components") or []
+    if comps and all(c.get("rt_min") is None for c in comps):
+        return "composition table"
+    return "peak table"
+
+
+def reference_temperature_c(result: dict) -> float:
+    """Reference temperature of densities and volume % [°C] from the settings used (15 °C when
+    the result does not say)."""
+    value = ((result.get("settings") or {}).get("quantify") or {}).get("reference_temperature_c")
+    return float(value) if is_number(value) else 15.0
+
+
+def mass_balance_words(result: dict) -> str:
+    """The mass balance in one sentence, e.g. "179 peaks in the file: 170 identified, 9
+    unidentified (0.20 % of the area), none excluded; 1 row skipped or changed: see the import
+    log."
+
+    >>> mass_balance_words({"mass_balance": {"peaks": {"total": 10, "identified": 9,
+    ...     "unidentified": 1, "excluded": 0}, "area_share_pct": {"unidentified": 0.5}},
+    ...     "import_log": [{"row": 3}]})
+    '10 peaks in the file: 9 identified, 1 unidentified (0.50 % of the area), none excluded; 1 row of the file skipped or changed: see the import log.'
+    """
+    log_rows = result.get("import_log") or []
+    tail = (f"; {len(log_rows)} row{'s' if len(log_rows) != 1 else ''} of the file skipped or "
+            "changed: see the import log." if log_rows else "; no row of the file skipped.")
+    mb = result.get("mass_balance")
+    if isinstance(mb, dict) and "rows" in mb and "peaks" not in mb:
+        rows = mb.get("rows") or {}
+        share = mb.get("amount_share_pct") or {}
+        basis = BASIS_UNITS.get(str(mb.get("basis")), "")
+        text = (f"{rows.get('total', 0)} rows in the composition table: "
+                f"{rows.get('in_library', 0)} components of the library")
+        if rows.get("stereo_split"):
+            text += f", {rows['stereo_split']} split over cis/trans isomers"
+        out = rows.get("not_in_library") or 0
+        text += (f", {out} not in the library ({fmt_number(share.get('not_in_library'), 2)} % "
+                 "of the amount, kept as unidentified)" if out else ", none outside it")
+        total = mb.get("sum_before_normalisation")
+        if is_number(total):
+            text += f"; the amounts summed to {total:.3f} {basis} before normalisation to 100"
+        return text + tail
+    if not isinstance(mb, dict) or not mb:
+        n = len(result.get("components") or [])
+        return f"{n} components in the composition table{tail}"
+    peaks = mb.get("peaks") or {}
+    share = mb.get("area_share_pct") or {}
+    total = peaks.get("total", peaks.get("read"))
+    parts = [f"{peaks.get('identified', 0)} identified"]
+    unid = peaks.get("unidentified") or 0
+    parts.append(f"{unid} unidentified" + (f" ({fmt_number(share.get('unidentified'), 2)} % of "
+                                            "the area)" if unid else ""))
+    exc = peaks.get("excluded") or 0
+    parts.append(f"{exc} excluded ({fmt_number(share.get('excluded'), 2)} % of the area)"
+                 if exc else "none excluded")
+    head = f"{total} peaks in the file" if total is not None else "peaks"
+    return f"{head}: {', '.join(parts)}{tail}"
+
+
+#: Settings keys -> words, for warnings a person reads on the certificate.
+_SETTING_WORDS = {
+    "isothermal_until_min": "the end of the method's isothermal hold",
+    "holdup_time_min": "the hold-up time",
+    "markers": "the n-alkane marker times",
+    "expected_oxygenates": "the list of oxygenates the samples may hold",
+    "ri_tolerance": "the retention-index window",
+    "other_oxygenate_odds": "the weight given to unexpected oxygenates",
+    "split_named_coelutions": "the co-elution rule",
+    "use_names": "the use of names in the export",
+    "response_factors": "the response factors",
+    "reference_temperature_c": "the reference temperature",
+    "exclude": "the peaks excluded",
+    "activity": "the vapour-pressure model",
+    "distillation_curve": "the distillation model",
+    "model": "the octane model",
+}
+
+
+def plain_words(text: Any) -> str:
+    """A warning rewritten for a chemist: settings syntax (``[identify] markers``,
+    ``identify.expected_oxygenates``, ``snake_case`` keys) becomes words.
+
+    >>> plain_words("check them; set [identify] isothermal_until_min and holdup_time_min to the method's")
+    "check them; set the end of the method's isothermal hold and the hold-up time in the lab settings to the method's"
+    >>> plain_words("oxygenates outside identify.expected_oxygenates matched")
+    'oxygenates outside the list of oxygenates the samples may hold matched'
+    """
+    import re
+
+    s = str(text)
+    had_section = bool(re.search(r"\[[a-z_]+\]", s))
+    s = re.sub(r"\s*\[[a-z_]+\]\s*", " ", s)
+    s = re.sub(r"\b[a-z]+\.([a-z][a-z0-9_]*)\b",
+               lambda m: _SETTING_WORDS.get(m.group(1), m.group(0)), s)
+    for key, words in _SETTING_WORDS.items():
+        if "_" in key:
+            s = re.sub(rf"\b{key}\b", words, s)
+    s = re.sub(r"\b([a-z]+)_([a-z0-9_]+)\b", lambda m: m.group(0).replace("_", " "), s)
+    if had_section:
+        s = re.sub(r"(\bset\b[^;.]*?)(\bto\b|$)", lambda m: m.group(1).rstrip() +
+                   " in the lab settings " + m.group(2) if m.group(2) else m.group(1).rstrip() +
+                   " in the lab settings", s, count=1)
+    return re.sub(r"\s{2,}", " ", s).strip()
+
+
+def identification_check(result: dict) -> dict | None:
+    """The run-quality check of the identification (``checks`` entry with property
+    "identification"), or None when the result has none."""
+    for chk in result.get("checks") or []:
+        if chk.get("property") == "identification":
+            return chk
+    return None
+
+
 def property_keys(result: dict) -> list[str]:
     """Property keys in report order: the contract's order, then any extra keys sorted."""
     from dha.properties import PROPERTY_KEYS
@@ -346,5 +519,7 @@ __all__ = [
     "NULL_TEXT", "VERDICT_WORDS", "WRITERS", "property_label", "unit_of", "decimals_of",
     "is_number", "fmt_number", "canonical_json", "settings_digest", "flatten_settings",
     "carbon_number_sort_key", "headline_rows", "property_keys", "flatten_mapping",
-    "warnings_about_checks", "AROMATICS_DETAIL_LABELS", "mapping_table",
+    "warnings_about_checks", "AROMATICS_DETAIL_LABELS", "mapping_table", "STANDARD_METHODS",
+    "TRADE_NAMES", "display_name", "input_kind", "reference_temperature_c",
+    "mass_balance_words", "plain_words", "identification_check", "carbon_label",
 ]

@@ -28,8 +28,9 @@ from dha.errors import InputError
 from dha.safety import save_workbook, visible_data
 from dha.report import (
     AROMATICS_DETAIL_LABELS, BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, RESPONSIBILITY_TEXT,
-    VERDICT_WORDS, carbon_number_sort_key, decimals_of, flatten_mapping, flatten_settings,
-    headline_rows, is_number, property_keys, property_label, settings_digest, unit_of,
+    TRADE_NAMES, VERDICT_WORDS, carbon_label, carbon_number_sort_key, decimals_of,
+    display_name, flatten_mapping, headline_rows, identification_check, is_number,
+    plain_words, property_keys, property_label, settings_digest, unit_of,
     warnings_about_checks,
 )
 
@@ -88,10 +89,29 @@ def _cell_value(value: Any) -> Any:
     if isinstance(value, (int, float)):
         return value if is_number(value) else None
     if isinstance(value, (dict, list, tuple)):
-        from dha.report import canonical_json
-
-        return canonical_json(value)
+        return plain_text(value)
     return str(value)
+
+
+def plain_text(value: Any) -> str:
+    """A list or mapping as words a person reads in a cell (never a JSON literal).
+
+    >>> plain_text(["json", "xlsx"]), plain_text({4: 5.09, 5: 7.0}), plain_text([]), plain_text({})
+    ('json, xlsx', '4 = 5.09; 5 = 7.0', '(none)', '(none)')
+    """
+    if isinstance(value, dict):
+        if not value:
+            return "(none)"
+        return "; ".join(f"{k} = {plain_text(v) if isinstance(v, (dict, list, tuple)) else v}"
+                         for k, v in value.items())
+    if isinstance(value, (list, tuple)):
+        if not value:
+            return "(none)"
+        return ", ".join(plain_text(v) if isinstance(v, (dict, list, tuple)) else str(v)
+                         for v in value)
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    return "" if value is None else str(value)
 
 
 def _table(ws, header: Sequence[str], rows: Iterable[Sequence[Any]],
@@ -104,11 +124,18 @@ def _table(ws, header: Sequence[str], rows: Iterable[Sequence[Any]],
         cell.fill = _HEADER_FILL
         cell.alignment = Alignment(vertical="top", wrap_text=False)
     r = start_row
+    fmts = list(formats or [])
     for r, row in enumerate(rows, start=start_row + 1):
+        if r == ws.max_row + 1:            # the usual case: append the whole row at once
+            ws.append([_cell_value(v) for v in row])
+            for j, value in enumerate(row):
+                if j < len(fmts) and fmts[j] and is_number(value):
+                    ws.cell(row=r, column=j + 1).number_format = fmts[j]
+            continue
         for j, value in enumerate(row, start=1):
             cell = ws.cell(row=r, column=j, value=_cell_value(value))
-            if formats and j - 1 < len(formats) and formats[j - 1] and is_number(value):
-                cell.number_format = formats[j - 1]
+            if fmts and j - 1 < len(fmts) and fmts[j - 1] and is_number(value):
+                cell.number_format = fmts[j - 1]
     if freeze:
         ws.freeze_panes = ws.cell(row=start_row + 1, column=1)
     return r + 1
@@ -117,7 +144,9 @@ def _table(ws, header: Sequence[str], rows: Iterable[Sequence[Any]],
 def _autowidth(ws, minimum: int = 8, maximum: int = _MAX_WIDTH) -> None:
     """Set each column's width from its longest text (numbers counted as 10 characters)."""
     widths: dict[int, int] = {}
-    for row in ws.iter_rows():
+    # the first 400 rows set the widths (a long listing's later rows are alike; common
+    # practice, no source)
+    for row in ws.iter_rows(max_row=min(ws.max_row, 400)):
         for cell in row:
             if cell.value is None:
                 continue
@@ -257,11 +286,11 @@ def _matrix(ws, result: dict, basis: str) -> None:
     rows = []
     for cn in order:
         vals = [cells[cn].get(g) for g in groups]
-        rows.append([cn] + vals + [sum(v for v in vals if v is not None)])
+        rows.append([carbon_label(cn)] + vals + [sum(v for v in vals if v is not None)])
     col_totals = [sum(cells[cn].get(g, 0.0) for cn in order) for g in groups]
     rows.append(["total"] + col_totals + [sum(col_totals)])
-    header = ["carbon number"] + [f"{GROUP_LABELS.get(g, g)} [{unit}]" for g in groups] + [f"total [{unit}]"]
-    _table(ws, header, rows, formats=[FMT_INT] + [FMT_PCT] * (len(groups) + 1))
+    header = ["carbon number (≤C3 holds C1-C3)"] + [f"{GROUP_LABELS.get(g, g)} [{unit}]" for g in groups] + [f"total [{unit}]"]
+    _table(ws, header, rows, formats=[None] + [FMT_PCT] * (len(groups) + 1))
     for cell in ws[len(rows) + 1]:
         cell.font = _BOLD
     _autowidth(ws)
@@ -291,11 +320,12 @@ def _components(ws, result: dict) -> None:
 def _oxygenates(ws, result: dict) -> None:
     oxy = result.get("oxygenates") or []
     bases = ["mass_pct", "vol_pct"] + (["mol_pct"] if any("mol_pct" in o for o in oxy) else [])
-    rows = [[o.get("name"), o.get("cas")] + [o.get(b) for b in bases] for o in oxy]
-    r = _table(ws, ["name", "CAS number"] + [BASIS_UNITS[b] for b in bases], rows,
-               formats=[None, None] + [FMT_PCT] * len(bases))
+    rows = [[o.get("name"), TRADE_NAMES.get(str(o.get("cas") or ""), ""), o.get("cas")]
+            + [o.get(b) for b in bases] for o in oxy]
+    r = _table(ws, ["name", "trade name", "CAS number"] + [BASIS_UNITS[b] for b in bases], rows,
+               formats=[None, None, None] + [FMT_PCT] * len(bases))
     ws.cell(row=r + 1, column=1, value="oxygen [mass %]").font = _BOLD
-    cell = ws.cell(row=r + 1, column=3, value=_cell_value(result.get("oxygen_mass_pct")))
+    cell = ws.cell(row=r + 1, column=4, value=_cell_value(result.get("oxygen_mass_pct")))
     cell.number_format = FMT_PCT
     _autowidth(ws)
 
@@ -347,8 +377,18 @@ def _warnings(ws, result: dict) -> None:
 
 
 def _settings(ws, result: dict) -> None:
-    rows = flatten_settings(result.get("settings"))
-    _table(ws, ["setting", "value"], rows)
+    rows = []
+
+    def walk(prefix: str, value: Any) -> None:
+        if isinstance(value, dict) and value and prefix.count(".") < 1:
+            for k in sorted(value, key=str):
+                walk(f"{prefix}.{k}" if prefix else str(k), value[k])
+        else:
+            rows.append([prefix, plain_text(value) if isinstance(value, (dict, list, tuple, bool))
+                         else value])
+
+    walk("", result.get("settings") or {})
+    _table(ws, ["setting (section.key of the settings file)", "value"], rows)
     _autowidth(ws)
 
 
@@ -360,6 +400,76 @@ def _notes(ws, result: dict) -> None:
             cell.alignment = Alignment(wrap_text=True, vertical="top")
     for r in range(2, len(RESPONSIBILITY_TEXT) + 2):
         ws.row_dimensions[r].height = 32
+
+
+def _peaks_to_review(ws, result: dict) -> None:
+    ident = result.get("identification")
+    peaks = (ident or {}).get("peaks_to_review") if isinstance(ident, dict) else None
+    chk = identification_check(result)
+    r = 1
+    if chk is not None:
+        ws.cell(row=1, column=1, value=f"Identification check: {VERDICT_WORDS.get(chk.get('verdict'), chk.get('verdict'))}"
+                ).font = _TITLE_FONT
+        score = chk.get("value")
+        ws.cell(row=2, column=1, value="score [0-1]")
+        ws.cell(row=2, column=2, value=_cell_value(score))
+        r = 3
+        for reason in chk.get("reasons") or []:
+            ws.cell(row=r, column=1, value=plain_words(reason))
+            r += 1
+        r += 1
+    rows = [[p.get("rt_min"), p.get("name"), GROUP_LABELS.get(p.get("group"), p.get("group")),
+             p.get("mass_pct"), p.get("confidence"), p.get("reason")] for p in peaks or []]
+    _table(ws, ["retention time [min]", "identified as", "group", "mass %", "confidence [0-1]",
+                "why to review"], rows, formats=[FMT_RT, None, None, FMT_PCT, "0.00", None],
+           start_row=r, freeze=r == 1)
+    _autowidth(ws, maximum=90)
+
+
+def _octane(ws, result: dict) -> None:
+    contrib = result.get("octane_contributions") or []
+    explained = result.get("octane_explained") or {}
+    r = 1
+    if isinstance(explained, dict) and explained.get("method"):
+        ws.cell(row=1, column=1, value=f"method: {explained.get('method')}")
+        r = 3
+    rows = [[GROUP_LABELS.get(c.get("group"), c.get("group")), carbon_label(c.get("carbon_number"))
+             if c.get("carbon_number") is not None else "", c.get("ron"), c.get("mon")]
+            for c in contrib]
+    ron_sum = sum(c.get("ron") for c in contrib if is_number(c.get("ron")))
+    mon_sum = sum(c.get("mon") for c in contrib if is_number(c.get("mon")))
+    if rows:
+        rows.append(["total", "", ron_sum, mon_sum])
+    r = _table(ws, ["group", "carbon number", "contribution to RON [-]",
+                    "contribution to MON [-]"], rows, formats=[None, None, "0.000", "0.000"],
+               start_row=r, freeze=r == 1)
+    if isinstance(explained, dict) and explained.get("components"):
+        r += 1
+        r = _table(ws, ["component pulling the octane number down", "% v/v", "RON effect [-]",
+                        "MON effect [-]"],
+                   [[display_name(c.get("name"), c.get("cas")), c.get("vol_pct"), c.get("ron"),
+                     c.get("mon")] for c in explained["components"]],
+                   formats=[None, FMT_PCT, "0.000", "0.000"], start_row=r, freeze=False)
+    if isinstance(explained, dict) and explained.get("classes"):
+        r += 1
+        _table(ws, ["class", "RON effect [-]", "MON effect [-]"],
+               [[c.get("class"), c.get("ron"), c.get("mon")] for c in explained["classes"]],
+               formats=[None, "0.000", "0.000"], start_row=r, freeze=False)
+    _autowidth(ws, maximum=60)
+
+
+def sheet_names(result: dict) -> list[str]:
+    """The sheets of this result's workbook: ``SHEETS``, plus "Peaks to review" and "Octane
+    contributions" after "Components" when the result has them."""
+    names = list(SHEETS)
+    extra = []
+    ident = result.get("identification")
+    if (isinstance(ident, dict) and ident.get("peaks_to_review")) or identification_check(result):
+        extra.append("Peaks to review")
+    if result.get("octane_contributions") or result.get("octane_explained"):
+        extra.append("Octane contributions")
+    at = names.index("Components") + 1
+    return names[:at] + extra + names[at:]
 
 
 def _fixed_time(result: dict) -> _dt.datetime:
@@ -410,8 +520,10 @@ def write_xlsx(result: dict, path) -> Path:
         "Warnings": _warnings,
         "Settings": _settings,
         "Notes": _notes,
+        "Peaks to review": _peaks_to_review,
+        "Octane contributions": _octane,
     }
-    for name in SHEETS:
+    for name in sheet_names(result):
         builders[name](wb.create_sheet(name), result)
     sample_id = str((result.get("sample") or {}).get("id") or "")
     wb.properties.title = f"dha result {sample_id}".strip()

@@ -70,10 +70,46 @@ def plot_groups_by_carbon_number(result: dict, ax, basis: str = "vol_pct") -> li
     return groups
 
 
-def groups_by_carbon_number_figure(result: dict, basis: str = "vol_pct") -> Figure:
-    """A stand-alone 16 cm x 9 cm Figure of :func:`plot_groups_by_carbon_number`."""
-    fig = Figure(figsize=(6.3, 3.5))
+def groups_by_carbon_number_figure(result: dict, basis: str = "vol_pct",
+                                   size_in: tuple[float, float] = (6.3, 3.5)) -> Figure:
+    """A stand-alone Figure (default 16 cm x 9 cm) of :func:`plot_groups_by_carbon_number`."""
+    fig = Figure(figsize=size_in)
     ax = fig.add_subplot(1, 1, 1)
     plot_groups_by_carbon_number(result, ax, basis=basis)
+    fig.tight_layout()
+    return fig
+
+
+def octane_contributions_figure(result: dict, size_in: tuple[float, float] = (4.3, 2.4)) -> Figure:
+    """Horizontal bars of each group's contribution to the calculated RON and MON, from the
+    result's ``octane_contributions`` (summed over carbon numbers)."""
+    rows = result.get("octane_contributions") or []
+    groups: list[str] = []
+    ron: dict[str, float] = {}
+    mon: dict[str, float] = {}
+    for r in rows:
+        g = str(r.get("group"))
+        if g not in groups:
+            groups.append(g)
+        ron[g] = ron.get(g, 0.0) + (r.get("ron") if is_number(r.get("ron")) else 0.0)
+        mon[g] = mon.get(g, 0.0) + (r.get("mon") if is_number(r.get("mon")) else 0.0)
+    fig = Figure(figsize=size_in)
+    ax = fig.add_subplot(1, 1, 1)
+    y = list(range(len(groups)))
+    ax.barh([v - 0.18 for v in y], [ron[g] for g in groups], height=0.34, label="RON",
+            color=[GROUP_COLOURS.get(g, "#444444") for g in groups])
+    ax.barh([v + 0.18 for v in y], [mon[g] for g in groups], height=0.34, label="MON",
+            color=[GROUP_COLOURS.get(g, "#444444") for g in groups], alpha=0.55)
+    ax.set_yticks(y)
+    ax.set_yticklabels([GROUP_LABELS.get(g, g) for g in groups], fontsize=7)
+    ax.invert_yaxis()
+    ax.tick_params(axis="x", labelsize=7)
+    ax.set_xlabel("contribution to the octane number [-] (dark: RON, light: MON)", fontsize=7)
+    ax.axvline(0, color="#888888", linewidth=0.6)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    if not groups:
+        ax.text(0.5, 0.5, "no octane contributions in this result", transform=ax.transAxes,
+                ha="center", va="center", fontsize=8, color="#666666")
     fig.tight_layout()
     return fig

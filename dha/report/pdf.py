@@ -1,54 +1,52 @@
 """PDF certificate draft of one result: ``write_pdf(result, path) -> Path``.
 
-A4 portrait pages drawn with matplotlib (``PdfPages``; no pyplot, no extra dependency):
+Laid out with reportlab (real text and tables: wrapping, repeated table headers, page breaks),
+charts drawn with matplotlib and embedded as images. A4 portrait:
 
-1. the "DRAFT — not released" marking, sample identification, library version and checksum,
-   settings digest, the results with units, the specification checks (limit, value, verdict) and
-   the responsibility text with an empty "reviewed by / released by / date" block;
-2. group totals, oxygenates, a stacked bar chart of group % v/v by carbon number, the carbon
-   number x group table and the mass balance;
-3. onwards: every component (paginated), the import log, the warnings and the settings used.
+1. the laboratory (settings ``[lab]``), "DRAFT - not released", the certificate-number field,
+   sample and run (method and instrument in full), what the input was (peak table or
+   composition table), the identification check in words, the mass balance in words, the
+   results with units and the standard method each calculated property stands in for, the
+   specification checks, the points to check (warnings in words), and - fixed at the foot of
+   the page - the responsibility text and the "reviewed by / released by / date" block;
+2. group totals, oxygenates (with trade names), the carbon number x group table and chart,
+   the octane contributions (table and chart) and what pulls the octane number down, when the
+   result has them, and the peaks to review;
+3. onwards: the components (largest first; ``[report] pdf_component_rows``, the workbook lists
+   all), the import log and every warning.
 
-Each page carries the draft marking, and a footer with the sample id, ``generated_at`` and
-"page x of y". Null values print as "—" (the reason is in the warnings). Text is measured with
-the font's own metrics, long cells are shortened with "…" and long texts are wrapped, so
-nothing runs over a column or the page edge.
+The settings used are not printed (they are in the workbook and the JSON; their sha256 is on
+page 1). Every page has the draft marking and a footer with the sample id, the time the result
+was made and "page x of y". Null values print as "—" (the reason is in the warnings).
 """
 from __future__ import annotations
 
+import io
 import logging
 import threading
-from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
-from typing import Any, Callable, Sequence
-
-import matplotlib
-from matplotlib.backends.backend_pdf import PdfPages
-from matplotlib.figure import Figure
-from matplotlib.font_manager import FontProperties, findfont, get_font
-from matplotlib.patches import Rectangle
+from typing import Any, Sequence
+from xml.sax.saxutils import escape
 
 from dha.errors import InputError
-from dha.safety import atomic_write, visible_data
+from dha.safety import atomic_write_bytes, visible_data
 from dha.report import (
-    AROMATICS_DETAIL_LABELS, BASIS_UNITS, carbon_label, GROUP_KEYS, GROUP_LABELS, NULL_TEXT,
-    RESPONSIBILITY_TEXT, VERDICT_WORDS, decimals_of, flatten_mapping, flatten_settings,
-    fmt_number, headline_rows, is_number, mapping_table, property_keys, property_label,
+    AROMATICS_DETAIL_LABELS, BASIS_UNITS, GROUP_KEYS, GROUP_LABELS, NULL_TEXT,
+    RESPONSIBILITY_TEXT, STANDARD_METHODS, VERDICT_WORDS, carbon_label, decimals_of,
+    display_name, fmt_number, headline_rows, identification_check, input_kind, is_number,
+    mass_balance_words, plain_words, property_keys, property_label, reference_temperature_c,
     settings_digest, unit_of, warnings_about_checks,
 )
-from dha.properties import PROPERTY_KEYS
-from dha.report.excel import carbon_number_matrix
-from dha.report.figures import plot_groups_by_carbon_number
 
 log = logging.getLogger("dha.report.pdf")
 
-# Page geometry [pt] (A4 = 210 mm x 297 mm = 595.28 pt x 841.89 pt).
+# Page geometry [pt] (A4 = 595.28 pt x 841.89 pt).
 PAGE_W_PT = 595.28
 PAGE_H_PT = 841.89
 MARGIN_X_PT = 40.0
-TOP_PT = 52.0          # content starts below the page header
-BOTTOM_PT = 50.0       # content ends above the footer
+TOP_PT = 48.0           # content starts below the page header
+BOTTOM_PT = 46.0        # content ends above the footer
 CONTENT_W_PT = PAGE_W_PT - 2 * MARGIN_X_PT
 
 #: Colours (our own choice).
@@ -60,570 +58,491 @@ HEADER_FILL = "#e3e8ee"
 ZEBRA_FILL = "#f5f6f8"
 VERDICT_COLOURS = {"pass": "#1f6b35", "fail": RED, "marginal": "#a85a00", None: GREY}
 
-#: Font sizes [pt] and line heights [pt].
-BODY_PT = 6.8
-SMALL_PT = 6.5
-ROW_H_PT = 8.8
-SMALL_ROW_H_PT = 8.6
-
-_RC = {
-    "pdf.fonttype": 42,          # TrueType: text stays extractable and searchable
-    "font.family": "sans-serif",
-    "font.sans-serif": ["DejaVu Sans"],
-    "axes.unicode_minus": False,
-}
-
-_MEASURE_LOCK = threading.Lock()
-
-
-# ----------------------------------------------------------------------------- text metrics
-@lru_cache(maxsize=8)
-def _font_path(bold: bool, mono: bool) -> str:
-    family = "DejaVu Sans Mono" if mono else "DejaVu Sans"
-    return findfont(FontProperties(family=family, weight="bold" if bold else "normal"))
-
-
-def text_width_pt(text: str, size_pt: float, bold: bool = False, mono: bool = False) -> float:
-    """Width of ``text`` set in DejaVu Sans (or Sans Mono) at ``size_pt`` [pt].
-
-    >>> round(text_width_pt("Hello world", 10.0), 1)
-    56.9
-    """
-    if not text:
-        return 0.0
-    return _width_at_100pt(text, bold, mono) * size_pt / 100.0
-
-
-@lru_cache(maxsize=65536)
-def _width_at_100pt(text: str, bold: bool, mono: bool) -> float:
-    """Width at 100 pt [pt], plus 1 % margin. PDF text is drawn from unhinted outlines, so widths
-    scale linearly with size; measuring at a small size would include hinting and be wrong."""
-    with _MEASURE_LOCK:
-        font = get_font(_font_path(bold, mono))
-        font.set_size(100.0, 72)  # at 72 dpi one pixel is one point
-        font.set_text(text, 0.0)
-        width, _height = font.get_width_height()
-    return width / 64.0 * 1.01  # FreeType 26.6 fixed point
-
-
-def fit_text(text: str, width_pt: float, size_pt: float, bold: bool = False,
-             mono: bool = False) -> str:
-    """``text`` shortened with "…" so that it fits ``width_pt``.
-
-    >>> fit_text("2,2,4-trimethylpentane", 40.0, 7.0)
-    '2,2,4-tri…'
-    """
-    if text_width_pt(text, size_pt, bold, mono) <= width_pt:
-        return text
-    lo, hi = 0, len(text)
-    while lo < hi:  # longest prefix p with width(p + "…") <= width
-        mid = (lo + hi + 1) // 2
-        if text_width_pt(text[:mid].rstrip() + "…", size_pt, bold, mono) <= width_pt:
-            lo = mid
-        else:
-            hi = mid - 1
-    return text[:lo].rstrip() + "…" if lo else "…"
-
-
-def wrap_text(text: str, width_pt: float, size_pt: float, bold: bool = False) -> list[str]:
-    """Greedy word wrap to ``width_pt``; a word longer than a line is cut between characters.
-
-    >>> wrap_text("aaa bbb ccc", text_width_pt("aaa bbb", 7.0) + 0.1, 7.0)
-    ['aaa bbb', 'ccc']
-    """
-    lines: list[str] = []
-    for para in str(text).split("\n"):
-        line = ""
-        for word in para.split():
-            trial = f"{line} {word}" if line else word
-            if text_width_pt(trial, size_pt, bold) <= width_pt:
-                line = trial
-                continue
-            if line:
-                lines.append(line)
-            while text_width_pt(word, size_pt, bold) > width_pt and len(word) > 1:
-                cut = len(word) - 1
-                while cut > 1 and text_width_pt(word[:cut], size_pt, bold) > width_pt:
-                    cut -= 1
-                lines.append(word[:cut])
-                word = word[cut:]
-            line = word
-        lines.append(line)
-    return lines or [""]
-
-
-# ----------------------------------------------------------------------------- layout engine
-@dataclass(frozen=True)
-class Column:
-    """A table column: title, width [pt], alignment ("left", "right", "center"), mono font."""
-
-    title: str
-    width_pt: float
-    align: str = "left"
-    mono: bool = False
-
-
-#: A table cell: text, or (text, {"color": ..., "bold": ...}).
-Cell = Any
-_Draw = Callable[[Any, Figure, float], None]
-
-
-class Flow:
-    """Places blocks top to bottom on A4 pages; starts a new page when a block does not fit.
-
-    Each page is a list of ``(y_pt, draw)``; ``draw(ax, fig, y_pt)`` draws on an axes whose data
-    coordinates are points from the top-left corner of the page.
-    """
-
-    def __init__(self) -> None:
-        self.pages: list[list[tuple[float, _Draw]]] = [[]]
-        self.y = TOP_PT
-
-    @property
-    def space_pt(self) -> float:
-        return PAGE_H_PT - BOTTOM_PT - self.y
-
-    def new_page(self) -> None:
-        self.pages.append([])
-        self.y = TOP_PT
-
-    def ensure(self, height_pt: float) -> None:
-        """Start a new page unless ``height_pt`` fits (a fresh page always takes the block)."""
-        if height_pt > self.space_pt and self.y > TOP_PT + 1e-6:
-            self.new_page()
-
-    def place(self, height_pt: float, draw: _Draw) -> None:
-        self.ensure(height_pt)
-        self.pages[-1].append((self.y, draw))
-        self.y += height_pt
-
-    def gap(self, height_pt: float = 6.0) -> None:
-        if self.y > TOP_PT + 1e-6:
-            self.y = min(self.y + height_pt, PAGE_H_PT - BOTTOM_PT)
-
-    # -- blocks ---------------------------------------------------------------------------
-    def heading(self, text: str, size_pt: float = 9.0, keep_pt: float = 40.0) -> None:
-        """A bold heading kept on the same page as at least ``keep_pt`` of what follows."""
-        height = size_pt * 1.7
-        self.ensure(height + keep_pt)
-        shown = fit_text(text, CONTENT_W_PT, size_pt, bold=True)
-
-        def draw(ax, fig, y):
-            ax.text(MARGIN_X_PT, y + size_pt * 1.15, shown, fontsize=size_pt,
-                    fontweight="bold", color=INK, va="baseline")
-            ax.plot([MARGIN_X_PT, MARGIN_X_PT + CONTENT_W_PT], [y + size_pt * 1.45] * 2,
-                    color=RULE, linewidth=0.5)
-
-        self.place(height, draw)
-
-    def paragraph(self, text: str, size_pt: float = BODY_PT, color: str = INK,
-                  bold: bool = False, x_pt: float = MARGIN_X_PT,
-                  width_pt: float = CONTENT_W_PT) -> None:
-        """Wrapped text; may continue on the next page between lines."""
-        line_h = size_pt * 1.35
-        for line in wrap_text(text, width_pt, size_pt, bold):
-            def draw(ax, fig, y, line=line):
-                ax.text(x_pt, y + size_pt, line, fontsize=size_pt, color=color,
-                        fontweight="bold" if bold else "normal", va="baseline")
-
-            self.place(line_h, draw)
-
-    def table(self, columns: Sequence[Column], rows: Sequence[Sequence[Cell]],
-              size_pt: float = BODY_PT, row_h_pt: float = ROW_H_PT, header: bool = True,
-              wrap_col: int | None = None, x_pt: float = MARGIN_X_PT,
-              bold_last: bool = False, zebra: bool = True) -> None:
-        """A table that splits between rows across pages, repeating its header."""
-        prepared = [prepare_row(columns, row, size_pt, wrap_col) for row in rows]
-        header_h = row_h_pt if header else 0.0
-        first_h = prepared[0][1] * row_h_pt if prepared else 0.0
-        self.ensure(header_h + first_h)
-        need_header = header
-        for i, (cells, n_lines) in enumerate(prepared):
-            h = n_lines * row_h_pt
-            if h > self.space_pt and self.y > TOP_PT + 1e-6:
-                self.new_page()
-                need_header = header
-            if need_header:
-                self.place(header_h, _header_draw(columns, size_pt, row_h_pt, x_pt))
-                need_header = False
-            self.place(h, _row_draw(columns, cells, size_pt, row_h_pt, x_pt,
-                                    shade=zebra and i % 2 == 1,
-                                    bold=bold_last and i == len(prepared) - 1))
-        if not prepared:
-            self.place(header_h, _header_draw(columns, size_pt, row_h_pt, x_pt))
-            self.paragraph("(none)", size_pt=size_pt, color=GREY, x_pt=x_pt + 3)
-
-    def side_by_side(self, parts: Sequence[tuple], size_pt: float = BODY_PT,
-                     row_h_pt: float = ROW_H_PT) -> None:
-        """Tables next to each other, each ``(x_pt, title, columns, rows[, wrap_col])``.
-
-        Kept on one page; if together they are taller than a page, they follow one another.
-        """
-        blocks = []
-        height = 0.0
-        for part in parts:
-            x_pt, title, columns, rows = part[:4]
-            wrap_col = part[4] if len(part) > 4 else None
-            prepared = [prepare_row(columns, row, size_pt, wrap_col) for row in rows]
-            h = row_h_pt * 1.3 + row_h_pt + sum(n for _c, n in prepared) * row_h_pt
-            height = max(height, h)
-            blocks.append((x_pt, title, columns, prepared))
-        if height > PAGE_H_PT - TOP_PT - BOTTOM_PT:
-            for part in parts:
-                x_pt, title, columns, rows = part[:4]
-                self.paragraph(title, size_pt=size_pt + 0.5, bold=True, x_pt=x_pt + 3)
-                self.table(columns, rows, size_pt=size_pt, row_h_pt=row_h_pt, x_pt=x_pt,
-                           wrap_col=part[4] if len(part) > 4 else None)
-            return
-
-        def draw(ax, fig, y):
-            for x_pt, title, columns, prepared in blocks:
-                width = sum(c.width_pt for c in columns)
-                ax.text(x_pt + 3, y + row_h_pt * 0.95,
-                        fit_text(title, width, size_pt + 0.5, bold=True),
-                        fontsize=size_pt + 0.5, fontweight="bold", color=INK, va="baseline")
-                yy = y + row_h_pt * 1.3
-                _header_draw(columns, size_pt, row_h_pt, x_pt)(ax, fig, yy)
-                yy += row_h_pt
-                for i, (cells, n) in enumerate(prepared):
-                    _row_draw(columns, cells, size_pt, row_h_pt, x_pt, shade=i % 2 == 1,
-                              bold=False)(ax, fig, yy)
-                    yy += n * row_h_pt
-
-        self.place(height, draw)
-
-    def listing(self, columns: Sequence[tuple[str, int, str]], rows: Sequence[Sequence[Any]],
-                size_pt: float = SMALL_PT, row_h_pt: float = SMALL_ROW_H_PT,
-                x_pt: float = MARGIN_X_PT) -> None:
-        """A long table set as fixed-width lines: one text per row (fast for 600 rows).
-
-        ``columns`` are ``(title, width in characters, "left" | "right")``. Cells are
-        shortened with "…" to their width; the header repeats on every page.
-        """
-        width_pt = listing_width_pt(columns, size_pt) + 6.0
-        header = format_listing_row(columns, [c[0] for c in columns])
-        lines = [format_listing_row(columns, row) for row in rows]
-
-        def header_draw(ax, fig, y):
-            ax.add_patch(Rectangle((x_pt, y), width_pt, row_h_pt, facecolor=HEADER_FILL,
-                                   edgecolor="none", zorder=1))
-            ax.text(x_pt + 3, y + row_h_pt * 0.5 + size_pt * 0.36, header, fontsize=size_pt,
-                    fontweight="bold", family="DejaVu Sans Mono", color=INK, va="baseline",
-                    zorder=3)
-            ax.plot([x_pt, x_pt + width_pt], [y + row_h_pt] * 2, color=RULE, linewidth=0.6,
-                    zorder=2)
-
-        self.ensure(2 * row_h_pt)
-        self.place(row_h_pt, header_draw)
-        for i, line in enumerate(lines):
-            if row_h_pt > self.space_pt:
-                self.new_page()
-                self.place(row_h_pt, header_draw)
-
-            def draw(ax, fig, y, line=line, shade=i % 2 == 1):
-                if shade:
-                    ax.add_patch(Rectangle((x_pt, y), width_pt, row_h_pt, facecolor=ZEBRA_FILL,
-                                           edgecolor="none", zorder=0.5))
-                ax.text(x_pt + 3, y + row_h_pt * 0.5 + size_pt * 0.36, line, fontsize=size_pt,
-                        family="DejaVu Sans Mono", color=INK, va="baseline", zorder=3)
-
-            self.place(row_h_pt, draw)
-        if not lines:
-            self.paragraph("(none)", size_pt=size_pt, color=GREY, x_pt=x_pt + 3)
-
-    def figure(self, height_pt: float, plot: Callable[[Any], Any]) -> None:
-        """A chart in a box of the content width: ``plot(axes)`` draws into it."""
-
-        def draw(ax, fig, y):
-            left, right, top, bottom = 44.0, 10.0, 28.0, 30.0
-            x0 = MARGIN_X_PT + left
-            w = CONTENT_W_PT - left - right
-            h = height_pt - top - bottom
-            chart = fig.add_axes([x0 / PAGE_W_PT, 1 - (y + top + h) / PAGE_H_PT,
-                                  w / PAGE_W_PT, h / PAGE_H_PT])
-            plot(chart)
-
-        self.place(height_pt, draw)
-
-    def custom(self, height_pt: float, draw: _Draw) -> None:
-        self.place(height_pt, draw)
-
-
-def listing_width_pt(columns: Sequence[tuple[str, int, str]], size_pt: float) -> float:
-    """Width [pt] of a fixed-width listing line (DejaVu Sans Mono: every glyph equally wide)."""
-    return text_width_pt("0" * sum(c[1] for c in columns), size_pt, mono=True)
-
-
-def format_listing_row(columns: Sequence[tuple[str, int, str]], row: Sequence[Any]) -> str:
-    """One listing line: each cell cut to width - 1 characters (with "…"), then aligned.
-
-    >>> format_listing_row([("#", 4, "right"), ("name", 8, "left")], [12, "cyclohexane"])
-    '  12 cycloh…'
-    """
-    parts = []
-    for (_title, n, align), value in zip(columns, row):
-        text = NULL_TEXT if value is None else str(value)
-        if len(text) > n - 1:
-            text = text[: max(0, n - 2)] + "…"
-        parts.append(text.rjust(n - 1) + " " if align == "right" else text.ljust(n))
-    return "".join(parts).rstrip()
-
-
-def _cell_parts(cell: Cell) -> tuple[str, dict]:
-    if isinstance(cell, tuple):
-        return str(cell[0]), dict(cell[1])
-    return (NULL_TEXT if cell is None else str(cell)), {}
-
-
-def prepare_row(columns: Sequence[Column], row: Sequence[Cell], size_pt: float,
-                wrap_col: int | None) -> tuple[list[tuple[list[str], dict]], int]:
-    """Cells as lists of lines that fit their column; returns them and the row's line count."""
-    cells = []
-    n_lines = 1
-    for j, col in enumerate(columns):
-        text, style = _cell_parts(row[j] if j < len(row) else "")
-        inner = col.width_pt - 6.0
-        bold = bool(style.get("bold"))
-        if wrap_col is not None and j == wrap_col:
-            lines = wrap_text(text, inner, size_pt, bold)
-        else:
-            lines = [fit_text(text, inner, size_pt, bold, col.mono)]
-        n_lines = max(n_lines, len(lines))
-        cells.append((lines, style))
-    return cells, n_lines
-
-
-def _header_draw(columns: Sequence[Column], size_pt: float, row_h_pt: float,
-                 x_pt: float) -> _Draw:
-    titles = [fit_text(c.title, c.width_pt - 6.0, size_pt, bold=True) for c in columns]
-    width = sum(c.width_pt for c in columns)
-
-    def draw(ax, fig, y):
-        ax.add_patch(Rectangle((x_pt, y), width, row_h_pt, facecolor=HEADER_FILL,
-                               edgecolor="none", zorder=1))
-        x = x_pt
-        for col, title in zip(columns, titles):
-            _put(ax, x, y, col, title, size_pt, row_h_pt, bold=True, color=INK)
-            x += col.width_pt
-        ax.plot([x_pt, x_pt + width], [y + row_h_pt] * 2, color=RULE, linewidth=0.6, zorder=2)
-
-    return draw
-
-
-def _row_draw(columns: Sequence[Column], cells, size_pt: float, row_h_pt: float, x_pt: float,
-              shade: bool, bold: bool) -> _Draw:
-    width = sum(c.width_pt for c in columns)
-    n_lines = max(len(lines) for lines, _s in cells) if cells else 1
-
-    def draw(ax, fig, y):
-        if shade:
-            ax.add_patch(Rectangle((x_pt, y), width, row_h_pt * n_lines, facecolor=ZEBRA_FILL,
-                                   edgecolor="none", zorder=0.5))
-        if bold:
-            ax.plot([x_pt, x_pt + width], [y] * 2, color=RULE, linewidth=0.5, zorder=2)
-        x = x_pt
-        for col, (lines, style) in zip(columns, cells):
-            for k, line in enumerate(lines):
-                _put(ax, x, y + k * row_h_pt, col, line, size_pt, row_h_pt,
-                     bold=bold or bool(style.get("bold")), color=style.get("color", INK))
-            x += col.width_pt
-
-    return draw
-
-
-def _put(ax, x, y, col: Column, text: str, size_pt: float, row_h_pt: float, bold: bool,
-         color: str) -> None:
-    if not text:
-        return
-    baseline = y + row_h_pt * 0.5 + size_pt * 0.36
-    if col.align == "right":
-        tx, ha = x + col.width_pt - 3.0, "right"
-    elif col.align == "center":
-        tx, ha = x + col.width_pt / 2, "center"
-    else:
-        tx, ha = x + 3.0, "left"
-    ax.text(tx, baseline, text, fontsize=size_pt, fontweight="bold" if bold else "normal",
-            color=color, ha=ha, va="baseline", zorder=3,
-            family="DejaVu Sans Mono" if col.mono else None)
-
-
-# ----------------------------------------------------------------------------- page content
+#: Font sizes [pt].
+BODY_PT = 7.6
+SMALL_PT = 6.9
+
+_FONT_LOCK = threading.Lock()
+
+
+@lru_cache(maxsize=1)
+def _fonts() -> tuple[str, str]:
+    """Register DejaVu Sans (shipped with matplotlib: covers ≤, −, ³, °, …) once; fall back to
+    Helvetica when the font file cannot be found."""
+    from reportlab.pdfbase import pdfmetrics
+    from reportlab.pdfbase.ttfonts import TTFont
+
+    with _FONT_LOCK:
+        try:
+            import matplotlib
+
+            folder = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
+            pdfmetrics.registerFont(TTFont("DhaSans", str(folder / "DejaVuSans.ttf")))
+            pdfmetrics.registerFont(TTFont("DhaSans-Bold", str(folder / "DejaVuSans-Bold.ttf")))
+            from reportlab.lib.fonts import addMapping
+
+            addMapping("DhaSans", 0, 0, "DhaSans")
+            addMapping("DhaSans", 1, 0, "DhaSans-Bold")
+            addMapping("DhaSans", 0, 1, "DhaSans")
+            addMapping("DhaSans", 1, 1, "DhaSans-Bold")
+            return "DhaSans", "DhaSans-Bold"
+        except Exception as err:  # pragma: no cover - a broken matplotlib install
+            log.warning("PDF: DejaVu Sans not found (%s); using Helvetica", err)
+            return "Helvetica", "Helvetica-Bold"
+
+
+@lru_cache(maxsize=1)
+def _styles() -> dict[str, Any]:
+    from reportlab.lib.colors import HexColor
+    from reportlab.lib.styles import ParagraphStyle
+
+    font, bold = _fonts()
+    base = ParagraphStyle("body", fontName=font, fontSize=BODY_PT, leading=BODY_PT * 1.28,
+                          textColor=HexColor(INK))
+    return {
+        "body": base,
+        "small": ParagraphStyle("small", parent=base, fontSize=SMALL_PT, leading=SMALL_PT * 1.25),
+        "cell": ParagraphStyle("cell", parent=base, fontSize=SMALL_PT, leading=SMALL_PT * 1.22),
+        "cell_r": ParagraphStyle("cell_r", parent=base, fontSize=SMALL_PT,
+                                 leading=SMALL_PT * 1.22, alignment=2),
+        "key": ParagraphStyle("key", parent=base, fontSize=SMALL_PT, leading=SMALL_PT * 1.22,
+                              textColor=HexColor(GREY)),
+        "grey": ParagraphStyle("grey", parent=base, fontSize=SMALL_PT, leading=SMALL_PT * 1.25,
+                               textColor=HexColor(GREY)),
+        "h1": ParagraphStyle("h1", parent=base, fontName=bold, fontSize=15, leading=18),
+        "h2": ParagraphStyle("h2", parent=base, fontName=bold, fontSize=9.2, leading=11.5,
+                             spaceBefore=6, spaceAfter=2.5, keepWithNext=1),
+        "h3": ParagraphStyle("h3", parent=base, fontName=bold, fontSize=7.8, leading=9.6,
+                             spaceBefore=2, spaceAfter=2, keepWithNext=1),
+        "h2split": ParagraphStyle("h2split", parent=base, fontName=bold, fontSize=9.2,
+                                  leading=11.5, spaceBefore=6, spaceAfter=2.5),
+        "warn": ParagraphStyle("warn", parent=base, fontSize=SMALL_PT, leading=SMALL_PT * 1.25,
+                               textColor=HexColor(RED)),
+    }
+
+
+def _p(text: Any, style: str = "cell", bold: bool = False, color: str | None = None):
+    """A Paragraph of plain text (escaped: the text is never read as markup)."""
+    from reportlab.platypus import Paragraph
+
+    t = escape(_text(text))
+    if bold:
+        t = f"<b>{t}</b>"
+    if color:
+        t = f'<font color="{color}">{t}</font>'
+    return Paragraph(t, _styles()[style])
+
+
+def _text(value: Any) -> str:
+    if value is None or (isinstance(value, float) and not is_number(value)):
+        return NULL_TEXT
+    if isinstance(value, (list, tuple)):
+        return "; ".join(_text(v) for v in value) if value else NULL_TEXT
+    return str(value)
+
+
 def _num(value: Any, decimals: int) -> str:
     return fmt_number(value, decimals)
 
 
+def _table(rows: Sequence[Sequence[Any]], widths: Sequence[float], *, header: bool = True,
+           align_right: Sequence[int] = (), zebra: bool = True, bold_last: bool = False,
+           font_pt: float = SMALL_PT, repeat: bool = True):
+    """A table of plain cells (str: drawn as strings, fast) or Paragraphs (wrapped)."""
+    from reportlab.lib.colors import HexColor
+    from reportlab.platypus import Table, TableStyle
+
+    font, bold = _fonts()
+    data = [list(r) for r in rows]
+    t = Table(data, colWidths=list(widths), repeatRows=1 if (header and repeat) else 0,
+              hAlign="LEFT")
+    cmds: list[tuple] = [
+        ("FONT", (0, 0), (-1, -1), font, font_pt, font_pt * 1.22),
+        ("TEXTCOLOR", (0, 0), (-1, -1), HexColor(INK)),
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("TOPPADDING", (0, 0), (-1, -1), 0.6),
+        ("BOTTOMPADDING", (0, 0), (-1, -1), 1.0),
+        ("LEFTPADDING", (0, 0), (-1, -1), 2.5),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 2.5),
+    ]
+    for c in align_right:
+        cmds.append(("ALIGN", (c, 0), (c, -1), "RIGHT"))
+    if header and data:
+        cmds += [("FONT", (0, 0), (-1, 0), bold, font_pt, font_pt * 1.22),
+                 ("BACKGROUND", (0, 0), (-1, 0), HexColor(HEADER_FILL)),
+                 ("LINEBELOW", (0, 0), (-1, 0), 0.6, HexColor(RULE))]
+    if zebra and len(data) > 2:
+        start = 1 if header else 0
+        cmds.append(("ROWBACKGROUNDS", (0, start), (-1, -1), [None, HexColor(ZEBRA_FILL)]))
+    if bold_last and data:
+        cmds += [("FONT", (0, -1), (-1, -1), bold, font_pt, font_pt * 1.22),
+                 ("LINEABOVE", (0, -1), (-1, -1), 0.5, HexColor(RULE))]
+    t.setStyle(TableStyle(cmds))
+    return t
+
+
+def _kv_table(pairs: Sequence[tuple[str, Any]], key_w: float = 84.0, columns: int = 2):
+    """Key/value pairs in ``columns`` column pairs; values wrap."""
+    per = CONTENT_W_PT / columns
+    if not pairs:
+        from reportlab.platypus import Spacer
+
+        return Spacer(1, 0)
+    rows = []
+    for i in range(0, len(pairs), columns):
+        row: list[Any] = []
+        for key, value in list(pairs[i:i + columns]) + [("", "")] * (columns - len(pairs[i:i + columns])):
+            row += [_p(key, "key"), _p(value) if key else ""]
+        rows.append(row)
+    widths = [key_w, per - key_w] * columns
+    return _table(rows, widths, header=False, zebra=False)
+
+
+def _image(fig, width_pt: float, height_pt: float):
+    """A matplotlib Figure as an embedded PNG (200 dpi) of the given size."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from reportlab.platypus import Image
+
+    buf = io.BytesIO()
+    FigureCanvasAgg(fig)
+    fig.savefig(buf, format="png", dpi=200)
+    buf.seek(0)
+    return Image(buf, width=width_pt, height=height_pt)
+
+
+# ----------------------------------------------------------------------------- page 1
 def _sample_id(result: dict) -> str:
-    sample = result.get("sample") or {}
-    value = sample.get("id")
+    value = (result.get("sample") or {}).get("id")
     return NULL_TEXT if value in (None, "") else str(value)
 
 
-def _title_block(flow: Flow, result: dict) -> None:
-    def draw(ax, fig, y):
-        ax.text(MARGIN_X_PT, y + 17, "Certificate draft", fontsize=16, fontweight="bold",
-                color=INK, va="baseline")
-        ax.text(MARGIN_X_PT, y + 30, fit_text("Petrol composition by detailed hydrocarbon analysis "
-                                              "(DHA)", 300, 8),
-                fontsize=8, color=GREY, va="baseline")
-        bx, bw = MARGIN_X_PT + CONTENT_W_PT - 205, 205
-        ax.add_patch(Rectangle((bx, y + 2), bw, 34, facecolor="#fbeaea", edgecolor=RED,
-                               linewidth=1.4, zorder=1))
-        ax.text(bx + bw / 2, y + 18, "DRAFT — not released", fontsize=13, fontweight="bold",
-                color=RED, ha="center", va="baseline", zorder=2)
-        ax.text(bx + bw / 2, y + 30, "not valid until reviewed and released", fontsize=7,
-                color=RED, ha="center", va="baseline", zorder=2)
-
-    flow.custom(44, draw)
+def _settings_section(result: dict, name: str) -> dict:
+    value = (result.get("settings") or {}).get(name)
+    return value if isinstance(value, dict) else {}
 
 
-def _identification(flow: Flow, result: dict) -> None:
+def certificate_number(result: dict) -> str:
+    """The certificate number from ``[report] certificate_number`` with its placeholders filled,
+    or "" when the setting is empty.
+
+    >>> certificate_number({"settings": {"report": {"certificate_number": "L2/{date}/{tank}"}},
+    ...                     "sample": {"tank": "T-14", "injection_time": "2026-11-30 07:42"}})
+    'L2/20261130/T-14'
+    """
+    pattern = str(_settings_section(result, "report").get("certificate_number") or "")
+    if not pattern:
+        return ""
+    sample = result.get("sample") or {}
+    when = str(sample.get("injection_time") or result.get("generated_at") or "")
+    date = "".join(ch for ch in when[:10] if ch.isdigit())
+
+    class _Fill(dict):
+        def __missing__(self, key):
+            return ""
+
+    fields = _Fill({str(k): ("" if v is None else str(v)) for k, v in sample.items()})
+    fields.update(sample_id=str(sample.get("id") or ""), date=date,
+                  stem=str(sample.get("output_stem") or sample.get("id") or ""))
+    try:
+        return pattern.format_map(fields)
+    except (ValueError, IndexError):
+        return pattern
+
+
+def _lab_block(result: dict) -> list:
+    lab = _settings_section(result, "lab")
+    out = []
+    if lab.get("name"):
+        out.append(_p(lab["name"], "body", bold=True))
+    line = "; ".join(str(lab[k]) for k in ("address", "accreditation") if lab.get(k))
+    if line:
+        out.append(_p(line, "grey"))
+    return out
+
+
+def _title(result: dict) -> list:
+    from reportlab.lib.colors import HexColor
+    from reportlab.platypus import Paragraph, Table, TableStyle
+
+    st = _styles()
+    font, bold = _fonts()
+    kind = input_kind(result)
+    sub = ("Petrol composition by detailed hydrocarbon analysis (capillary GC-FID)"
+           if kind == "peak table" else
+           "Petrol composition from a COMPOSITION TABLE (not measured here by GC)")
+    left = [Paragraph("Certificate draft", st["h1"]), _p(sub, "grey")]
+    number = certificate_number(result)
+    left.append(_p(f"Certificate no.: {number or '______________________'}", "body"))
+    box = Table([[Paragraph(f'<font name="{bold}" size="13" color="{RED}">DRAFT — not released'
+                            '</font>', st["body"])],
+                 [_p("not valid until reviewed and released", "small", color=RED)]],
+                colWidths=[190])
+    box.setStyle(TableStyle([("BOX", (0, 0), (-1, -1), 1.3, HexColor(RED)),
+                             ("BACKGROUND", (0, 0), (-1, -1), HexColor("#fbeaea")),
+                             ("ALIGN", (0, 0), (-1, -1), "CENTER"),
+                             ("TOPPADDING", (0, 0), (-1, -1), 3)]))
+    outer = Table([[left, box]], colWidths=[CONTENT_W_PT - 196, 196])
+    outer.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+                               ("LEFTPADDING", (0, 0), (-1, -1), 0),
+                               ("RIGHTPADDING", (0, 0), (-1, -1), 0)]))
+    return _lab_block(result) + [outer]
+
+
+def _sample_block(result: dict) -> list:
     sample = result.get("sample") or {}
     library = result.get("library") or {}
     tool = result.get("tool") or {}
-    fields: list[tuple[str, Any]] = [("sample id", sample.get("id"))]
-    fields += [(k.replace("_", " "), sample[k]) for k in sorted(sample, key=str)
-               if k not in ("id", "source_file") and not str(k).endswith("sha256")]
-    hashes = [(str(k).replace("_", " "), sample[k]) for k in sorted(sample, key=str)
-              if str(k).endswith("sha256")]
-    fields += [("generated at", result.get("generated_at")),
-               ("tool version", tool.get("version")),
-               ("library version", library.get("version"))]
-    specs = sorted({str(c.get("spec")) for c in result.get("checks") or [] if c.get("spec")})
-    fields.append(("specification", ", ".join(specs) if specs else NULL_TEXT))
-    half = CONTENT_W_PT / 2
-    kw, vw = 78.0, half - 78.0
-    cols = [Column("", kw), Column("", vw), Column("", kw), Column("", vw)]
-    rows = []
-    for i in range(0, len(fields), 2):
-        pair = fields[i:i + 2] + [("", "")] * (2 - len(fields[i:i + 2]))
-        row: list[Cell] = []
-        for key, value in pair:
-            row.append((key, {"color": GREY}))
-            row.append(_text_value(value) if key else "")
-        rows.append(row)
-    flow.heading("Sample and run")
-    flow.table(cols, rows, header=False)
-    flow.table([Column("", kw), Column("", CONTENT_W_PT - kw)],
-               [[("source file", {"color": GREY}), _text_value(sample.get("source_file"))]],
-               header=False, zebra=False, wrap_col=1)
-    long_cols = [Column("", kw), Column("", CONTENT_W_PT - kw, mono=True)]
-    flow.table(long_cols, [[(k, {"color": GREY}), _text_value(v)] for k, v in hashes] + [
-        [("library sha256", {"color": GREY}), _text_value(library.get("sha256"))],
-        [("settings sha256", {"color": GREY}), settings_digest(result.get("settings"))],
-    ], header=False, zebra=False)
+    kind = input_kind(result)
+    specs = sorted({str(c.get("spec")) for c in result.get("checks") or []
+                    if c.get("spec") and c.get("property") != "identification"})
+    ref_t = reference_temperature_c(result)
+    skip = {"id", "source_file", "instrument", "method", "notes", "output_stem", "input_kind"}
+    pairs: list[tuple[str, Any]] = [("sample id", sample.get("id"))]
+    for k in ("tank", "vial", "injection", "injection_time", "operator", "site", "lab"):
+        if sample.get(k) not in (None, ""):
+            pairs.append((k.replace("_", " "), sample.get(k)))
+    for k in sorted(sample, key=str):
+        if k in skip or str(k).endswith("sha256") or k in dict(pairs) or sample.get(k) in (None, ""):
+            continue
+        if k in ("tank", "vial", "injection", "injection_time", "operator", "site", "lab"):
+            continue
+        pairs.append((str(k).replace("_", " "), sample[k]))
+    pairs += [("reference temperature", f"{ref_t:g} °C for densities and volume %"),
+              ("specification", ", ".join(specs) if specs else "none applied"),
+              ("result made", result.get("generated_at")),
+              ("dha / library", f"{_text(tool.get('version'))} / {_text(library.get('version'))}")]
+    full = [
+        ("input", f"{kind}: {_text(sample.get('source_file'))}"
+         + (" — amounts as given by the sender, not measured here" if kind == "composition table"
+            else "")),
+        ("instrument", sample.get("instrument") if kind == "peak table" else
+         sample.get("instrument") or "none (composition table)"),
+        ("method", sample.get("method") if kind == "peak table" else
+         sample.get("method") or "none (composition table)"),
+    ]
+    notes = [str(n).lstrip("#").strip() for n in sample.get("notes") or [] if str(n).strip()]
+    if notes:
+        full.append(("notes in the file header", " / ".join(notes)))
+    hashes = [("library sha256", library.get("sha256"))]
+    out = [_p("Sample and run", "h2"), _kv_table(pairs, columns=2),
+           _kv_table(full, key_w=96, columns=1),
+           _kv_table([(k, v) for k, v in hashes if v], key_w=96, columns=1)]
+    return out
 
 
-def _text_value(value: Any) -> str:
-    if value is None or (isinstance(value, float) and not is_number(value)):
-        return NULL_TEXT
-    if isinstance(value, (list, tuple)):
-        return "; ".join(_text_value(v) for v in value) if value else NULL_TEXT
-    return str(value)
+_IDENT_WORDS = {"pass": "passed", "marginal": "marginal", "fail": "FAILED"}
+_VERDICT_SENTENCE = {
+    "pass": "the peaks were identified reliably",
+    "marginal": "the identification is uncertain in places: check the peaks listed",
+    "fail": "the identification is NOT reliable: do not release before the peaks are checked",
+}
 
 
-#: Short labels for extra properties listed in the narrow composition column of page 1.
-_SHORT_LABELS = {"rvp_psi": "RVP", "vli": "VLI"}
+def _identification_block(result: dict) -> list:
+    out = [_p("Identification and mass balance", "h2")]
+    chk = identification_check(result)
+    if chk is not None:
+        verdict = chk.get("verdict")
+        score = chk.get("value")
+        head = (f"Identification check: {_IDENT_WORDS.get(verdict, str(verdict))}"
+                + (f" (score {score:.2f} of 1)" if is_number(score) else "")
+                + f" — {_VERDICT_SENTENCE.get(verdict, '')}")
+        out.append(_p(head, "body", bold=True, color=VERDICT_COLOURS.get(verdict, INK)))
+        for reason in chk.get("reasons") or []:
+            out.append(_p(f"• {plain_words(reason)}", "small"))
+    elif input_kind(result) == "composition table":
+        out.append(_p("No identification: the components were named in the composition table.",
+                      "body"))
+    out.append(_p(f"Mass balance: {mass_balance_words(result)}", "body"))
+    return out
 
 
-def _results(flow: Flow, result: dict) -> None:
+_WORST = {"fail": 3, "marginal": 2, "pass": 1, None: 0}
+
+
+def _limit_text(checks: list[dict], decimals: int) -> str:
+    lo = [c.get("limit") for c in checks if c.get("kind") == "min" and is_number(c.get("limit"))]
+    hi = [c.get("limit") for c in checks if c.get("kind") == "max" and is_number(c.get("limit"))]
+    if lo and hi:
+        return f"{max(lo):.{decimals}f} – {min(hi):.{decimals}f}"
+    if lo:
+        return f"≥ {max(lo):.{decimals}f}"
+    if hi:
+        return f"≤ {min(hi):.{decimals}f}"
+    return ""
+
+
+def result_rows(result: dict) -> list[dict]:
+    """One row per reported quantity: composition values, then calculated properties, then any
+    other checked quantity; each with its checks (limits, verdict) and the method it stands for.
+    """
     props = result.get("properties") or {}
     unc = result.get("uncertainty") or {}
-    left_cols = [Column("quantity", 78), Column("value", 42, "right"), Column("unit", 38)]
-    left_rows = [[label, _num(value, 2), unit] for _k, label, value, unit in headline_rows(result)]
-    right_cols = [Column("property", 168), Column("value", 50, "right"),
-                  Column("std. unc.", 50, "right"), Column("unit", 44)]
-    right_rows = []
-    keys = property_keys(result)
-    main_keys = [k for k in keys if k in PROPERTY_KEYS]
-    extra_keys = [k for k in keys if k not in PROPERTY_KEYS]
-    if extra_keys:   # further estimates go under the composition, where page 1 has room
-        left_rows.append(["further estimates", "", ""])
-        for key in extra_keys:
-            value = props.get(key)
-            left_rows.append([_SHORT_LABELS.get(key, property_label(key)),
-                              _num(value, decimals_of(key)), unit_of(key)])
-    for key in main_keys:
-        d = decimals_of(key)
+    ref_t = reference_temperature_c(result)
+    kind = input_kind(result)
+    checks = [c for c in result.get("checks") or [] if c.get("property") != "identification"]
+    by_prop: dict[str, list[dict]] = {}
+    for c in checks:
+        by_prop.setdefault(str(c.get("property")), []).append(c)
+    source = "DHA (this analysis)" if kind == "peak table" else "composition table (as sent)"
+    rows: list[dict] = []
+    for key, label, value, unit in headline_rows(result):
+        rows.append({"key": key, "label": label, "value": value, "unit": unit,
+                     "decimals": 2, "unc": None, "method": source, "section": "composition"})
+    done = {r["key"] for r in rows}
+    for key in ("ethanol_vol_pct", "methanol_vol_pct", "ethers_c5plus_vol_pct"):
+        if key in by_prop:
+            rows.append({"key": key, "label": property_label(key),
+                         "value": by_prop[key][0].get("value"), "unit": unit_of(key),
+                         "decimals": decimals_of(key), "unc": None, "method": source,
+                         "section": "composition"})
+            done.add(key)
+    for key in property_keys(result):
+        if key not in props and key not in STANDARD_METHODS:
+            continue
+        label = f"density at {ref_t:g} °C" if key == "density_kg_m3" else property_label(key)
         value = props.get(key)
-        right_rows.append([property_label(key), _num(value, d),
-                           _num(unc.get(key), d) if is_number(value) else NULL_TEXT,
-                           unit_of(key)])
-    flow.heading("Results", keep_pt=120)
-    right_x = MARGIN_X_PT + CONTENT_W_PT - sum(c.width_pt for c in right_cols)
-    flow.side_by_side([
-        (MARGIN_X_PT, "Composition (from the DHA)", left_cols, left_rows),
-        (right_x, "Calculated properties (estimates)", right_cols, right_rows),
-    ])
+        rows.append({"key": key, "label": label, "value": value, "unit": unit_of(key),
+                     "decimals": decimals_of(key),
+                     "unc": unc.get(key) if is_number(value) else None,
+                     "method": STANDARD_METHODS.get(key, "-"), "section": "calculated"})
+        done.add(key)
+    for key, chks in by_prop.items():
+        if key not in done:
+            rows.append({"key": key, "label": property_label(key), "value": chks[0].get("value"),
+                         "unit": unit_of(key) or _text(chks[0].get("unit") or ""),
+                         "decimals": decimals_of(key), "unc": chks[0].get("uncertainty"),
+                         "method": "-", "section": "other"})
+    for r in rows:
+        chks = by_prop.get(r["key"], [])
+        r["limit"] = _limit_text(chks, r["decimals"])
+        verdicts = [c.get("verdict") for c in chks]
+        r["verdict"] = max(verdicts, key=lambda v: _WORST.get(v, 0)) if verdicts else None
+        if r["unc"] is None and chks and is_number(chks[0].get("uncertainty")):
+            r["unc"] = chks[0].get("uncertainty")
+    return rows
 
 
-def _checks(flow: Flow, result: dict) -> None:
-    checks = result.get("checks") or []
+def _results_block(result: dict) -> list:
+    from reportlab.lib.colors import HexColor
+
+    checks = [c for c in result.get("checks") or [] if c.get("property") != "identification"]
     specs = sorted({str(c.get("spec")) for c in checks if c.get("spec")})
-    title = "Specification check" + (f": {', '.join(specs)}" if specs else "")
-    flow.heading(title, keep_pt=30)
-    multi = len(specs) > 1
-    cols = [Column("requirement", 125 if multi else 175), Column("unit", 40),
-            Column("kind", 30, "center"), Column("limit", 45, "right"),
-            Column("value", 45, "right"), Column("std. unc.", 45, "right"),
-            Column("verdict", 125)]
-    if multi:
-        cols.insert(0, Column("spec", 50))
-    rows = []
-    unc = result.get("uncertainty") or {}
-    for chk in checks:
-        prop = str(chk.get("property", ""))
-        d = decimals_of(prop)
-        verdict = chk.get("verdict")
-        u = chk.get("uncertainty", unc.get(prop))
-        row: list[Cell] = [property_label(prop), unit_of(prop) or str(chk.get("unit") or ""),
-                           str(chk.get("kind") or NULL_TEXT), _num(chk.get("limit"), d),
-                           _num(chk.get("value"), d),
-                           _num(u, d) if is_number(chk.get("value")) else NULL_TEXT,
-                           (VERDICT_WORDS.get(verdict, str(verdict)),
-                            {"color": VERDICT_COLOURS.get(verdict, INK),
-                             "bold": verdict in ("fail", "marginal")})]
-        if multi:
-            row.insert(0, str(chk.get("spec") or NULL_TEXT))
-        rows.append(row)
-    flow.table(cols, rows)
+    ref_t = reference_temperature_c(result)
+    title = "Results" + (f" and specification check ({', '.join(specs)})" if specs else
+                         " (no specification applied)")
+    rows = [["quantity", "result", "std. unc.", "unit", "limit", "verdict", "stands in for"]]
+    marks = []
+    section = None
+    sections = {"composition": (f"Composition (volume % at {ref_t:g} °C)"
+                                if input_kind(result) == "peak table" else
+                                f"Composition from the composition table (volume % at "
+                                f"{ref_t:g} °C)"),
+                "calculated": "Calculated properties: estimates from the composition, not "
+                              "results of the test methods named",
+                "other": "Other checked quantities"}
+    heads = []
+    for r in result_rows(result):
+        if r["section"] != section:
+            section = r["section"]
+            heads.append(len(rows))
+            rows.append([sections[section], "", "", "", "", "", ""])
+        d = r["decimals"]
+        rows.append([_p(r["label"]) if len(r["label"]) > 38 else r["label"],
+                     _num(r["value"], d), _num(r["unc"], d) if r["unc"] is not None else "",
+                     r["unit"], r["limit"],
+                     VERDICT_WORDS.get(r["verdict"], "") if r["verdict"] else "",
+                     _p(r["method"]) if len(r["method"]) > 30 else r["method"]])
+        marks.append((len(rows) - 1, r["verdict"]))
+    widths = [128, 38, 38, 34, 50, 122, 0.0]
+    widths[-1] = CONTENT_W_PT - sum(widths[:-1])
+    tbl = _table(rows, widths, align_right=(1, 2, 4), zebra=False)
+    _font, bold = _fonts()
+    for i in heads:
+        tbl.setStyle([("SPAN", (0, i), (-1, i)), ("FONT", (0, i), (-1, i), bold, SMALL_PT,
+                                                  SMALL_PT * 1.22),
+                      ("BACKGROUND", (0, i), (-1, i), HexColor(ZEBRA_FILL))])
+    for i, verdict in marks:
+        if verdict:
+            tbl.setStyle([("TEXTCOLOR", (5, i), (5, i), HexColor(VERDICT_COLOURS.get(verdict, INK)))])
+            if verdict == "fail":
+                tbl.setStyle([("FONT", (5, i), (5, i), bold, SMALL_PT, SMALL_PT * 1.22)])
+    out = [_p(title, "h2split"), tbl]
     for text in warnings_about_checks(result):
-        flow.paragraph(text, size_pt=6.3, color=RED)
-    if not checks:
-        return
-    flow.paragraph("Verdicts: pass = inside the limit by more than the expanded uncertainty "
-                   "U = 2 × std. unc.; FAIL = outside by more than U; within uncertainty of the "
-                   "limit = |value − limit| ≤ U, so the result alone cannot decide (after EN ISO "
-                   "4259). Where no uncertainty is given, U = 0.", size_pt=6.3, color=GREY)
+        out.append(_p(plain_words(text), "warn"))
+    if checks:
+        out.append(_p("Verdicts: pass = inside the limit by more than the expanded uncertainty "
+                      "U = 2 × std. unc.; FAIL = outside by more than U; within uncertainty of "
+                      "the limit = |value − limit| ≤ U, so the result alone cannot decide (after "
+                      "EN ISO 4259). Where no uncertainty is given, U = 0.", "grey"))
+    return out
 
 
-def _responsibility(flow: Flow) -> None:
-    size = 7.0
-    lines = sum(len(wrap_text(p, CONTENT_W_PT, size)) for p in RESPONSIBILITY_TEXT)
-    block_h = 17 + lines * size * 1.35 + 3 * len(RESPONSIBILITY_TEXT) + 62
-    flow.ensure(block_h)  # text and signature block stay together
-    flow.heading("Read before use", keep_pt=block_h - 17)
+def _points_to_check(result: dict, limit: int = 8) -> list:
+    warnings = [plain_words(w) for w in result.get("warnings") or []]
+    if not warnings:
+        return []
+    out = [_p(f"Points to check ({len(warnings)}; all are listed after the components)", "h2")]
+    for w in warnings[:limit]:
+        out.append(_p(f"• {w}", "small"))
+    if len(warnings) > limit:
+        out.append(_p(f"… and {len(warnings) - limit} more: see the list of warnings.", "grey"))
+    return out
+
+
+@lru_cache(maxsize=1)
+def page1_foot_pt() -> float:
+    """Height of the responsibility text and signature block at the foot of page 1 [pt]."""
+    from reportlab.platypus import Paragraph
+
+    st = _styles()
+    h = Paragraph("Read before use", st["h3"]).wrap(CONTENT_W_PT, 100)[1] + 5
     for para in RESPONSIBILITY_TEXT:
-        flow.paragraph(para, size_pt=size)
-        flow.gap(3)
-
-    def draw(ax, fig, y):
-        labels = ("reviewed by (name, signature)", "released by (name, signature)", "date")
-        widths = (CONTENT_W_PT * 0.38, CONTENT_W_PT * 0.38, CONTENT_W_PT * 0.24)
-        x = MARGIN_X_PT
-        for label, w in zip(labels, widths):
-            ax.add_patch(Rectangle((x, y + 4), w - 8, 44, facecolor="none", edgecolor=RULE,
-                                   linewidth=0.7))
-            ax.text(x + 4, y + 13, label, fontsize=6.5, color=GREY, va="baseline")
-            x += w
-
-    flow.custom(54, draw)
+        h += Paragraph(escape(para), st["small"]).wrap(CONTENT_W_PT, 200)[1] + 2
+    return h + 4 + 34 + 4
 
 
-def _groups_page(flow: Flow, result: dict) -> None:
+def _draw_page1_foot(canvas) -> None:
+    """Responsibility text and the signature block, at the foot of page 1 (always there)."""
+    from reportlab.lib.colors import HexColor
+    from reportlab.platypus import Paragraph
+
+    st = _styles()
+    font, bold = _fonts()
+    top = BOTTOM_PT + page1_foot_pt()
+    canvas.setStrokeColor(HexColor(RULE))
+    canvas.setLineWidth(0.6)
+    canvas.line(MARGIN_X_PT, top, PAGE_W_PT - MARGIN_X_PT, top)
+    y = top - 4
+    head = Paragraph("Read before use", st["h3"])
+    _w, h = head.wrap(CONTENT_W_PT, 100)
+    head.drawOn(canvas, MARGIN_X_PT, y - h)
+    y -= h + 1
+    for para in RESPONSIBILITY_TEXT:
+        p = Paragraph(escape(para), st["small"])
+        _w, h = p.wrap(CONTENT_W_PT, 200)
+        p.drawOn(canvas, MARGIN_X_PT, y - h)
+        y -= h + 2
+    labels = ("reviewed by (name, signature)", "released by (name, signature)", "date")
+    widths = (CONTENT_W_PT * 0.38, CONTENT_W_PT * 0.38, CONTENT_W_PT * 0.24)
+    x = MARGIN_X_PT
+    box_h = 34
+    yb = max(BOTTOM_PT + 2, y - 4 - box_h)
+    canvas.setFont(font, 6.5)
+    for label, w in zip(labels, widths):
+        canvas.setStrokeColor(HexColor(RULE))
+        canvas.rect(x, yb, w - 8, box_h, stroke=1, fill=0)
+        canvas.setFillColor(HexColor(GREY))
+        canvas.drawString(x + 4, yb + box_h - 9, label)
+        x += w
+
+
+# ----------------------------------------------------------------------------- page 2
+def _groups_block(result: dict) -> list:
     totals = result.get("totals") or {}
+    ref_t = reference_temperature_c(result)
     bases = list(BASIS_UNITS)
-    g_cols = [Column("group", 88)] + [Column(BASIS_UNITS[b], 52, "right") for b in bases]
-    g_rows = []
+    rows = [["group"] + [BASIS_UNITS[b] for b in bases]]
     sums: dict[str, float | None] = dict.fromkeys(bases, None)
     for g in GROUP_KEYS:
         row = [GROUP_LABELS[g]]
@@ -632,222 +551,377 @@ def _groups_page(flow: Flow, result: dict) -> None:
             row.append(_num(v, 2))
             if is_number(v):
                 sums[b] = (sums[b] or 0.0) + v
-        g_rows.append(row)
-    g_rows.append([("total", {"bold": True})] + [(_num(sums[b], 2), {"bold": True}) for b in bases])
-    o_cols = [Column("oxygenate", 112), Column("CAS", 54), Column("mass %", 44, "right"),
-              Column("% v/v", 44, "right")]
-    o_rows = [[str(o.get("name") or NULL_TEXT), str(o.get("cas") or NULL_TEXT),
-               _num(o.get("mass_pct"), 2), _num(o.get("vol_pct"), 2)]
-              for o in result.get("oxygenates") or []]
-    o_rows.append([("oxygen", {"bold": True}), "", (_num(result.get("oxygen_mass_pct"), 2),
-                                                    {"bold": True}), ""])
+        rows.append(row)
+    rows.append(["total"] + [_num(sums[b], 2) for b in bases])
+    gt = _table(rows, [74, 44, 44, 44], align_right=(1, 2, 3), bold_last=True)
+    orows = [["oxygenate, aromatics", "CAS", "mass %", "% v/v"]]
+    for o in result.get("oxygenates") or []:
+        orows.append([_p(display_name(o.get("name"), o.get("cas"))), _text(o.get("cas")),
+                      _num(o.get("mass_pct"), 2), _num(o.get("vol_pct"), 2)])
+    orows.append(["oxygen (element)", "", _num(result.get("oxygen_mass_pct"), 2), ""])
     detail = result.get("aromatics_detail")
     if not isinstance(detail, dict) or not detail:
         detail = {"benzene": result.get("benzene") or {}}
     for key, value in detail.items():
         value = value if isinstance(value, dict) else {}
-        o_rows.append([(AROMATICS_DETAIL_LABELS.get(key, key.replace("_", " ")), {"bold": True}),
-                       "71-43-2" if key == "benzene" else "",
-                       (_num(value.get("mass_pct"), 2), {"bold": True}),
-                       (_num(value.get("vol_pct"), 2), {"bold": True})])
-    flow.heading("Group totals", keep_pt=120)
-    o_x = MARGIN_X_PT + CONTENT_W_PT - sum(c.width_pt for c in o_cols)
-    flow.side_by_side([(MARGIN_X_PT, "PIONA and oxygenates", g_cols, g_rows),
-                       (o_x, "Oxygenates, oxygen and aromatics", o_cols, o_rows)])
-    flow.gap(8)
-    flow.heading("Group amounts by carbon number (% v/v)", keep_pt=220)
-    flow.figure(220, lambda ax: plot_groups_by_carbon_number(result, ax, basis="vol_pct"))
+        orows.append([AROMATICS_DETAIL_LABELS.get(key, key.replace("_", " ")),
+                      "71-43-2" if key == "benzene" else "",
+                      _num(value.get("mass_pct"), 2), _num(value.get("vol_pct"), 2)])
+    ow = [CONTENT_W_PT - 206 - 10 - 46 - 40 - 40, 46, 40, 40]
+    ot = _table(orows, ow, align_right=(2, 3))
+    from reportlab.platypus import Table, TableStyle
+
+    outer = Table([[[_p("PIONA and oxygenates", "h3"), gt],
+                    [_p("Oxygenates (trade names in brackets), oxygen and aromatics", "h3"), ot]]],
+                  colWidths=[216, CONTENT_W_PT - 216])
+    outer.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+                               ("LEFTPADDING", (0, 0), (-1, -1), 0),
+                               ("RIGHTPADDING", (0, 0), (-1, -1), 0)]))
+    return [_p("Group totals", "h2"), outer,
+            _p(f"Volume % at {ref_t:g} °C. Groups: n-paraffins, isoparaffins, olefins, "
+               "naphthenes, aromatics (PIONA), oxygenates and unidentified peaks.", "grey")]
+
+
+def _carbon_block(result: dict) -> list:
+    from dha.report.excel import carbon_number_matrix
+    from dha.report.figures import groups_by_carbon_number_figure
+
     order, cells = carbon_number_matrix(result, "vol_pct")
+    out = [_p("Group amounts by carbon number (% v/v)", "h2")]
+    fig = groups_by_carbon_number_figure(result, basis="vol_pct", size_in=(7.2, 2.6))
+    out.append(_image(fig, CONTENT_W_PT, CONTENT_W_PT * 2.6 / 7.2))
+    if not order:
+        out.append(_p("no carbon-number data in this result", "grey"))
+        return out
     groups = [g for g in GROUP_KEYS if any(g in cells[cn] for cn in order)]
-    if order:
-        flow.gap(4)
-        flow.heading("Carbon number × group (% v/v)")
-        width_left = CONTENT_W_PT - 52 - 52
-        cw = width_left / max(1, len(groups))
-        cols = ([Column("carbon no.", 52)]
-                + [Column(GROUP_LABELS.get(g, str(g)), cw, "right") for g in groups]
-                + [Column("total", 52, "right")])
-        rows = []
-        for cn in order:
-            vals = [cells[cn].get(g) for g in groups]
-            rows.append([carbon_label(cn)] + [_num(v, 2) if v else "" for v in vals]
-                        + [_num(sum(v for v in vals if v is not None), 2)])
-        col_tot = [sum(cells[cn].get(g, 0.0) for cn in order) for g in groups]
-        rows.append(["total"] + [_num(v, 2) for v in col_tot] + [_num(sum(col_tot), 2)])
-        flow.table(cols, rows, size_pt=SMALL_PT + 0.3, row_h_pt=SMALL_ROW_H_PT, bold_last=True)
-    balance = result.get("mass_balance")
-    if isinstance(balance, dict) and balance:
-        columns, rows, scalars = mapping_table(balance)
-        flow.gap(4)
-        flow.heading("Mass balance of the peak table", keep_pt=60)
-        if columns:
-            cw = min(70.0, (CONTENT_W_PT - 150 - 40) / len(columns))
-            cols = ([Column("quantity", 150), Column("unit", 40)]
-                    + [Column(c.replace("_", " "), cw, "right") for c in columns])
-            flow.table(cols, [[label, unit] + [_text_or_num(v) if v is not None else ""
-                                               for v in values]
-                              for label, unit, values in rows],
-                       size_pt=SMALL_PT + 0.3, row_h_pt=SMALL_ROW_H_PT)
-        if scalars:
-            flow.gap(3)
-            cols = [Column("quantity", 150), Column("unit", 40), Column("value", 70, "right")]
-            flow.table(cols, [[label, unit, _text_or_num(v)] for label, unit, v in scalars],
-                       size_pt=SMALL_PT + 0.3, row_h_pt=SMALL_ROW_H_PT, header=False)
+    rows = [["carbon no."] + [GROUP_LABELS.get(g, str(g)) for g in groups] + ["total"]]
+    for cn in order:
+        vals = [cells[cn].get(g) for g in groups]
+        rows.append([carbon_label(cn)] + [_num(v, 2) if v else "" for v in vals]
+                    + [_num(sum(v for v in vals if v is not None), 2)])
+    col_tot = [sum(cells[cn].get(g, 0.0) for cn in order) for g in groups]
+    rows.append(["total"] + [_num(v, 2) for v in col_tot] + [_num(sum(col_tot), 2)])
+    cw = (CONTENT_W_PT - 100) / max(1, len(groups))
+    out.append(_table(rows, [50] + [cw] * len(groups) + [50],
+                      align_right=tuple(range(1, len(groups) + 2)), bold_last=True))
+    out.append(_p("≤C3 holds C1 to C3; the last bucket holds the carbon number shown and "
+                  "heavier where it is marked +.", "grey"))
+    return out
 
 
-def _settings(flow: Flow, result: dict) -> None:
-    flow.gap(8)
-    flow.heading("Settings used (their sha256 is on page 1)")
-    cols = [Column("setting", 190), Column("value", CONTENT_W_PT - 190, mono=True)]
-    flow.table(cols, flatten_settings(result.get("settings")), size_pt=SMALL_PT,
-               row_h_pt=SMALL_ROW_H_PT, wrap_col=1)
+def _octane_block(result: dict) -> list:
+    contrib = result.get("octane_contributions") or []
+    explained = result.get("octane_explained") or {}
+    if not contrib and not (isinstance(explained, dict) and explained):
+        return []
+    out = [_p("What makes up the calculated octane numbers", "h2")]
+    if contrib:
+        from dha.report.figures import octane_contributions_figure
+
+        method = explained.get("method") if isinstance(explained, dict) else None
+        out.append(_p("Contribution of each group and carbon number to the calculated RON and "
+                      "MON (they add up to the values on page 1)"
+                      + (f"; method: {method}" if method else "") + ".", "small"))
+        by_group: dict[str, list[float]] = {}
+        for c in contrib:
+            g = str(c.get("group"))
+            acc = by_group.setdefault(g, [0.0, 0.0])
+            acc[0] += c.get("ron") or 0.0 if is_number(c.get("ron")) else 0.0
+            acc[1] += c.get("mon") or 0.0 if is_number(c.get("mon")) else 0.0
+        rows = [["group", "RON contribution", "MON contribution"]]
+        for g, (r, m) in by_group.items():
+            rows.append([GROUP_LABELS.get(g, g), _num(r, 2), _num(m, 2)])
+        rows.append(["total", _num(sum(v[0] for v in by_group.values()), 2),
+                     _num(sum(v[1] for v in by_group.values()), 2)])
+        t = _table(rows, [80, 58, 58], align_right=(1, 2), bold_last=True)
+        fig = octane_contributions_figure(result, size_in=(4.3, 2.4))
+        img = _image(fig, 300, 300 * 2.4 / 4.3)
+        from reportlab.platypus import Table, TableStyle
+
+        outer = Table([[t, img]], colWidths=[CONTENT_W_PT - 306, 306])
+        outer.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+                                   ("LEFTPADDING", (0, 0), (-1, -1), 0)]))
+        out.append(outer)
+    if isinstance(explained, dict) and explained.get("components"):
+        rows = [["component pulling the octane number down", "% v/v", "RON", "MON"]]
+        for c in explained["components"]:
+            rows.append([_p(display_name(c.get("name"), c.get("cas"))),
+                         _num(c.get("vol_pct"), 2), _num(c.get("ron"), 2), _num(c.get("mon"), 2)])
+        out.append(_p("Components that pull the octane numbers down most (their contribution "
+                      "against the sample's average)", "h3"))
+        out.append(_table(rows, [CONTENT_W_PT - 150, 50, 50, 50], align_right=(1, 2, 3)))
+    if isinstance(explained, dict) and explained.get("classes"):
+        rows = [["class", "RON", "MON"]]
+        for c in explained["classes"]:
+            rows.append([_p(_text(c.get("class"))), _num(c.get("ron"), 2), _num(c.get("mon"), 2)])
+        out.append(_table(rows, [CONTENT_W_PT - 100, 50, 50], align_right=(1, 2)))
+    return out
 
 
-def _text_or_num(value: Any) -> str:
-    if isinstance(value, bool):
-        return str(value)
-    if is_number(value):
-        return f"{value:,.4f}".rstrip("0").rstrip(".") if isinstance(value, float) else f"{value:,}"
-    return _text_value(value)
+def _review_block(result: dict, limit: int = 25) -> list:
+    ident = result.get("identification")
+    peaks = (ident or {}).get("peaks_to_review") if isinstance(ident, dict) else None
+    if not peaks:
+        return []
+    out = [_p(f"Peaks to review ({len(peaks)}, most important first)", "h2")]
+    rows = [["RT [min]", "identified as", "group", "mass %", "confidence", "why"]]
+    for pk in peaks[:limit]:
+        rows.append([_num(pk.get("rt_min"), 3), _p(display_name(pk.get("name"), pk.get("cas"))),
+                     GROUP_LABELS.get(pk.get("group"), _text(pk.get("group"))),
+                     _num(pk.get("mass_pct"), 3), _num(pk.get("confidence"), 2),
+                     _p(plain_words(pk.get("reason") or ""))])
+    out.append(_table(rows, [40, 130, 56, 38, 44, CONTENT_W_PT - 308], align_right=(0, 3, 4)))
+    if len(peaks) > limit:
+        out.append(_p(f"{len(peaks) - limit} more in the workbook (sheet Peaks to review).",
+                      "grey"))
+    return out
 
 
+# ----------------------------------------------------------------------------- page 3+
 _MATCH_WORDS = {"name": "name", "cas": "CAS", "retention_index": "ret. index",
                 "unidentified": "unidentified"}
 
 
-def _components(flow: Flow, result: dict) -> None:
-    comps = result.get("components") or []
-    flow.heading(f"Components ({len(comps)} rows, in the order of the result)")
-    cols = [("#", 5, "right"), ("name", 38, "left"), ("CAS", 12, "left"),
-            ("group", 13, "left"), ("C", 5, "right"), ("RT [min]", 9, "right"),
-            ("RI", 8, "right"), ("mass %", 8, "right"), ("% v/v", 8, "right"),
-            ("mol %", 8, "right"), (" match", 14, "left")]
-    rows = []
-    for i, c in enumerate(comps, start=1):
+def _components_block(result: dict) -> list:
+    comps = list(result.get("components") or [])
+    limit = _settings_section(result, "report").get("pdf_component_rows", 0)
+    limit = int(limit) if is_number(limit) else 0
+    order = sorted(range(len(comps)), key=lambda i: -(comps[i].get("mass_pct")
+                                                      if is_number(comps[i].get("mass_pct")) else -1))
+    shown = order if limit <= 0 else order[:limit]
+    kind = input_kind(result)
+    title = (f"Components ({len(comps)} rows; largest first"
+             + (f", the {len(shown)} largest shown, all in the workbook)" if len(shown) < len(comps)
+                else ")"))
+    out = [_p(title, "h2")]
+    peak = kind == "peak table"
+    head = ["#", "name", "CAS", "group", "C", "mass %", "% v/v", "mol %"]
+    widths = [24, 170, 52, 58, 18, 40, 40, 40]
+    if peak:
+        head += ["RT [min]", "RI", "match"]
+        widths += [40, 34, 0.0]
+        widths[-1] = CONTENT_W_PT - sum(widths[:-1])
+    else:
+        widths[1] += CONTENT_W_PT - sum(widths)
+    rows = [head]
+    for i in shown:
+        c = comps[i]
         group = c.get("group")
-        rows.append([
-            str(i), _text_value(c.get("name")), _text_value(c.get("cas")),
-            GROUP_LABELS.get(group, _text_value(group)), _text_value(c.get("carbon_number")),
-            _num(c.get("rt_min"), 3), _num(c.get("retention_index"), 1),
-            _num(c.get("mass_pct"), 3), _num(c.get("vol_pct"), 3), _num(c.get("mol_pct"), 3),
-            " " + _MATCH_WORDS.get(c.get("match"), _text_value(c.get("match"))),
-        ])
-    flow.listing(cols, rows, size_pt=SMALL_PT, row_h_pt=SMALL_ROW_H_PT)
+        row = [str(i + 1), display_name(c.get("name"), c.get("cas")), _text(c.get("cas")),
+               GROUP_LABELS.get(group, _text(group)), _text(c.get("carbon_number")),
+               _num(c.get("mass_pct"), 3), _num(c.get("vol_pct"), 3), _num(c.get("mol_pct"), 3)]
+        if peak:
+            row += [_num(c.get("rt_min"), 3), _num(c.get("retention_index"), 1),
+                    _MATCH_WORDS.get(c.get("match"), _text(c.get("match")))]
+        if len(row[1]) > 44:   # long names wrap (strings are faster; only these need a Paragraph)
+            row[1] = _p(row[1])
+        rows.append(row)
+    right = (0, 4, 5, 6, 7) + ((8, 9) if peak else ())
+    out.append(_table(rows, widths, align_right=right))
+    if len(shown) < len(comps):
+        rest = [comps[i] for i in order[len(shown):]]
+        mass = sum(c.get("mass_pct") for c in rest if is_number(c.get("mass_pct")))
+        out.append(_p(f"{len(rest)} smaller components ({mass:.3f} mass % together) are listed "
+                      "in the workbook, sheet Components.", "grey"))
+    return out
 
 
-def _logs(flow: Flow, result: dict) -> None:
-    flow.gap(8)
+def _traceability_block(result: dict) -> list:
+    sample = result.get("sample") or {}
+    library = result.get("library") or {}
+    prov = result.get("provenance") if isinstance(result.get("provenance"), dict) else {}
+    pairs = [("input file", sample.get("source_file")),
+             ("input sha256", sample.get("source_sha256") or prov.get("input_sha256")),
+             ("library sha256", library.get("sha256")),
+             ("settings sha256", settings_digest(result.get("settings"))),
+             ("schema", result.get("schema"))]
+    return [_p("Traceability (the settings used are in the workbook and the JSON result)", "h2"),
+            _kv_table([(k, v) for k, v in pairs if v], key_w=96, columns=1)]
+
+
+def _logs_block(result: dict) -> list:
     entries = result.get("import_log") or []
-    flow.heading(f"Import log ({len(entries)} rows skipped or changed)")
-    cols = [Column("row", 40, "right"), Column("action", 60),
-            Column("reason", CONTENT_W_PT - 100)]
-    flow.table(cols, [[_text_value(e.get("row")), _text_value(e.get("action")),
-                       _text_value(e.get("reason"))] for e in entries],
-               size_pt=SMALL_PT, row_h_pt=SMALL_ROW_H_PT, wrap_col=2)
-    flow.gap(8)
+    out = [_p(f"Import log ({len(entries)} rows of the file skipped or changed)", "h2")]
+    if entries:
+        rows = [["row", "action", "reason"]]
+        for e in entries:
+            rows.append([_text(e.get("row")), _text(e.get("action")), _p(e.get("reason"))])
+        out.append(_table(rows, [40, 60, CONTENT_W_PT - 100], align_right=(0,)))
     warnings = result.get("warnings") or []
-    flow.heading(f"Warnings ({len(warnings)})")
-    cols = [Column("#", 24, "right"), Column("warning", CONTENT_W_PT - 24)]
-    flow.table(cols, [[str(i), str(w)] for i, w in enumerate(warnings, start=1)],
-               size_pt=SMALL_PT, row_h_pt=SMALL_ROW_H_PT, wrap_col=1)
+    out.append(_p(f"Warnings ({len(warnings)})", "h2"))
+    if warnings:
+        rows = [["#", "warning"]] + [[str(i), _p(plain_words(w))]
+                                     for i, w in enumerate(warnings, start=1)]
+        out.append(_table(rows, [22, CONTENT_W_PT - 22], align_right=(0,)))
+    return out
 
 
-def layout(result: dict) -> Flow:
-    """Place all blocks of the draft on pages (no drawing yet)."""
-    flow = Flow()
-    _title_block(flow, result)
-    flow.gap(4)
-    _identification(flow, result)
-    flow.gap(6)
-    _results(flow, result)
-    flow.gap(6)
-    _checks(flow, result)
-    flow.gap(6)
-    _responsibility(flow)
-    flow.new_page()
-    _groups_page(flow, result)
-    flow.new_page()
-    _components(flow, result)
-    _logs(flow, result)
-    _settings(flow, result)
-    return flow
+# ----------------------------------------------------------------------------- document
+def _end_of_first_page_class():
+    from reportlab.platypus import Flowable
+
+    class EndOfFirstPage(Flowable):
+        """Moves on to the next page when still on page 1; nothing on a later page."""
+
+        def wrap(self, avail_w, avail_h):
+            if self.canv.getPageNumber() == 1:
+                return avail_w, avail_h + 1.0
+            return avail_w, 0.0
+
+        def split(self, avail_w, avail_h):
+            return [] if self.canv.getPageNumber() == 1 else [self]
+
+        def draw(self):
+            pass
+
+    return EndOfFirstPage
 
 
-def _frame(ax, page: int, n_pages: int, result: dict) -> None:
-    """Page header, draft watermark and footer."""
-    ax.text(PAGE_W_PT / 2, PAGE_H_PT / 2, "DRAFT", rotation=52, fontsize=120,
-            fontweight="bold", color=RED, alpha=0.05, ha="center", va="center", zorder=0)
-    ax.text(MARGIN_X_PT, 30, "dha · DHA composition and calculated properties", fontsize=7,
-            color=GREY, va="baseline")
-    ax.text(PAGE_W_PT - MARGIN_X_PT, 30, "DRAFT — not released", fontsize=7.5,
-            fontweight="bold", color=RED, ha="right", va="baseline")
-    ax.plot([MARGIN_X_PT, PAGE_W_PT - MARGIN_X_PT], [36, 36], color=RULE, linewidth=0.6)
-    fy = PAGE_H_PT - 26
-    ax.plot([MARGIN_X_PT, PAGE_W_PT - MARGIN_X_PT], [fy - 10, fy - 10], color=RULE,
-            linewidth=0.6)
-    ax.text(MARGIN_X_PT, fy, fit_text(f"sample: {_sample_id(result)}", 210, 7), fontsize=7,
-            color=GREY, va="baseline")
-    generated = _text_value(result.get("generated_at"))
-    ax.text(PAGE_W_PT / 2, fy, fit_text(f"generated {generated}", 170, 7), fontsize=7,
-            color=GREY, ha="center", va="baseline")
-    ax.text(PAGE_W_PT - MARGIN_X_PT, fy, f"page {page} of {n_pages}", fontsize=7,
-            color=GREY, ha="right", va="baseline")
+def _EndOfFirstPage():  # noqa: N802 - reads as a flowable in the story
+    return _end_of_first_page_class()()
 
 
-def render_pages(result: dict) -> list[Figure]:
-    """The draft's pages as A4 matplotlib Figures (not yet saved), in order.
+def story(result: dict) -> list:
+    """The flowables of the draft, in order (page 1 ends before "Group totals")."""
+    from reportlab.platypus import CondPageBreak, Spacer
 
-    Each Figure's first axes spans the page with data coordinates in points from the top-left
-    corner; a chart adds its own axes.
-    """
+    s: list = []
+    s += _title(result)
+    s += _sample_block(result)
+    s += _identification_block(result)
+    s += _results_block(result)
+    s += _points_to_check(result)
+    s.append(_EndOfFirstPage())   # the certificate face ends; the rest flows
+    s += _groups_block(result)
+    s += _carbon_block(result)
+    s += _octane_block(result)
+    s += _review_block(result)
+    s.append(CondPageBreak(120))
+    s += _components_block(result)
+    s.append(Spacer(1, 4))
+    s += _logs_block(result)
+    s += _traceability_block(result)
+    return s
+
+
+def _frame_drawer(result: dict):
+    from reportlab.lib.colors import Color, HexColor
+
+    font, bold = _fonts()
+    sample_id = _sample_id(result)
+    made = _text(result.get("generated_at"))
+
+    def draw(canvas, doc) -> None:
+        canvas.saveState()
+        canvas.setFillColor(Color(0.70, 0.09, 0.11, alpha=0.05))
+        canvas.setFont(bold, 110)
+        canvas.translate(PAGE_W_PT / 2, PAGE_H_PT / 2)
+        canvas.rotate(52)
+        canvas.drawCentredString(0, -40, "DRAFT")
+        canvas.restoreState()
+        canvas.saveState()
+        canvas.setFont(font, 7)
+        canvas.setFillColor(HexColor(GREY))
+        canvas.drawString(MARGIN_X_PT, PAGE_H_PT - 28, "dha · DHA composition and calculated "
+                          "properties")
+        canvas.setFillColor(HexColor(RED))
+        canvas.setFont(bold, 7)
+        canvas.drawRightString(PAGE_W_PT - MARGIN_X_PT, PAGE_H_PT - 28,
+                               "DRAFT — not released")
+        canvas.setStrokeColor(HexColor(RULE))
+        canvas.setLineWidth(0.5)
+        canvas.line(MARGIN_X_PT, PAGE_H_PT - 33, PAGE_W_PT - MARGIN_X_PT, PAGE_H_PT - 33)
+        canvas.line(MARGIN_X_PT, 34, PAGE_W_PT - MARGIN_X_PT, 34)
+        canvas.setFont(font, 7)
+        canvas.setFillColor(HexColor(GREY))
+        canvas.drawString(MARGIN_X_PT, 24, f"{sample_id} · result made {made}")
+        if doc.page == 1:
+            _draw_page1_foot(canvas)
+        canvas.restoreState()
+
+    return draw
+
+
+def _numbered_canvas(total_holder: dict):
+    """A canvas class that keeps each page until the end, then writes "page x of y"."""
+    from reportlab.pdfgen.canvas import Canvas
+
+    class _Canvas(Canvas):
+        def __init__(self, *args, **kwargs):
+            super().__init__(*args, **kwargs)
+            self._pages: list[dict] = []
+
+        def showPage(self):  # noqa: N802 - reportlab's name
+            self._pages.append(dict(self.__dict__))
+            self._startPage()
+
+        def save(self):
+            total = len(self._pages)
+            total_holder["pages"] = total
+            font, _bold = _fonts()
+            from reportlab.lib.colors import HexColor
+
+            for state in self._pages:
+                self.__dict__.update(state)
+                self.setFont(font, 7)
+                self.setFillColor(HexColor(GREY))
+                self.drawRightString(PAGE_W_PT - MARGIN_X_PT, 24,
+                                     f"page {self._pageNumber} of {total}")
+                super().showPage()
+            super().save()
+
+    return _Canvas
+
+
+def build_pdf(result: dict) -> bytes:
+    """The draft as PDF bytes."""
     if not isinstance(result, dict):
-        raise InputError(f"render_pages: result must be a dict (dha-result/1), got {type(result).__name__}")
-    figures = []
-    with matplotlib.rc_context(_RC):
-        flow = layout(result)
-        pages = [p for p in flow.pages if p] or [[]]
-        for number, ops in enumerate(pages, start=1):
-            fig = Figure(figsize=(PAGE_W_PT / 72, PAGE_H_PT / 72))
-            ax = fig.add_axes((0, 0, 1, 1))
-            ax.set_xlim(0, PAGE_W_PT)
-            ax.set_ylim(PAGE_H_PT, 0)
-            ax.axis("off")
-            _frame(ax, number, len(pages), result)
-            for y, draw in ops:
-                draw(ax, fig, y)
-            figures.append(fig)
-    return figures
+        raise InputError(f"PDF report: result must be a dict (dha-result/1), got "
+                         f"{type(result).__name__}")
+    from reportlab.platypus import BaseDocTemplate, Frame, NextPageTemplate, PageTemplate
+
+    _fonts()
+    foot = page1_foot_pt()
+    frame1 = Frame(MARGIN_X_PT, BOTTOM_PT + foot + 6, CONTENT_W_PT,
+                   PAGE_H_PT - TOP_PT - BOTTOM_PT - foot - 6, id="first",
+                   leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)
+    frame = Frame(MARGIN_X_PT, BOTTOM_PT, CONTENT_W_PT, PAGE_H_PT - TOP_PT - BOTTOM_PT,
+                  id="body", leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)
+    draw = _frame_drawer(result)
+    buf = io.BytesIO()
+    doc = BaseDocTemplate(buf, pagesize=(PAGE_W_PT, PAGE_H_PT), title="Certificate draft",
+                          author="dha", subject=_sample_id(result), invariant=1,
+                          pageCompression=1)
+    doc.addPageTemplates([PageTemplate("first", [frame1], onPage=draw),
+                          PageTemplate("later", [frame], onPage=draw)])
+    doc.build([NextPageTemplate("later")] + story(result),
+              canvasmaker=_numbered_canvas({}))
+    return buf.getvalue()
 
 
 def write_pdf(result: dict, path) -> Path:
-    """Write the certificate draft of a result as an A4 PDF and return its path.
+    """Write the certificate draft of ``result`` to ``path`` (folders created).
 
     Parameters
     ----------
     result : dict
-        A result dict of schema ``dha-result/1`` (the dha-result/1 schema); extra keys ``generated_at``
-        and ``mass_balance`` are shown when present. Null values print as "—".
+        A result dict of schema ``dha-result/1``; extra keys (``octane_contributions``,
+        ``octane_explained``, ``identification.peaks_to_review``) are shown when present.
     path : str or Path
-        File to write (parent folders are created); overwritten if it exists.
+        Output file.
 
     Returns
     -------
     Path
-        ``path`` as a Path.
+        The file written.
     """
     if not isinstance(result, dict):
-        raise InputError(f"write_pdf: result must be a dict (dha-result/1), got {type(result).__name__}")
+        raise InputError(f"write_pdf: result must be a dict (dha-result/1), got "
+                         f"{type(result).__name__}")
     result = visible_data(result)  # control characters shown, never written raw
+    data = build_pdf(result)
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    with matplotlib.rc_context(_RC):
-        pages = render_pages(result)
-        metadata = {"Title": f"Certificate draft: {_sample_id(result)}", "Creator": "dha",
-                    "Producer": "dha (matplotlib)", "CreationDate": None}
-        def _save(fh):
-            with PdfPages(fh, metadata=metadata) as pdf:
-                for fig in pages:
-                    pdf.savefig(fig)
-        atomic_write(path, _save)
-    log.info("wrote %s (%d pages)", path, len(pages))
+    atomic_write_bytes(path, data)
+    log.info("wrote %s", path)
     return path

@@ -163,11 +163,11 @@ def _atoms(formula: str) -> tuple[int, int, int]:
 
 
 def atom_counts(table: pd.DataFrame, library) -> np.ndarray:
-    """(n_rows, 3) carbon, hydrogen and oxygen atoms per molecule of each row's model component."""
-    comps = library.components
+    """(n_rows, 3) carbon, hydrogen and oxygen atoms per molecule of each row's model component
+    (an alkane CnH2n+2 of the row's carbon number where the library has no formula)."""
+    formulas = table["model_component"].map(library.components["formula"])
     out = np.zeros((len(table), 3))
-    for k, (mc, cn) in enumerate(zip(table["model_component"], table["carbon_number"])):
-        formula = comps.at[mc, "formula"] if isinstance(mc, str) and mc in comps.index else None
+    for k, (formula, cn) in enumerate(zip(formulas, table["carbon_number"])):
         if isinstance(formula, str) and formula:
             out[k] = _atoms(formula)
         else:
@@ -427,12 +427,12 @@ def reform(table: pd.DataFrame, library, settings: dict, conversion: float = 0.8
         raise SettingsError(f"reforming conversion {conversion}: give a fraction 0-1")
     feed = table.reset_index(drop=True)
     mapping = {}
-    for i, r in feed.iterrows():
-        if not isinstance(r["component"], str):
-            continue
-        prods = aromatic_products(r["component"], str(r["group"]), r["carbon_number"])
-        if prods:
-            mapping[int(i)] = prods
+    for i, (comp, group, cn) in enumerate(zip(feed["component"], feed["group"],
+                                              feed["carbon_number"])):
+        if isinstance(comp, str):
+            prods = aromatic_products(comp, str(group), cn)
+            if prods:
+                mapping[i] = prods
     notes = [] if mapping else ["no C6-C8 n-paraffins or naphthenes to reform"]
     full, mass, h2 = _convert(feed, library, settings, mapping, conversion)
     return _outcome("reforming", {"conversion": conversion,
@@ -508,9 +508,10 @@ def add_oxygenate(table: pd.DataFrame, library, settings: dict, oxygenate: str =
 # --------------------------------------------------------------------------------------------
 
 def evaluate(table: pd.DataFrame, library, settings: dict, profile: dict | None = None,
-             sample_id: str = "lever") -> dict[str, Any]:
+             sample_id: str = "lever", explain: bool = True) -> dict[str, Any]:
     """A full result (groups, every property model, octane contributions, spec checks) of a
-    composition table, as the pipeline makes it for a composition input."""
+    composition table, as the pipeline makes it for a composition input (``explain=False``:
+    without the octane contributions, which the lever deltas do not need)."""
     from dha import specs
     from dha.explain import result_keys
     from dha.groups import group_totals
@@ -525,7 +526,8 @@ def evaluate(table: pd.DataFrame, library, settings: dict, profile: dict | None 
                           import_log=[], kind="composition")
     result = build_result(run, Quantified(table), groups, props, library, settings,
                           generated_at="")
-    result.update(jsonable(result_keys(table, library, settings, result["properties"])))
+    if explain:
+        result.update(jsonable(result_keys(table, library, settings, result["properties"])))
     if profile is not None:
         checks, warns = specs.check(result, profile, library)
         result["checks"] = jsonable(checks)
@@ -803,7 +805,7 @@ def run_levers(table: pd.DataFrame, library, settings: dict, profile: dict | Non
     records = []
     for w in which:
         outcome = makers[w]()
-        after = evaluate(outcome.table, library, settings, profile, w)
+        after = evaluate(outcome.table, library, settings, profile, w, explain=False)
         records.append(outcome_record(outcome, base, after, profile, library))
     solver = None
     if "oxygenate" in which:

@@ -263,6 +263,10 @@ def summary_row(result: dict[str, Any], library=None, unidentified_flag: float =
     flags = []
     marginal = {}
     for c in checks:
+        if c.get("limit") is None:      # a run-quality check (identification): no limit
+            if c["verdict"] in ("fail", "marginal"):
+                flags.append(("" if c["verdict"] == "fail" else "~") + str(c["property"]))
+            continue
         if c["verdict"] == "fail":
             flags.append(f"{c['property']}{'<' if c['kind'] == 'min' else '>'}{c['limit']:g}")
         elif c["verdict"] == "marginal":
@@ -622,30 +626,146 @@ def earlier_rows(out_dir: Path, seen: set[str], job: Job):
 # --------------------------------------------------------------------------------------------
 # Summary files
 
+#: summary.xlsx: (column, header in words with its unit, decimals shown or None).
+SUMMARY_HEADERS = [
+    ("input", "input file (path below the input root)", None),
+    ("injection", "injection (sheet)", None),
+    ("sample_id", "sample id", None),
+    ("injection_time", "injection time", None),
+    ("status", "status", None),
+    ("this_batch", "in this batch", None),
+    ("spec", "specification applied", None),
+    ("flags", "flags (failed checks; ~ marginal)", None),
+    ("benzene_vol_pct", "benzene, % by volume", 2),
+    ("aromatics_vol_pct", "aromatics, % by volume", 1),
+    ("olefins_vol_pct", "olefins, % by volume", 1),
+    ("oxygen_mass_pct", "oxygen, % by mass", 2),
+    ("ethanol_vol_pct", "ethanol, % by volume", 1),
+    ("unidentified_mass_pct", "unidentified peaks, % by mass", 1),
+    ("ron", "RON, calculated (no unit)", 1),
+    ("mon", "MON, calculated (no unit)", 1),
+    ("dvpe_kpa", "DVPE, calculated, kilopascals", 1),
+    ("density_kg_m3", "density at 15 °C, calculated, kilograms per cubic metre", 1),
+    ("e70_vol_pct", "evaporated at 70 °C, calculated, % by volume", 1),
+    ("e100_vol_pct", "evaporated at 100 °C, calculated, % by volume", 1),
+    ("checks_failed", "checks failed (count)", 0),
+    ("checks_marginal", "checks marginal (count)", 0),
+    ("output", "output files", None),
+    ("error", "why not processed", None),
+]
+_FAIL_FILL, _MARGINAL_FILL = "F4C7C3", "FCE8B2"
+_FLAG_RE = re.compile(r"^(~?)([a-z0-9_]+)")
+
+
+def _flagged_columns(flags: str) -> dict[str, str]:
+    """{summary column: "fail" | "marginal"} from a row's flags text."""
+    out: dict[str, str] = {}
+    for flag in str(flags or "").split():
+        m = _FLAG_RE.match(flag)
+        if m:
+            kind = "marginal" if m.group(1) else "fail"
+            if out.get(m.group(2)) != "fail":
+                out[m.group(2)] = kind
+    return out
+
+
+def summary_workbook(table, profile: dict | None, counts: dict | None = None):
+    """The people's summary (openpyxl Workbook): headers in words with units, rounded numbers,
+    failed checks red and marginal ones amber, filters and a frozen header; sheets "runs",
+    "flagged runs" and "about" (specification named, counts, what the marks mean)."""
+    import math
+
+    from openpyxl import Workbook
+    from openpyxl.styles import Alignment, Font, PatternFill
+
+    fills = {"fail": PatternFill("solid", fgColor=_FAIL_FILL),
+             "marginal": PatternFill("solid", fgColor=_MARGINAL_FILL)}
+    bold = Font(bold=True)
+    wrap = Alignment(wrap_text=True, vertical="top")
+    cols = [c for c, _, _ in SUMMARY_HEADERS]
+    records = [{k: (None if isinstance(v, float) and math.isnan(v) else v) for k, v in r.items()}
+               for r in table.reindex(columns=cols).to_dict(orient="records")]
+    wb = Workbook()
+    ws_runs = wb.active
+    ws_runs.title = "runs"
+    ws_flag = wb.create_sheet("flagged runs")
+    for ws in (ws_runs, ws_flag):
+        ws.append([h for _, h, _ in SUMMARY_HEADERS])
+        for cell in ws[1]:
+            cell.font = bold
+            cell.alignment = wrap
+        ws.row_dimensions[1].height = 45
+        ws.freeze_panes = "B2"
+        for i, (col, header, _) in enumerate(SUMMARY_HEADERS, start=1):
+            width = 30 if col in ("input", "flags", "output", "error") else 13
+            ws.column_dimensions[ws.cell(1, i).column_letter].width = width
+    formats = {d: "0" if d == 0 else "0." + "0" * d for d in (0, 1, 2)}
+    for rec in records:
+        values = []
+        for col, _, decimals in SUMMARY_HEADERS:
+            v = rec.get(col)
+            if decimals is not None and isinstance(v, (int, float)) and v is not None:
+                v = round(float(v), decimals) if decimals else int(round(v))
+            values.append(v)
+        marks = _flagged_columns(rec.get("flags"))
+        targets = [ws_runs] + ([ws_flag] if rec.get("flags") else [])
+        for ws in targets:
+            ws.append(values)
+            r = ws.max_row
+            for i, (col, _, decimals) in enumerate(SUMMARY_HEADERS, start=1):
+                cell = ws.cell(r, i)
+                if decimals is not None:
+                    cell.number_format = formats[decimals]
+                if col in marks:
+                    cell.fill = fills[marks[col]]
+            status = ws.cell(r, cols.index("status") + 1)
+            if rec.get("status") == FAILS or rec.get("status") == NOT_PROCESSED:
+                status.fill = fills["fail"]
+            elif rec.get("checks_marginal"):
+                status.fill = fills["marginal"]
+    for ws in (ws_runs, ws_flag):
+        ws.auto_filter.ref = ws.dimensions
+    about = wb.create_sheet("about")
+    spec_names = sorted({str(x) for x in table["spec"].dropna().unique()}) if "spec" in table else []
+    counts = counts or {}
+    lines = [
+        ("Specification applied", ", ".join(spec_names) or "none"),
+        ("Specification source", (profile or {}).get("source") or ""),
+        ("Runs in this folder", len(table)),
+        ("Processed in this batch", counts.get("processed", "")),
+        ("Up to date (not processed again)", counts.get("up_to_date", "")),
+        ("From earlier batches", counts.get("earlier", "")),
+        ("Not processed", counts.get("failed", "")),
+        ("Red cell", "a specification check failed (value beyond the limit by more than "
+                     "its uncertainty); red status: fails the specification or not processed"),
+        ("Amber cell", "marginal: the limit lies within the value's uncertainty"),
+        ("Calculated values", "RON, MON, DVPE, density and evaporated volumes are estimates "
+                              "from the composition, not results of the standard test methods"),
+        ("Safety", "petrol is highly flammable; benzene is a human carcinogen"),
+        ("Release", "results are drafts until an authorised person reviews and releases them"),
+    ]
+    for key, value in lines:
+        about.append([key, value])
+        about.cell(about.max_row, 1).font = bold
+    about.column_dimensions["A"].width = 34
+    about.column_dimensions["B"].width = 100
+    return wb
+
+
 def write_summary(table, out_dir: Path, profile: dict | None,
                   trend_quantities: list[str]) -> list[Path]:
-    """summary.csv, summary.xlsx and one trend chart (PNG) per quantity present (atomic)."""
-    import pandas as pd
+    """summary.csv (machine column names), summary.xlsx (for people) and trend charts.
+
+    Every file is written atomically; text cells are made inert (``dha.safety``).
+    """
+    from dha.safety import save_workbook
 
     written = []
     csv_path = out_dir / "summary.csv"
     atomic_write_text(csv_path, inert_frame(table).to_csv(index=False), newline="")
     written.append(csv_path)
     xlsx_path = out_dir / "summary.xlsx"
-
-    def write_xlsx(tmp: Path) -> None:
-        with pd.ExcelWriter(tmp, engine="openpyxl") as xw:
-            table.to_excel(xw, sheet_name="runs", index=False)
-            flagged = table[table["flags"].fillna("").astype(str).str.len() > 0]
-            flagged.to_excel(xw, sheet_name="flagged runs", index=False)
-            for ws in xw.book.worksheets:
-                ws.freeze_panes = "A2"
-                for col in ws.columns:
-                    width = max(len(str(c.value)) if c.value is not None else 0 for c in col)
-                    ws.column_dimensions[col[0].column_letter].width = min(max(10, width + 2), 50)
-            inert_workbook(xw.book)  # string cells only (no live formula), controls visible
-
-    write_via_temp(xlsx_path, write_xlsx)
+    save_workbook(summary_workbook(table, profile, table.attrs.get("counts")), xlsx_path)
     written.append(xlsx_path)
     written += write_trends(table, out_dir, profile, trend_quantities)
     return written
@@ -698,7 +818,7 @@ def draw_trend(times, values, limits: list[dict], title: str, ylabel: str, path:
     for lim in limits:
         ax.axhline(lim["value"], color="#b03a2e", ls="--", lw=1)
         word = "minimum" if lim["kind"] == "min" else "maximum"
-        ax.text(0.99, lim["value"], f"{word} {lim['value']:g}", transform=ax.get_yaxis_transform(),
+        ax.text(0.99, lim["value"], f"limit: {word} {lim['value']:g}", transform=ax.get_yaxis_transform(),
                 ha="right", va="bottom" if lim["kind"] == "max" else "top", fontsize=7,
                 color="#b03a2e", bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.7,
                                        "pad": 1})
@@ -706,6 +826,9 @@ def draw_trend(times, values, limits: list[dict], title: str, ylabel: str, path:
     ax.set_xlabel("injection time" if by_time else "run (input order)")
     if by_time:
         fig.autofmt_xdate()
+    else:
+        from matplotlib.ticker import MaxNLocator
+        ax.xaxis.set_major_locator(MaxNLocator(integer=True))
     ax.set_title(title, fontsize=9)
     ax.grid(alpha=0.3)
     fig.tight_layout()

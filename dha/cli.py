@@ -6,6 +6,7 @@ exit code 1 here, and nowhere else; click's usage errors exit 2.
 """
 from __future__ import annotations
 
+import functools
 import importlib
 import logging
 import sys
@@ -31,8 +32,131 @@ COMMAND_MODULES = (
 )
 
 
+def _declared_commands(module_name: str) -> list[tuple[str, str]]:
+    """(command name, docstring) of the top-level click commands a module declares, read from
+    its source without importing it (so ``dha --help`` does not import pandas)."""
+    import ast
+    import importlib.util
+
+    spec = importlib.util.find_spec(module_name)
+    if spec is None or not spec.origin:
+        return []
+    try:
+        tree = ast.parse(open(spec.origin, encoding="utf-8").read())
+    except (OSError, SyntaxError):
+        return []
+    found = []
+    for node in tree.body:
+        if not isinstance(node, ast.FunctionDef):
+            continue
+        for deco in node.decorator_list:
+            if (isinstance(deco, ast.Call) and isinstance(deco.func, ast.Attribute)
+                    and deco.func.attr in ("command", "group")
+                    and isinstance(deco.func.value, ast.Name) and deco.func.value.id == "click"
+                    and deco.args and isinstance(deco.args[0], ast.Constant)):
+                found.append((str(deco.args[0].value), ast.get_docstring(node) or ""))
+    return found
+
+
+class _LazyCommands(dict):
+    """The group's command table: reading it as a whole (``items()``, ``[name]``) imports every
+    command module first; the CLI itself reads single entries without that."""
+
+    def __init__(self, load_all):
+        super().__init__()
+        self._load_all = load_all
+        self._complete = False
+
+    def _fill(self) -> None:
+        if not self._complete:
+            self._complete = True
+            self._load_all()
+
+    def __getitem__(self, key):
+        if not dict.__contains__(self, key):
+            self._fill()
+        return dict.__getitem__(self, key)
+
+    def __contains__(self, key):
+        if not dict.__contains__(self, key):
+            self._fill()
+        return dict.__contains__(self, key)
+
+    def get(self, key, default=None):
+        return self[key] if key in self else default
+
+    def __iter__(self):
+        self._fill()
+        return dict.__iter__(self)
+
+    def __len__(self):
+        self._fill()
+        return dict.__len__(self)
+
+    def keys(self):
+        self._fill()
+        return dict.keys(self)
+
+    def values(self):
+        self._fill()
+        return dict.values(self)
+
+    def items(self):
+        self._fill()
+        return dict.items(self)
+
+
 class _Main(click.Group):
-    """Turns a ``DhaError`` raised anywhere below into a one-line message and exit 1."""
+    """Loads each command's module only when that command runs (fast ``dha --help``), and
+    turns a ``DhaError`` raised anywhere below into a one-line message and exit 1."""
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.commands = _LazyCommands(self._load_all)
+
+    def _load_all(self) -> None:
+        for module in COMMAND_MODULES:
+            self._load(module)
+
+    def _load(self, module: str) -> None:
+        for command in importlib.import_module(module).COMMANDS:
+            dict.setdefault(self.commands, command.name, command)
+
+    @functools.cached_property
+    def _where(self) -> dict[str, tuple[str, str]]:
+        """Command name -> (module, docstring), from the sources of ``COMMAND_MODULES``."""
+        where: dict[str, tuple[str, str]] = {}
+        for module in COMMAND_MODULES:
+            declared = _declared_commands(module)
+            if not declared:        # not readable: import it
+                self._load(module)
+            for name, doc in declared:
+                where.setdefault(name, (module, doc))
+        return where
+
+    def list_commands(self, ctx):
+        return sorted(set(self._where) | set(dict.keys(self.commands)))
+
+    def get_command(self, ctx, name):
+        if not dict.__contains__(self.commands, name):
+            if name not in self._where:
+                return None
+            self._load(self._where[name][0])
+        return dict.get(self.commands, name)
+
+    def format_commands(self, ctx, formatter):
+        rows = []
+        names = self.list_commands(ctx)
+        limit = formatter.width - 6 - max((len(n) for n in names), default=0)
+        for name in names:
+            if dict.__contains__(self.commands, name):
+                text = dict.__getitem__(self.commands, name).get_short_help_str(limit)
+            else:
+                text = click.utils.make_default_short_help(self._where[name][1], limit)
+            rows.append((name, text))
+        if rows:
+            with formatter.section("Commands"):
+                formatter.write_dl(rows)
 
     def invoke(self, ctx):
         try:
@@ -55,11 +179,6 @@ def cli(verbose: int, quiet: int) -> None:
     level = logging.WARNING - 10 * verbose + 10 * quiet
     logging.basicConfig(level=max(logging.DEBUG, min(level, logging.CRITICAL)),
                         format="dha: %(levelname)s: %(message)s", stream=sys.stderr)
-
-
-for _name in COMMAND_MODULES:
-    for _command in importlib.import_module(_name).COMMANDS:
-        cli.add_command(_command)
 
 
 def main() -> None:

@@ -49,11 +49,18 @@ def carbon_bucket(n: int) -> int | str:
 
 
 def _lib_column(comp: pd.DataFrame, library, column: str) -> pd.Series:
-    """A library column for each row's ``model_component`` (None where absent)."""
+    """A library column for each row's ``model_component`` (None where absent); one lookup."""
     table = library.components
     if column not in table.columns:
         return pd.Series([None] * len(comp), index=comp.index, dtype=object)
-    return comp["model_component"].map(lambda n: table.at[n, column] if n in table.index else None)
+    values = comp["model_component"].map(table[column]).astype(object)
+    return values.where(values.notna(), None)
+
+
+def _oxygen_atoms(formulas: pd.Series) -> pd.Series:
+    """Oxygen atoms per formula (0 for None), each distinct formula parsed once."""
+    counts = {f: (parse_formula(f) or {}).get("O", 0) for f in formulas.dropna().unique()}
+    return formulas.map(lambda f: counts.get(f, 0) if f is not None else 0)
 
 
 def oxygen_mass_pct(comp: pd.DataFrame, library) -> float:
@@ -61,8 +68,7 @@ def oxygen_mass_pct(comp: pd.DataFrame, library) -> float:
 
     Unidentified rows count as hydrocarbons (no oxygen).
     """
-    formula = _lib_column(comp, library, "formula")
-    n_o = formula.map(lambda f: parse_formula(f).get("O", 0) if f is not None else 0)
+    n_o = _oxygen_atoms(_lib_column(comp, library, "formula"))
     n_o = n_o.where(comp["group"] != "unidentified", 0)
     mw = comp["molar_mass_g_mol"].astype(float)
     return float((comp["mass_pct"] * ATOMIC_WEIGHT["O"] * n_o.astype(float) / mw).sum())
@@ -93,12 +99,17 @@ def group_totals(comp: pd.DataFrame, library, settings: dict) -> dict[str, Any]:
         raise ValueError(f"composition table has unknown group(s) {sorted(unknown)}")
     totals = {b: {g: float(comp.loc[comp["group"] == g, b].sum()) for g in GROUPS} for b in BASES}
 
-    bucket = comp["carbon_number"].map(carbon_bucket)
+    n = pd.to_numeric(comp["carbon_number"]).to_numpy(dtype=float)
+    bucket = np.where(n >= 13, len(BUCKETS) - 1, np.clip(n, 3, 12) - 3).astype(int)
+    group = comp["group"].to_numpy(dtype=object)
+    values = {b: np.nan_to_num(comp[b].to_numpy(dtype=float), nan=0.0) for b in BASES}
     matrix = []
-    for bk in BUCKETS:
+    for i, bk in enumerate(BUCKETS):
+        in_bucket = bucket == i
         for g in GROUPS:
-            cell = comp[(bucket == bk) & (comp["group"] == g)]
-            matrix.append({"carbon_number": bk, "group": g, **_sums(cell)})
+            mask = in_bucket & (group == g)
+            matrix.append({"carbon_number": bk, "group": g,
+                           **{b: float(values[b][mask].sum()) for b in BASES}})
 
     component = comp["component"]
     arom = comp["group"] == "aromatics"

@@ -978,10 +978,52 @@ def _stamp(folders: tuple[Path, ...]) -> tuple:
     return tuple(out)
 
 
+def check_cache_dir() -> Path:
+    """Where library-check results are kept: ``$DHA_CACHE_DIR``, else the user cache folder
+    (``$XDG_CACHE_HOME/dha`` or ``~/.cache/dha``), sub-folder ``library-checks``."""
+    import os
+    base = os.environ.get("DHA_CACHE_DIR")
+    if not base:
+        base = str(Path(os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache") / "dha")
+    return Path(base) / "library-checks"
+
+
+@lru_cache(maxsize=1)
+def _checker_sha256() -> str:
+    """Checksum of this module's source: a changed check invalidates cached results."""
+    return hashlib.sha256(Path(__file__).read_bytes()).hexdigest()
+
+
+def checked_problems(lib: Library) -> tuple[Problem, ...]:
+    """``check_library(lib)``, run once per library checksum and checker version.
+
+    The result is cached as JSON in :func:`check_cache_dir` under the sha256 of the library
+    files, their folders and this module; a cache that cannot be read or written is ignored.
+    """
+    import json
+    # problems name their files, so the folders are part of the key as well as the contents
+    folders = [str(f) for f in (getattr(lib, "folders", None) or ())]
+    key = hashlib.sha256(f"{lib.sha256}:{_checker_sha256()}:{folders}".encode()).hexdigest()
+    path = check_cache_dir() / f"{key}.json"
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+        return tuple(Problem(d["file"], d["row"], d["column"], d["message"]) for d in data)
+    except (OSError, ValueError, KeyError, TypeError):
+        pass
+    problems = tuple(check_library(lib))
+    try:
+        from dha.safety import atomic_write_text
+        path.parent.mkdir(parents=True, exist_ok=True)
+        atomic_write_text(path, json.dumps([p.__dict__ for p in problems]))
+    except Exception:  # noqa: BLE001 - a cache is optional (read-only home, full disk)
+        log.debug("library check cache not written to %s", path)
+    return problems
+
+
 @lru_cache(maxsize=16)
 def _load_checked(folders: tuple[Path, ...], stamp: tuple) -> Library:
     lib = read_library(folders)
-    problems = tuple(check_library(lib))
+    problems = checked_problems(lib)
     if problems:
         command = "dha library check" + (f" --library {folders[-1]}" if len(folders) > 1 else "")
         log.warning("component library %s has %d problem(s), first: %s; run `%s`",

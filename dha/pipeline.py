@@ -101,7 +101,24 @@ def process_run(run, settings: dict, library, spec: str | None = None,
         checks, spec_warnings = specs.check(result, specs.load_profile(spec), library)
         result["checks"] = jsonable(checks)
         result["warnings"] += spec_warnings
+    _add_identification(result, identified, quant.table, library)
     return result
+
+
+def _add_identification(result: dict, identified, composition, library) -> None:
+    """The identification check (every peak-table result), peaks to review and per-component
+    confidence (null for composition tables); see dha.identify.identification_report."""
+    if identified is None:
+        for rec in result["components"]:
+            rec.setdefault("confidence", None)
+        return
+    from dha.identify import identification_report
+    check, review, conf = identification_report(identified, composition, library)
+    result["checks"].append(jsonable(check))
+    if isinstance(result.get("identification"), dict):
+        result["identification"]["peaks_to_review"] = jsonable(review)
+    for rec, c in zip(result["components"], conf):
+        rec["confidence"] = c
 
 
 def process_file(path: str | Path, settings: dict, library, spec: str | None = None) -> list[dict]:

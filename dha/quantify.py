@@ -440,7 +440,8 @@ def quantify_peaks(identified: pd.DataFrame, library, settings: dict,
     where = f"{source}: " if source else ""
     warnings: list[str] = []
     q = settings.get("quantify", {})
-    df = identified.reset_index(drop=True).copy()
+    df = identified.reset_index(drop=True)
+    df.attrs = {}   # pandas deep-copies attrs on every operation: run metadata stays outside
     area = pd.to_numeric(df["area"], errors="coerce")
     bad = area.isna() | (area < 0) | ~np.isfinite(area.fillna(0.0))
     if bad.any():
@@ -535,38 +536,70 @@ def quantify_peaks(identified: pd.DataFrame, library, settings: dict,
     return Quantified(table=table, mass_balance=mass_balance, warnings=warnings)
 
 
+def _column(df: pd.DataFrame, name: str) -> pd.Series:
+    """``df[name]`` as objects with None for missing values (all None if there is no column)."""
+    if name not in df:
+        return pd.Series([None] * len(df), index=df.index, dtype=object)
+    col = df[name].astype(object)
+    return col.where(df[name].notna(), None)
+
+
 def _aggregate(kept: pd.DataFrame, library, warnings: list[str]) -> pd.DataFrame:
-    """One row per identified component (peaks of the same component summed), one per unknown."""
+    """One row per identified component (peaks of the same component summed), one per unknown.
+
+    Vectorised: the identified peaks are grouped once; the values of each component's largest
+    peak (first of equal ones) are taken by position, library values in one lookup.
+    """
     comps = library.components
-    out = []
-    ident = kept[kept["identified"]]
-    for name, grp in ident.groupby("component", sort=False):
-        top = grp.loc[grp["area"].idxmax()]
-        if len(grp) > 1:
+    ident = kept[kept["identified"].to_numpy(dtype=bool)]
+    unk = kept[~kept["identified"].to_numpy(dtype=bool)]
+    parts = []
+    if len(ident):
+        pos = ident.reset_index(drop=True)
+        grouped = pos.groupby("component", sort=False)
+        top = grouped["area"].idxmax().to_numpy()            # positions of each largest peak
+        sums = grouped[["area", "corrected"]].sum()
+        names = sums.index.to_numpy(dtype=object)
+        counts = grouped.size().to_numpy()
+        for name in names[counts > 1]:
+            grp = ident[ident["component"] == name]
             warnings.append(f"{len(grp)} peaks identified as {name} (rows "
                             f"{', '.join(str(r) for r in grp.get('row', grp.index))}) were summed")
-        lib = comps.loc[name]
-        out.append({
-            "name": name, "component": name, "cas": _clean(lib.get("cas")),
-            "group": lib["group"], "carbon_number": int(lib["carbon_number"]),
-            "rt_min": top.get("rt_min"), "retention_index": top.get("retention_index"),
-            "area": float(grp["area"].sum()), "rrf": float(top["rrf"]),
-            "corrected": float(grp["corrected"].sum()), "match": top.get("match"),
-            "ri_source": _clean(top.get("ri_source")), "model_component": name,
-            "_order": float(top.get("rt_min", np.nan)),
-        })
-    for _, peak in kept[~kept["identified"]].iterrows():
-        export_name = _clean(peak.get("name"))
-        out.append({
-            "name": export_name or "unidentified", "component": None,
-            "cas": _clean(peak.get("cas")), "group": "unidentified",
-            "carbon_number": int(peak["carbon_number"]), "rt_min": peak.get("rt_min"),
-            "retention_index": peak.get("retention_index"), "area": float(peak["area"]),
-            "rrf": float(peak["rrf"]), "corrected": float(peak["corrected"]),
-            "match": "unidentified", "ri_source": _clean(peak.get("ri_source")),
-            "model_component": None, "_order": float(peak.get("rt_min", np.nan)),
-        })
-    rows = pd.DataFrame(out)
+        lib = comps.loc[names]
+        rt = pd.to_numeric(pos["rt_min"], errors="coerce").to_numpy(dtype=float)[top] \
+            if "rt_min" in pos else np.full(len(top), np.nan)
+        parts.append(pd.DataFrame({
+            "name": names.copy(), "component": names.copy(),
+            "cas": _column(lib, "cas").to_numpy() if "cas" in lib else None,
+            "group": lib["group"].to_numpy(),
+            "carbon_number": lib["carbon_number"].to_numpy().astype(int),
+            "rt_min": _column(pos, "rt_min").to_numpy()[top],
+            "retention_index": _column(pos, "retention_index").to_numpy()[top],
+            "area": sums["area"].to_numpy(dtype=float),
+            "rrf": pos["rrf"].to_numpy(dtype=float)[top],
+            "corrected": sums["corrected"].to_numpy(dtype=float),
+            "match": _column(pos, "match").to_numpy()[top],
+            "ri_source": _column(pos, "ri_source").to_numpy()[top],
+            "model_component": names.copy(), "_order": rt,
+        }))
+    if len(unk):
+        export_name = _column(unk, "name")
+        parts.append(pd.DataFrame({
+            "name": export_name.where(export_name.notna(), "unidentified").to_numpy(),
+            "component": None, "cas": _column(unk, "cas").to_numpy(),
+            "group": "unidentified",
+            "carbon_number": unk["carbon_number"].to_numpy().astype(int),
+            "rt_min": _column(unk, "rt_min").to_numpy(),
+            "retention_index": _column(unk, "retention_index").to_numpy(),
+            "area": unk["area"].to_numpy(dtype=float), "rrf": unk["rrf"].to_numpy(dtype=float),
+            "corrected": unk["corrected"].to_numpy(dtype=float), "match": "unidentified",
+            "ri_source": _column(unk, "ri_source").to_numpy(), "model_component": None,
+            "_order": pd.to_numeric(unk["rt_min"], errors="coerce").to_numpy(dtype=float)
+            if "rt_min" in unk else np.nan,
+        }))
+    rows = pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
+    for col in ("rt_min", "retention_index"):
+        rows[col] = pd.to_numeric(rows[col], errors="coerce")
     rows = rows.sort_values("_order", kind="stable", na_position="last").drop(columns="_order")
     rows["component"] = rows["component"].astype(object)
     rows["model_component"] = rows["model_component"].astype(object)

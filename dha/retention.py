@@ -22,7 +22,7 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Mapping, Sequence
 
@@ -56,6 +56,7 @@ class IndexScale:
     isothermal_until_min: float = 0.0
     holdup_time_min: float = 0.0
     virtual: tuple = ()
+    search: Any = field(default=None, compare=False)
 
     def __post_init__(self) -> None:
         if len(self.carbon) < 2:
@@ -575,7 +576,8 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
                 sc = _search_one(s_h, *q_args, quick=True, s_cache=s_cache)[0]
                 if sc > best_sc:
                     best_sc, chosen = sc, s_h
-    sc, markers = _search_one(chosen, *args, s_cache=s_cache)
+    alts: list = []
+    sc, markers = _search_one(chosen, *args, s_cache=s_cache, alts_out=alts)
     if markers is None:
         return None
     if chosen is not hypotheses[0] and tm_set <= 0:
@@ -583,14 +585,45 @@ def find_markers(rt_min: np.ndarray, size: np.ndarray, lib_index: np.ndarray, to
         tm_est = estimate_holdup(markers, float(chosen["isothermal_until_min"]), None)
         if tm_est > 0:
             chosen = {**chosen, "holdup_time_min": tm_est}
-    return make_scale(markers, chosen, first)
+    scale = make_scale(markers, chosen, first)
+    object.__setattr__(scale, "search", _search_quality(sc, markers, alts, rt, sz))
+    return scale
+
+
+#: Relative margin of the chosen marker set's alignment score over the runner-up's at which
+#: the choice counts as clear-cut (score 1) [-]; half of it gives score 0.5 (common practice,
+#: no source; measured on the generator's petrols, where the markers are right: margins
+#: 0.2-0.6, see DEVELOPERS.md).
+CLEAR_MARGIN = 0.10
+
+
+def _search_quality(score: float, markers: dict[int, float], alts: list, rt: np.ndarray,
+                    size: np.ndarray) -> dict[str, Any]:
+    """How sure the marker search is: margin over the runner-up, marker peak sizes."""
+    runner = alts[0] if alts else None
+    if runner is None or not np.isfinite(score) or score <= 0:
+        margin = 1.0 if runner is None and np.isfinite(score) and score > 0 else 0.0
+    else:
+        margin = (score - runner[0]) / abs(score)
+    total = max(float(np.sum(size)), 1e-300)
+    shares = [float(size[np.argmin(np.abs(rt - t))]) / total for t in markers.values()]
+    return {
+        "score": float(np.clip(margin / CLEAR_MARGIN, 0.0, 1.0)),
+        "margin": round(float(margin), 4),
+        "alignment_score": round(float(score), 3),
+        "runner_up": None if runner is None else {
+            "alignment_score": round(float(runner[0]), 3),
+            "markers": {int(c): round(float(t), 4) for c, t in sorted(runner[1].items())}},
+        "small_markers": bool(np.median(shares) < 0.001) if shares else True,
+    }
 
 
 def _search_one(s: Mapping[str, Any], rt: np.ndarray, sz: np.ndarray, first: float,
                 top: np.ndarray, t_top: np.ndarray, w_top: np.ndarray, w_all: np.ndarray,
                 cand_top: np.ndarray, look: _Lookup, lib: np.ndarray, bonus, tolerance: float,
                 carbons: list[int], n_final: int, quick: bool = False,
-                s_cache: dict | None = None) -> tuple[float, dict[int, float] | None]:
+                s_cache: dict | None = None, alts_out: list | None = None
+                ) -> tuple[float, dict[int, float] | None]:
     """Steps 1-3 of :func:`find_markers` under one hold setting: (full score, markers).
 
     ``quick``: the best two core chains only, without variants or extension (to compare
@@ -642,7 +675,31 @@ def _search_one(s: Mapping[str, Any], rt: np.ndarray, sz: np.ndarray, first: flo
     if quick:
         return best_sc, best
     markers = _extend_chain(best, best_sc, rt, sz, full, s, first, (carbons[0], carbons[-1]))
-    return full(markers), markers
+    final = full(markers)
+    # the alternatives a wrong choice would most likely be: the same peaks labelled one or two
+    # carbon numbers off (a homologous shift: n-butane taken for C3), and the best other chain
+    alts: list[tuple[float, dict[int, float]]] = []
+    for k in (-2, -1, 1, 2):
+        shifted = {c + k: t for c, t in markers.items()}
+        if min(shifted) >= max(1, carbons[0] - 1) and max(shifted) <= carbons[-1] + 1:
+            alts.append((full(shifted), shifted))
+    for ch in chains:
+        if set(ch.values()) != set(v for c, v in best.items() if c in ch) or set(ch) != set(best):
+            if not (set(ch.items()) <= set(markers.items())):
+                alts.append((full(ch), dict(ch)))
+    # only sets that contradict the choice (a carbon number at another peak, a peak under
+    # another carbon number); one more or one less end marker is the same scale
+    by_t = {round(t, 9): c for c, t in markers.items()}
+    alts = [(a, m) for a, m in alts if np.isfinite(a) and (
+        any(c in markers and abs(markers[c] - t) > 1e-9 for c, t in m.items())
+        or any(by_t.get(round(t, 9), c) != c for c, t in m.items()))]
+    alts.sort(key=lambda x: -x[0])
+    if alts and alts[0][0] > final and len(alts[0][1]) == len(markers):
+        # a shifted labelling fits better: take it, the chosen set becomes the alternative
+        final, markers, alts[0] = alts[0][0], alts[0][1], (final, markers)
+    if alts_out is not None:
+        alts_out.extend(alts)
+    return final, markers
 
 
 def _bracket_scores(rt: np.ndarray, tc: np.ndarray, jj: np.ndarray, ii: np.ndarray,

@@ -90,7 +90,70 @@ def test_batch_cli_writes_summary_and_keeps_going(tmp_path):
     assert (out / "v01_comma_meta_total.json").is_file()
     assert any(p.name.startswith("trend_") for p in out.iterdir())
     flagged = pd.read_excel(out / "summary.xlsx", sheet_name="flagged runs")
-    assert set(flagged["input"]) <= {GOOD.name, COMP.name}
+    assert set(flagged["input file (path below the input root)"]) <= {GOOD.name, COMP.name}
+    assert "specification en228-e10-summer" in r.output      # named on screen
+
+
+def test_summary_workbook_for_people(tmp_path):
+    # issue 14: headers with units in words, rounded numbers, failed/marginal marked,
+    # filters and a frozen header, the specification named.
+    from openpyxl import load_workbook
+
+    rows = [{"input": "a.csv", "sample_id": "A", "status": batch.FAILS, "this_batch": batch.DONE_NOW,
+             "spec": "en228-e10-summer", "flags": "benzene_vol_pct>1 ~ron<95",
+             "benzene_vol_pct": 1.23456, "ron": 94.96123, "checks_failed": 1, "checks_marginal": 1},
+            {"input": "b.csv", "sample_id": "B", "status": batch.PASSES, "this_batch": batch.UP_TO_DATE,
+             "spec": "en228-e10-summer", "flags": "", "benzene_vol_pct": 0.5, "ron": 96.04,
+             "checks_failed": 0, "checks_marginal": 0},
+            {"input": "c.csv", "status": batch.NOT_PROCESSED, "this_batch": batch.DONE_NOW,
+             "error": "c.csv: no peak table found"}]
+    table = pd.DataFrame(rows).reindex(columns=batch.SUMMARY_COLUMNS)
+    wb = batch.summary_workbook(table, {"name": "en228-e10-summer", "source": "EN 228"})
+    ws = wb["runs"]
+    headers = [c.value for c in ws[1]]
+    assert "benzene, % by volume" in headers and "DVPE, calculated, kilopascals" in headers
+    assert ws.freeze_panes == "B2" and ws.auto_filter.ref
+    col = {h: i + 1 for i, h in enumerate(headers)}
+    assert ws.cell(2, col["benzene, % by volume"]).value == 1.23
+    assert ws.cell(2, col["RON, calculated (no unit)"]).value == 95.0
+    assert ws.cell(2, col["benzene, % by volume"]).fill.fgColor.rgb.endswith(batch._FAIL_FILL)
+    assert ws.cell(2, col["RON, calculated (no unit)"]).fill.fgColor.rgb.endswith(batch._MARGINAL_FILL)
+    assert ws.cell(3, col["benzene, % by volume"]).fill.fgColor.rgb in (None, "00000000")
+    statuses = [ws.cell(r, col["status"]).value for r in (2, 3, 4)]
+    assert statuses == ["processed, fails spec", "processed, passes", "not processed"]
+    assert wb["flagged runs"].max_row == 2
+    about = {r[0].value: r[1].value for r in wb["about"].iter_rows()}
+    assert about["Specification applied"] == "en228-e10-summer"
+    path = tmp_path / "s.xlsx"
+    wb.save(path)
+    assert load_workbook(path)["runs"].cell(1, 1).value == headers[0]
+
+
+def _all_commands(group, prefix=()):
+    import click
+    for name, cmd in group.commands.items():
+        if isinstance(cmd, click.Group):
+            yield from _all_commands(cmd, prefix + (name,))
+        else:
+            yield prefix + (name,), cmd
+
+
+def test_one_spelling_of_output_and_jobs_options():
+    # issue 14: -o/--out and -j/--jobs in every command; old spellings still accepted.
+    for name, cmd in _all_commands(cli):
+        for param in cmd.params:
+            if "-o" in getattr(param, "opts", []):
+                assert "--out" in param.opts, name
+            if param.name == "jobs":
+                assert {"-j", "--jobs"} <= set(param.opts), name
+    r = CliRunner().invoke(cli, ["library", "export", "--help"])
+    assert "--out" in r.output and "--output" not in r.output
+
+
+def test_old_output_spelling_still_works(tmp_path):
+    r = CliRunner().invoke(cli, ["library", "export", "--output", str(tmp_path / "lib.csv")])
+    assert r.exit_code == 0, r.output
+    assert (tmp_path / "lib.csv").is_file()
 
 
 def test_same_file_name_in_two_folders_gives_two_results(tmp_path, quick):
@@ -222,3 +285,17 @@ def test_sigkill_mid_batch_then_resume(tmp_path, quick):
     assert all(p.name.startswith(".") and p.name.endswith(".part")
                for p in out.rglob("*") if p.is_file() and p.suffix not in
                (".json", ".csv", ".xlsx", ".png", ".sqlite", ".sqlite-wal", ".sqlite-shm"))
+
+
+def test_library_check_runs_once_per_checksum(tmp_path, monkeypatch):
+    from dha import library as libmod
+
+    monkeypatch.setenv("DHA_CACHE_DIR", str(tmp_path / "cache"))
+    lib = libmod.read_library(libmod._folders(None))
+    calls = []
+    real = libmod.check_library
+    monkeypatch.setattr(libmod, "check_library", lambda x: calls.append(1) or real(x))
+    first = libmod.checked_problems(lib)
+    second = libmod.checked_problems(lib)
+    assert calls == [1] and first == second
+    assert len(list((tmp_path / "cache" / "library-checks").glob("*.json"))) == 1

@@ -466,3 +466,137 @@ def test_stated_oxygenates_keep_others_off_the_report(lib):
         outside = oxy - expected_oxygenates(lib, base["identify"])
         hit = default["component"].isin(outside) & (default["match"] == "retention_index")
         assert hit.any() == any("expected_oxygenates" in w for w in default.attrs["warnings"])
+
+
+# --------------------------------------------------------------------------------------------
+# Issue 13: a marker search that knows when it is unsure; confidence; robust to settings
+# --------------------------------------------------------------------------------------------
+
+def test_sparse_unnamed_run_with_automatic_markers_is_flagged(lib):
+    # The real FACE A fuel has 28 components (Kuzhagaliyeva 2022 data): an unnamed run of it
+    # with automatic markers is a guess (issue 13 measured 7.6 % right) and must say so.
+    from dha.synthetic import real_fuel_run
+    peaks, truth = real_fuel_run(lib, "KUZ-0628", seed=4242, index_noise_sd=0.5)
+    out = identify(peaks, lib, _settings(prior_exclude_families=["FACE_A"]))
+    q = out.attrs["quality"]
+    assert q["verdict"] == "fail", q
+    assert any("too few to find the n-alkane markers" in r for r in q["reasons"])
+    assert q["marker_source"] == "automatic search"
+
+
+def test_no_confident_wrong_composition_on_real_fuels(lib):
+    # Issue 13's count: runs with < 90 % of the mass right and no flag must be 0. Held-out
+    # families, seed 4243 (not used while choosing the thresholds, which were set on seed 2024):
+    # automatic markers and the alkane standard, sd 0.5 and sd 1.5 + 0.5 % drift.
+    from dha.synthetic import lab_standard, real_fuel_run
+    unflagged_bad = []
+    for mid, fam in _REAL[:4]:
+        for sd, drift in ((0.5, 0.0), (1.5, 0.5)):
+            peaks, truth = real_fuel_run(lib, mid, seed=4243, index_noise_sd=sd, drift_pct=drift)
+            for kw in ({}, {"markers": lab_standard()}):
+                out = identify(peaks, lib, _settings(prior_exclude_families=[fam], **kw))
+                acc = identification_accuracy(out, truth)
+                if acc < 0.90 and out.attrs["quality"]["verdict"] == "pass":
+                    unflagged_bad.append((mid, sd, bool(kw), acc))
+    assert not unflagged_bad, unflagged_bad
+
+
+def test_confidence_is_high_where_right_and_low_where_wrong(lib):
+    # Calibration in the large: on held-out real-fuel runs (alkane standard, sd 0.5) the mass
+    # identified with confidence >= 0.97 is right far more often than the mass below 0.5.
+    from dha.synthetic import lab_standard, real_fuel_run
+    hi, lo = [0.0, 0.0], [0.0, 0.0]
+    for mid, fam in _REAL:
+        peaks, truth = real_fuel_run(lib, mid, seed=4242, index_noise_sd=0.5)
+        out = identify(peaks, lib, _settings(markers=lab_standard(),
+                                             prior_exclude_families=[fam]))
+        members = {}
+        for r, c in zip(truth["row"], truth["component"]):
+            if c is not None and pd.notna(r):
+                members.setdefault(int(r), set()).add(c)
+        for r, c, cf, a in zip(out["row"], out["component"], out["confidence"], out["area"]):
+            if c is None or pd.isna(cf):
+                continue
+            ok = c in members.get(int(r), set())
+            box = hi if cf >= 0.97 else lo if cf < 0.5 else None
+            if box is not None:
+                box[0] += a * ok
+                box[1] += a
+    assert hi[0] / hi[1] >= 0.97, hi
+    assert lo[1] == 0 or lo[0] / lo[1] < hi[0] / hi[1] - 0.2, (lo, hi)
+
+
+def test_ri_tolerance_grid_never_changes_markers_silently(lib):
+    # Issue 13: [identify] ri_tolerance 1.5 (or 1.0) moved the C9/C10 markers of the unnamed
+    # demo run and aromatics fell from 44.9 to 18.2 % m/m with exit 0. Over the grid 0.5-5 the
+    # markers must be those of the default, or the identification check must not pass.
+    from pathlib import Path
+
+    from dha.reader import read_input
+    path = Path(__file__).resolve().parents[1] / "example_runs" / "hp-t11-reformate-unnamed.txt"
+    run = read_input(path, default_settings())[0]
+    base = identify(run.table, lib, default_settings()).attrs["markers"]
+    silent = []
+    for tol in (0.5, 1.0, 1.5, 2.0, 5.0):
+        s = default_settings()
+        s["identify"]["ri_tolerance"] = tol
+        out = identify(run.table, lib, s)
+        same = out.attrs["markers"].keys() == base.keys() and all(
+            abs(out.attrs["markers"][c] - t) < 1e-9 for c, t in base.items())
+        if not same and out.attrs["quality"]["verdict"] == "pass":
+            silent.append((tol, out.attrs["markers"]))
+        assert same, (tol, out.attrs["markers"], base)       # measured: the same at every value
+    assert not silent
+
+
+def test_shifted_marker_labels_lose_to_the_true_ones(lib):
+    # The "n-butane taken for C3" collapse: a chain labelled one carbon number off is scored as
+    # an alternative and never kept when the true labelling fits better; the runner-up reported
+    # contradicts the chosen set.
+    comp = example_composition("reformate", lib)
+    peaks, truth = synthetic_run(comp, lib, seed=5, index_noise_sd=0.5, drift_pct=0.5)
+    out = identify(peaks, lib, _settings())
+    q = out.attrs["quality"]
+    true = _true_marker_times(peaks, truth, lib)
+    assert all(abs(true[c] - t) < 1e-9 for c, t in out.attrs["markers"].items() if c <= 10)
+    ru = q["runner_up"]["markers"]
+    assert any(c in out.attrs["markers"] and abs(out.attrs["markers"][c] - t) > 1e-9
+               or c not in out.attrs["markers"] for c, t in ru.items())
+    assert 0.0 <= q["marker_score"] <= 1.0
+
+
+def test_every_peak_result_has_the_identification_check_and_confidences(lib, tmp_path):
+    # docs/interfaces: one "run quality" / "identification" entry in checks per peak-table
+    # result, confidence per component (null for composition tables), peaks to review listed.
+    from pathlib import Path
+
+    from click.testing import CliRunner
+
+    from dha.cli import cli
+    from dha.pipeline import process_file
+    from dha.synthetic import real_fuel_run
+    root = Path(__file__).resolve().parents[1] / "example_runs"
+    res = process_file(root / "hp-t11-reformate-unnamed.txt", default_settings(), lib, spec="")
+    ids = [c for c in res[0]["checks"] if c["property"] == "identification"]
+    assert len(ids) == 1 and ids[0]["spec"] == "run quality" and ids[0]["kind"] == "min"
+    assert ids[0]["verdict"] in ("pass", "marginal", "fail") and 0 <= ids[0]["value"] <= 1
+    assert all("confidence" in c for c in res[0]["components"])
+    named = [c for c in res[0]["components"] if c["match"] != "unidentified"]
+    assert all(0 <= c["confidence"] <= 1 for c in named)
+    review = res[0]["identification"]["peaks_to_review"]
+    assert review and review[0]["name"] == "benzene"          # benzene comes first
+    assert set(review[0]) == {"rt_min", "name", "group", "mass_pct", "confidence", "reason"}
+    comp = process_file(root / "hp-blend-recipe.csv", default_settings(), lib, spec="")
+    assert all(c["confidence"] is None for c in comp[0]["components"])
+    assert not [c for c in comp[0]["checks"] if c["property"] == "identification"]
+    # a sparse unnamed run: the check fails and --strict exits 3
+    peaks, _ = real_fuel_run(lib, "KUZ-0628", seed=4242, index_noise_sd=0.5)
+    path = tmp_path / "sparse.csv"
+    peaks[["rt_min", "area"]].rename(columns={"rt_min": "RT [min]", "area": "Area"}).to_csv(
+        path, index=False)
+    r = CliRunner().invoke(cli, ["report", str(path), "-o", str(tmp_path / "out"), "--strict",
+                                 "--spec", "", "--format", "json"])
+    assert r.exit_code == 3, r.output
+    r = CliRunner().invoke(cli, ["report", str(path), "-o", str(tmp_path / "out2"), "--spec", "",
+                                 "--format", "json"])
+    assert r.exit_code == 0, r.output

@@ -5,6 +5,8 @@ from pathlib import Path
 
 import click
 
+from dha.commands.options import jobs_option
+
 from dha import batch, specs
 from dha.errors import InputError
 from dha.settings import load_settings
@@ -34,8 +36,7 @@ def _shown(path: Path) -> str:
 @click.command("demo")
 @click.option("-o", "--out", "out_dir", default="out/demo", show_default=True,
               type=click.Path(file_okay=False, path_type=Path), help="Folder for the reports.")
-@click.option("--jobs", type=click.IntRange(1, 64), default=2, show_default=True,
-              help="Runs processed in parallel.")
+@jobs_option()
 def demo_command(out_dir: Path, jobs: int) -> None:
     """Run the example runs (an invented refinery's tanks) into reports and a batch summary.
 

@@ -5,7 +5,7 @@ from pathlib import Path
 
 import click
 
-from dha.commands.options import library_option, settings_option
+from dha.commands.options import library_option, settings_option, out_option
 
 COMMANDS: list[click.Command] = []
 
@@ -18,7 +18,7 @@ def index_group() -> None:
 @index_group.command("learn")
 @click.argument("refruns", nargs=-1, required=True,
                 type=click.Path(exists=True, dir_okay=False, path_type=Path))
-@click.option("-o", "--out-dir", required=True, type=click.Path(file_okay=False, path_type=Path),
+@out_option("out_dir", aliases=("--out-dir",), required=True, type=click.Path(file_okay=False, path_type=Path),
               help="Folder to write the library overlay to.")
 @library_option
 @settings_option

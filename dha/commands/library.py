@@ -6,6 +6,8 @@ from pathlib import Path
 
 import click
 
+from dha.commands.options import out_option
+
 from dha.errors import DhaError, LibraryError
 
 _LIBRARY_OPTION = click.option(
@@ -118,8 +120,8 @@ def show_command(name: str, library_dir: Path | None) -> None:
 
 
 @library_group.command("export")
-@click.option("-o", "--output", type=click.Path(dir_okay=False, path_type=Path), required=True,
-              help="CSV file to write.")
+@out_option("output", aliases=("--output",), type=click.Path(dir_okay=False, path_type=Path),
+            required=True, help="CSV file to write.")
 @_LIBRARY_OPTION
 @click.option("--overwrite", is_flag=True, help="Replace the output file if it exists.")
 def export_command(output: Path, library_dir: Path | None, overwrite: bool) -> None:

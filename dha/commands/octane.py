@@ -7,7 +7,7 @@ from pathlib import Path
 
 import click
 
-from dha.commands.options import library_option, settings_option
+from dha.commands.options import library_option, settings_option, out_option
 
 
 @click.group("octane")
@@ -48,8 +48,8 @@ def validate_command(details: Path | None) -> None:
 
 @octane_group.command("calibrate")
 @click.argument("samples", type=click.Path(exists=True, dir_okay=False, path_type=Path))
-@click.option("-o", "--output", type=click.Path(dir_okay=False, path_type=Path), required=True,
-              help="Calibration file to write (JSON).")
+@out_option("output", aliases=("--output",), type=click.Path(dir_okay=False, path_type=Path),
+            required=True, help="Calibration file to write (JSON).")
 @click.option("--kind", type=click.Choice(["bias", "slope", "groups"]), default="bias",
               show_default=True,
               help="bias: + b (>= 3 samples); slope: a + b x (>= 5); groups: bias + "

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import click
 
-from dha.commands.options import library_option, settings_option
+from dha.commands.options import library_option, settings_option, out_option
 
 from dha.errors import DhaError, InputError
 
@@ -36,7 +36,7 @@ def _headline(result: dict) -> str:
 
 @click.command("report")
 @click.argument("inputs", nargs=-1, required=True, type=click.Path(path_type=Path))
-@click.option("-o", "--out-dir", type=click.Path(file_okay=False, path_type=Path),
+@out_option("out_dir", aliases=("--out-dir",), type=click.Path(file_okay=False, path_type=Path),
               default=Path("."), show_default=True, help="Folder for the output files.")
 @click.option("--format", "formats", callback=_parse_formats, metavar="LIST",
               help="Comma-separated formats: json, xlsx, pdf (default: [report] formats).")
@@ -45,7 +45,7 @@ def _headline(result: dict) -> str:
 @library_option
 @settings_option
 @click.option("--overwrite", is_flag=True, help="Replace output files that exist.")
-@click.option("--strict", is_flag=True, help="Exit 3 when any specification check fails.")
+@click.option("--strict", is_flag=True, help="Exit 3 when any specification or identification check fails.")
 @click.option("--average-injections", is_flag=True,
               help="Average the injections of one sample (sheets of one workbook, or files "
                    "with the same sample id) into one result with a repeatability check "

@@ -112,13 +112,41 @@ def _rows(composition: pd.DataFrame, library) -> pd.DataFrame:
     return out
 
 
+#: Per-library tables of _carbon_spreads: {(id(components), column): (components, table)}.
+_SPREADS: dict[tuple[int, str], tuple[pd.DataFrame, dict]] = {}
+
+
+def _carbon_spreads(library, column: str) -> dict:
+    """{carbon number: range/√12 of ``column`` over the library's components of it (0 when
+    fewer than two values)}, computed once per library table (the library does not change
+    during a run; a different table gets its own entry)."""
+    comps = library.components
+    key = (id(comps), column)
+    cached = _SPREADS.get(key)
+    if cached is not None and cached[0] is comps:
+        return cached[1]
+    if column == "n_h":
+        values = pd.Series([formula_atoms(f).get("H", 0) for f in comps["formula"]],
+                           index=comps.index, dtype=float)
+    else:
+        values = pd.to_numeric(comps[column], errors="coerce")
+    table = {}
+    for cn, vals in values.groupby(comps["carbon_number"].to_numpy()):
+        vals = vals.dropna()
+        if column == "n_h":     # the range itself (None when fewer than two components)
+            table[cn] = float(vals.max() - vals.min()) if len(vals) >= 2 else None
+        else:
+            table[cn] = float((vals.max() - vals.min()) / np.sqrt(12.0)) if len(vals) >= 2 else 0.0
+    if len(_SPREADS) > 32:
+        _SPREADS.clear()
+    _SPREADS[key] = (comps, table)
+    return table
+
+
 def _same_carbon_spread(library, column: str, carbon_number) -> float:
     """Standard deviation of a uniform distribution over the library's values of ``column``
     for components of ``carbon_number`` (range/√12); 0 when fewer than two."""
-    comps = library.components
-    values = pd.to_numeric(comps.loc[comps["carbon_number"] == carbon_number, column],
-                           errors="coerce").dropna()
-    return float((values.max() - values.min()) / np.sqrt(12.0)) if len(values) >= 2 else 0.0
+    return _carbon_spreads(library, column).get(carbon_number, 0.0)
 
 
 def compute(composition: pd.DataFrame, library, settings: dict | None = None) -> PropertyResult:
@@ -176,13 +204,14 @@ def compute(composition: pd.DataFrame, library, settings: dict | None = None) ->
     # H/C of an unknown C_n: from the range of n_H among the library's C_n components.
     u_hc_unid = 0.0
     if len(unid) and mol_c.sum() > 0:
-        comps = library.components
-        for _, r in unid.iterrows():
-            same = comps.loc[comps["carbon_number"] == r["carbon_number"], "formula"]
-            n_h = [formula_atoms(f).get("H", 0) for f in same]
-            if len(n_h) >= 2:
-                share_c = r["w"] * r["n_c"] / r["molar_mass"] / mol_c.sum()
-                u_hc_unid += share_c * (max(n_h) - min(n_h)) / max(r["n_c"], 1) / np.sqrt(12.0)
+        h_range = _carbon_spreads(library, "n_h")      # range of n_H per C_n
+        total_c = mol_c.sum()
+        for cn, w_i, n_c, mm in zip(unid["carbon_number"], unid["w"], unid["n_c"],
+                                    unid["molar_mass"]):
+            range_h = h_range.get(cn)
+            if range_h is not None:
+                share_c = w_i * n_c / mm / total_c
+                u_hc_unid += share_c * range_h / max(n_c, 1) / np.sqrt(12.0)
 
     result.values["density_kg_m3"] = rho
     result.uncertainty["density_kg_m3"] = float(np.hypot(U_DENSITY_REL * rho, u_rho_unid))

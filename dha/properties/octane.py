@@ -736,6 +736,56 @@ def _lib_row(comps: pd.DataFrame, name: Any) -> pd.Series | None:
     return None
 
 
+#: Per-library cache of _component_inputs: {id(components): (components, {key: entry})}.
+_INPUTS_CACHE: dict[int, tuple[pd.DataFrame, dict]] = {}
+
+
+def _component_inputs(components: pd.DataFrame, key: str | None, cn: int | None,
+                      estimators: dict) -> dict:
+    """What a library component (or, for ``key`` None, the stand-in of carbon number ``cn``)
+    gives the models: group, class, molar mass, density and neat values with their
+    estimated flags. Computed once per library table and key (the per-row library lookup
+    and neat-value estimation cost most of ``model_inputs`` otherwise)."""
+    cached = _INPUTS_CACHE.get(id(components))
+    if cached is None or cached[0] is not components:
+        if len(_INPUTS_CACHE) > 8:
+            _INPUTS_CACHE.clear()
+        cached = _INPUTS_CACHE[id(components)] = (components, {})
+    table = cached[1]
+    ckey = key if key is not None else ("stand-in", cn)
+    if ckey in table:
+        return table[ckey]
+    lib = _lib_row(components, key)
+    if lib is not None:
+        group = str(lib.get("group"))
+        smiles = lib.get("smiles") if isinstance(lib.get("smiles"), str) else None
+        subgroup = lib.get("subgroup") if isinstance(lib.get("subgroup"), str) else None
+        mm = lib.get("molar_mass_g_mol")
+        dens = lib.get("density_15c_kg_m3")
+        neat = {p: lib.get(p) for p in PROPERTIES}
+    else:
+        group, smiles, subgroup = "isoparaffins", two_methyl_alkane_smiles(cn), "alkane"
+        mm = 14.027 * cn + 2.016
+        dens = np.nan
+        neat = {p: np.nan for p in PROPERTIES}
+    values = {}
+    for p in PROPERTIES:
+        v = neat[p]
+        est = pd.isna(v)
+        if est:
+            if not smiles:
+                raise LibraryError(f"component {key!r} has no measured {p} and no SMILES to "
+                                   "estimate it from; add either to the library")
+            if not estimators:
+                estimators.update(neat_estimators(components))
+            v = estimators[p].predict(group, smiles)
+        values[p] = (float(v), bool(est))
+    entry = {"group": group, "class": blending_class(group, smiles, subgroup), "mm": mm,
+             "dens": dens, "values": values}
+    table[ckey] = entry
+    return entry
+
+
 def model_inputs(composition: pd.DataFrame, components: pd.DataFrame) -> pd.DataFrame:
     """One row per composition row with what the models need.
 
@@ -748,32 +798,24 @@ def model_inputs(composition: pd.DataFrame, components: pd.DataFrame) -> pd.Data
         raise LibraryError("composition table has no vol_pct column; run the quantify stage")
     rows = []
     estimators: dict[str, NeatEstimator] = {}
-    for _, r in composition.iterrows():
+    index = components.index
+    for r in composition.to_dict(orient="records"):
         key = None
         for col in ("model_component", "component", "name"):
             v = r.get(col)
-            if isinstance(v, str) and v in components.index:
+            if isinstance(v, str) and v in index:
                 key = v
                 break
         if key is None and pd.notna(r.get("carbon_number")):
             # unidentified: the 2-methylalkane of its carbon number, if the library has it
             key = two_methyl_alkane_name(int(r["carbon_number"]))
-            key = key if key in components.index else None
-        lib = _lib_row(components, key)
-        if lib is not None:
-            group = str(lib.get("group"))
-            smiles = lib.get("smiles") if isinstance(lib.get("smiles"), str) else None
-            subgroup = lib.get("subgroup") if isinstance(lib.get("subgroup"), str) else None
-            mm = lib.get("molar_mass_g_mol")
-            dens = lib.get("density_15c_kg_m3")
-            neat = {p: lib.get(p) for p in PROPERTIES}
-        else:
+            key = key if key in index else None
+        cn = None
+        if key is None:
             cn = r.get("carbon_number")
             cn = int(cn) if pd.notna(cn) else 7
-            group, smiles, subgroup = "isoparaffins", two_methyl_alkane_smiles(cn), "alkane"
-            mm = 14.027 * cn + 2.016
-            dens = np.nan
-            neat = {p: np.nan for p in PROPERTIES}
+        entry = _component_inputs(components, key, cn, estimators)
+        mm, dens = entry["mm"], entry["dens"]
         mm = r.get("molar_mass_g_mol") if pd.isna(mm) else mm
         dens = r.get("density_kg_m3") if pd.isna(dens) else dens
         if pd.isna(dens) or pd.isna(mm):
@@ -782,20 +824,9 @@ def model_inputs(composition: pd.DataFrame, components: pd.DataFrame) -> pd.Data
         else:
             vm = float(mm) / float(dens) * 1000.0
         out = {"name": key or r.get("name"), "vol_frac": float(r["vol_pct"]) / 100.0,
-               "molar_volume_cm3_mol": vm, "group": group,
-               "class": blending_class(group, smiles, subgroup)}
+               "molar_volume_cm3_mol": vm, "group": entry["group"], "class": entry["class"]}
         for p in PROPERTIES:
-            v = neat[p]
-            est = pd.isna(v)
-            if est:
-                if not smiles:
-                    raise LibraryError(f"component {key!r} has no measured {p} and no SMILES to "
-                                       "estimate it from; add either to the library")
-                if not estimators:
-                    estimators = neat_estimators(components)
-                v = estimators[p].predict(group, smiles)
-            out[p] = float(v)
-            out[f"{p}_estimated"] = bool(est)
+            out[p], out[f"{p}_estimated"] = entry["values"][p]
         rows.append(out)
     return pd.DataFrame(rows)
 

@@ -374,6 +374,9 @@ def test_peak_extrapolated_below_index_100_is_c1_not_a_crash():
                           "area": [10.0, 10.0, 100.0, 100.0, 100.0], "name": None, "cas": None,
                           "retention_index": np.nan})
     ident = identify(peaks, lib, s)
+    assert (ident["carbon_number"] >= 1).all()       # the identifier gives no C0 any more
+    # an identified table (or export) that still carries them: quantify copes too
+    ident.loc[ident["rt_min"] < 5.0, "carbon_number"] = [-4, 0]
     q = quantify_peaks(ident, lib, s, peaks=peaks)
     assert q.table["mass_pct"].sum() == pytest.approx(100.0)
     assert (q.table["carbon_number"] >= 1).all() and (q.table["mass_pct"] > 0).all()

@@ -308,6 +308,20 @@ def static_refs() -> None:
         cite="Kuzhagaliyeva et al., Artificial intelligence-driven design of fuel mixtures, Commun. Chem. 5, "
              "111 (2022), measured MON as published in CheMixHub",
         doi="10.1038/s42004-022-00722-3", licence="CC BY 4.0")
+    ref("KUZ2022_MON_BY_NAME",
+        cite="KUZ2022_MON value attributed by the compound's name where the source's CAS number and "
+             "SMILES belong to another compound: 'isoprenol' MON 83.3 is listed under diisobutylene "
+             "(107-39-1) and given here to 3-methyl-3-buten-1-ol (763-32-6); see OCTANE_NAME_FIXES in "
+             "scripts/build_library.py",
+        doi="10.1038/s42004-022-00722-3", licence="CC BY 4.0")
+    ref("COOPTIMA_PURE",
+        cite="Co-Optima fuel property database export, 'Fuel Engine Co Optimization-2.csv' in the "
+             "NREL/cooptima-co-optimizer repository (commit 6b41b61), pure-component RON/MON with the "
+             "database's own source column: n-octane RON -18 and n-decane RON -41 / MON -38 'API Report'; "
+             "n-nonane RON -34 'Ind. Eng. Chem., 1941, 33 (4), pp 554-560'; 3-methyl-2-buten-1-ol RON 94.3 "
+             "'Southwest Research Institute, NREL'; 3-methylbut-3-en-1-ol RON 97.2 'NREL, September 2012'",
+        url="https://github.com/NREL/cooptima-co-optimizer",
+        licence="BSD-3-clause style (Alliance for Sustainable Energy / NREL and LBNL)")
     ref("ECNET_MASTER",
         cite="ECNet fuel property database (UMass Lowell ECRL), databases/properties_master.csv "
              "(TEL-flagged ratings not used)",
@@ -961,9 +975,42 @@ def unifac_groups(spec: Spec, report: list[str]):
 # ---------------------------------------------------------------------------------------------
 # octane
 # ---------------------------------------------------------------------------------------------
+#: KUZ2022_MON lists a compound named "isoprenol" (MON 83.3) under the CAS number and SMILES of
+#: diisobutylene (107-39-1); its gasoline blends labelled "isoprenol" carry the same mismatch. The
+#: value is attributed to the compound the source names: 3-methyl-3-buten-1-ol (763-32-6).
+OCTANE_NAME_FIXES = {("KUZ2022_MON", "isoprenol"): ("763-32-6", "CC(=C)CCO")}
+
+#: Neat values decided one by one (see octane_choices.md). Source COOPTIMA_PURE = the Co-Optima
+#: fuel property database export (NREL/cooptima-co-optimizer, "Fuel Engine Co Optimization-2.csv",
+#: columns Pure_RON / Pure_MON with the database's own source column, quoted in the reference).
+#: - n-octane, n-nonane, n-decane: the compilations give n-octane 0.0 (GNN2020_COMP, KUZ2022_MON),
+#:   no n-nonane, and n-decane +39.8 / +40.5 (ECNET_MASTER, literature key unresolvable), which
+#:   contradicts the n-paraffin series. COOPTIMA_PURE gives RON -18 (n-octane, "API Report"),
+#:   -34 (n-nonane, Ind. Eng. Chem. 33 (1941) 554) and -41 / MON -38 (n-decane, "API Report"):
+#:   used. Ratings below 0 are on the scale extended below n-heptane (the fuel is rated in
+#:   blends, from memory) and are kept as negative numbers; the blending model accepts them.
+#:   MON of n-octane and n-nonane: no source, left to the estimator (flagged estimated).
+#: - prenol and isoprenol: RON 94.3 ("Southwest Research Institute, NREL") and 97.2 ("NREL,
+#:   September 2012") from COOPTIMA_PURE; isoprenol MON 83.3 from KUZ2022_MON by name (above).
+#: Values above 100 stored as "100 + mL TEL" ratings are flagged in the source and never used
+#: (choose_octane skips them); the conversion is in the shared data's PROVENANCE (ASTM D2699 annex).
+OCTANE_DECIDED = {
+    "111-65-9": {"ron": ("COOPTIMA_PURE", -18.0), "mon": None},
+    "111-84-2": {"ron": ("COOPTIMA_PURE", -34.0), "mon": None},
+    "124-18-5": {"ron": ("COOPTIMA_PURE", -41.0), "mon": ("COOPTIMA_PURE", -38.0)},
+    "556-82-1": {"ron": ("COOPTIMA_PURE", 94.3), "mon": None},
+    "763-32-6": {"ron": ("COOPTIMA_PURE", 97.2), "mon": "keep"},
+}
+
+
 def octane_table():
     df = pd.read_csv(OCTANE_CSV, dtype={"cas": str})
     df["flag"] = df["flag"].fillna("")
+    for (src, name), (cas, smiles) in OCTANE_NAME_FIXES.items():
+        hit = (df["source_id"] == src) & (df["name"] == name)
+        df.loc[hit, "cas"] = cas
+        df.loc[hit, "smiles"] = smiles
+        df.loc[hit, "source_id"] = src + "_BY_NAME"
     return df
 
 
@@ -971,7 +1018,7 @@ def choose_octane(spec: Spec, oct_df: pd.DataFrame, notes: list[str]):
     rows = oct_df[oct_df["cas"] == spec.cas]
     out = {}
     for prop, prefs in (("ron", ["GNN2020_COMP", "ECNET_MASTER"]),
-                        ("mon", ["KUZ2022_MON", "GNN2020_COMP", "ECNET_MASTER"])):
+                        ("mon", ["KUZ2022_MON", "KUZ2022_MON_BY_NAME", "GNN2020_COMP", "ECNET_MASTER"])):
         cands = []
         for r in rows.itertuples():
             v = getattr(r, prop)
@@ -986,6 +1033,15 @@ def choose_octane(spec: Spec, oct_df: pd.DataFrame, notes: list[str]):
             if hit:
                 chosen = hit[0]
                 break
+        decided = OCTANE_DECIDED.get(spec.cas, {}).get(prop, "keep")
+        if decided != "keep":
+            chosen = decided
+            notes.append(f"| {spec.name} | {prop.upper()} | "
+                         + ("; ".join(f"{s}={v:g}" for s, v, _ in cands) or "none")
+                         + f" | {chosen[0] + '=' + format(chosen[1], 'g') if chosen else 'blank (estimated)'}"
+                         " (decided, see OCTANE_DECIDED) |")
+            out[prop] = chosen
+            continue
         out[prop] = chosen
         vals = [c[1] for c in cands]
         if len(cands) >= 2 and max(vals) - min(vals) >= 1.0:
@@ -1295,7 +1351,7 @@ def main(argv=None) -> int:
             raise SystemExit(f"source key {k} not in references")
     write_references(OUT / "references.toml")
     (OUT / "library.toml").write_text(
-        'name = "dha shipped library"\nversion = "2026.12.1"\n'
+        'name = "dha shipped library"\nversion = "2026.12.2"\n'
         'description = "Petrol components for detailed hydrocarbon analysis: identity, group, physical '
         'properties, neat octane numbers, FID effective carbon numbers, estimated retention indices on 100 % '
         'dimethylpolysiloxane, vapour-pressure correlations and original-UNIFAC groups. Built by '

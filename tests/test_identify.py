@@ -533,7 +533,8 @@ def test_ri_tolerance_grid_never_changes_markers_silently(lib):
     from pathlib import Path
 
     from dha.reader import read_input
-    path = Path(__file__).resolve().parents[1] / "dha" / "example_runs" / "hp-t11-premium-reformate.txt"
+    path = (Path(__file__).resolve().parents[1] / "dha" / "example_runs"
+            / "hp-t11-premium-reformate.txt")
     run = read_input(path, default_settings())[0]
     base = identify(run.table, lib, default_settings()).attrs["markers"]
     silent = []

@@ -276,6 +276,66 @@ def blending_class(group: str, smiles: str | None = None, subgroup: str | None =
                        "olefins, naphthenes, aromatics, oxygenates")
 
 
+#: Structure categories of the blending shift (see :func:`blend`): what every octane text names
+#: as the structural factors -- chain length and branching of paraffins, rings, unsaturation
+#: (terminal or internal double bond), aromatic substitution. Oxygenates have none.
+STRUCTURE_CATEGORIES = ("n_paraffin", "paraffin_1branch", "paraffin_multibranch", "naphthene",
+                        "olefin_terminal", "olefin_internal", "aromatic_mono", "aromatic_poly")
+
+
+def structure_category(group: str, smiles: str | None) -> str:
+    """Blending-structure category of a hydrocarbon ("" for oxygenates and unknown structure).
+
+    >>> structure_category("n_paraffins", "CCCCCCC"), structure_category("isoparaffins", "CC(C)CCCC")
+    ('n_paraffin', 'paraffin_1branch')
+    >>> structure_category("isoparaffins", "CC(C)CC(C)(C)C"), structure_category("aromatics", "Cc1ccccc1C")
+    ('paraffin_multibranch', 'aromatic_poly')
+    """
+    if not isinstance(smiles, str) or not smiles:
+        return ""
+    cls = blending_class(group, smiles)
+    st = parse_smiles(smiles)
+    if cls == "paraffin":
+        branches = st.n_tertiary + 2 * st.n_quaternary
+        return ("n_paraffin" if branches == 0 else "paraffin_1branch" if branches == 1
+                else "paraffin_multibranch")
+    if cls == "naphthene":
+        return "naphthene"
+    if cls == "olefin":
+        return "olefin_terminal" if st.n_double_terminal else "olefin_internal"
+    if cls == "aromatic":
+        # substituents on the ring: non-aromatic carbons joined to it, read as methyl ends + chains
+        subst = st.n_c - st.n_aromatic_c
+        return "aromatic_mono" if subst <= 1 or st.n_aromatic_c > 6 else (
+            "aromatic_poly" if _ring_substituents(smiles) >= 2 else "aromatic_mono")
+    return ""
+
+
+@lru_cache(maxsize=4096)
+def _ring_substituents(smiles: str) -> int:
+    """Number of aromatic carbons bearing a non-aromatic carbon (substitution positions)."""
+    toks = [t.group() for t in _ATOM_RE.finditer(smiles)]
+    # cheap: count aromatic atoms followed or preceded by a branch/aliphatic carbon in the string
+    n = 0
+    prev_aromatic = False
+    depth_aromatic: list[bool] = []
+    for t in toks:
+        if t == "(":
+            depth_aromatic.append(prev_aromatic)
+        elif t == ")":
+            prev_aromatic = depth_aromatic.pop() if depth_aromatic else prev_aromatic
+        elif t == "c":
+            prev_aromatic = True
+        elif t == "C":
+            if prev_aromatic:
+                n += 1
+            prev_aromatic = False
+    first_c = next((t for t in toks if t in ("c", "C")), None)
+    if first_c == "C":
+        n += 1
+    return n
+
+
 def two_methyl_alkane_smiles(carbon_number: int) -> str:
     """SMILES of the 2-methylalkane with ``carbon_number`` carbons (stand-in for unknown peaks).
 
@@ -350,8 +410,8 @@ class NeatEstimator:
     n: int
 
     def predict(self, group: str, smiles: str) -> float:
-        """Estimated neat octane number, bounded to [-20, 130]."""
-        return float(np.clip(structure_features(group, smiles) @ np.array(self.coef), -20, 130))
+        """Estimated neat octane number, bounded to [-60, 130] (n-decane is rated -41 RON)."""
+        return float(np.clip(structure_features(group, smiles) @ np.array(self.coef), -60, 130))
 
 
 def fit_neat_estimator(components: pd.DataFrame, prop: str) -> NeatEstimator:
@@ -397,7 +457,30 @@ def fit_neat_estimator(components: pd.DataFrame, prop: str) -> NeatEstimator:
 @lru_cache(maxsize=8)
 def _estimators_for(key: str, table_json: str) -> dict[str, NeatEstimator]:
     comps = pd.read_json(io.StringIO(table_json), orient="split")
-    return {p: fit_neat_estimator(comps, p) for p in PROPERTIES}
+    out = {p: fit_neat_estimator(comps, p) for p in PROPERTIES}
+    both = comps.dropna(subset=["ron", "mon"]).copy()
+    both["sensitivity"] = both["ron"].astype(float) - both["mon"].astype(float)
+    out["sensitivity"] = fit_neat_estimator(both, "sensitivity")
+    return out
+
+
+def estimate_neat_pair(group: str, smiles: str, ron: float, mon: float,
+                       estimators: dict[str, NeatEstimator]) -> tuple[float, float, bool, bool]:
+    """Fill a missing neat RON or MON: from the other one and an estimated sensitivity when one is
+    measured (S = RON - MON regressed on structure, fitted on the components with both), from
+    structure alone when neither is.
+
+    Returns (ron, mon, ron_estimated, mon_estimated).
+    """
+    r_ok, m_ok = pd.notna(ron), pd.notna(mon)
+    if r_ok and m_ok:
+        return float(ron), float(mon), False, False
+    if r_ok:
+        return float(ron), float(ron) - estimators["sensitivity"].predict(group, smiles), False, True
+    if m_ok:
+        return float(mon) + estimators["sensitivity"].predict(group, smiles), float(mon), True, False
+    return (estimators["ron"].predict(group, smiles), estimators["mon"].predict(group, smiles),
+            True, True)
 
 
 def neat_estimators(components: pd.DataFrame) -> dict[str, NeatEstimator]:
@@ -436,8 +519,28 @@ def _class_matrix(classes: list[str]) -> dict[str, np.ndarray]:
     return out
 
 
+def structure_shift(neat_on: np.ndarray, categories: list[str] | None,
+                    shifts: dict[str, float]) -> np.ndarray:
+    r"""Blending-value shift of each component from its structure category.
+
+    :math:`\Delta_i = s_{cat(i)}\,4\,d_i (1 - d_i)` with :math:`d_i = \min(1, \max(0,
+    (100 - ON_i)/100))`: zero at neat values 0 and 100 (n-heptane and isooctane, so the PRF
+    scale stays exact whatever :math:`s`), largest for mid-range components.
+
+    >>> structure_shift(np.array([0.0, 100.0, 50.0]), ["n_paraffin"] * 3, {"n_paraffin": 8.0})
+    array([0., 0., 8.])
+    """
+    on = np.asarray(neat_on, dtype=float)
+    if not categories or not shifts:
+        return np.zeros_like(on)
+    amp = np.array([float(shifts.get(c, 0.0)) for c in categories])
+    d = np.clip((100.0 - on) / 100.0, 0.0, 1.0)
+    return amp * 4.0 * d * (1.0 - d)
+
+
 def blend(vol_frac: np.ndarray, neat_on: np.ndarray, molar_volume_cm3_mol: np.ndarray,
-          classes: list[str], model: str, params: dict[str, Any] | None = None) -> np.ndarray:
+          classes: list[str], model: str, params: dict[str, Any] | None = None,
+          categories: list[str] | None = None) -> np.ndarray:
     r"""Octane number of one or many blends.
 
     Parameters
@@ -451,6 +554,9 @@ def blend(vol_frac: np.ndarray, neat_on: np.ndarray, molar_volume_cm3_mol: np.nd
     classes : list of str
         Blending class of each component (:data:`CLASSES`).
     model : {"linear_volume", "linear_mole", "interaction"}
+    categories : list of str, optional
+        Structure category of each component (:func:`structure_category`), for the
+        ``interaction`` model's blending shifts ``params["s"]`` (:func:`structure_shift`).
     params : dict, optional
         For ``interaction``: ``{"beta": {class: value}, "gamma": {class: value},
         "k": {name: value}, "deficit_power": q}``; missing entries mean beta = gamma = 1,
@@ -532,7 +638,8 @@ def blend(vol_frac: np.ndarray, neat_on: np.ndarray, molar_volume_cm3_mol: np.nd
         f = float(gamma.get(c, 1.0)) if model == "interaction" else 1.0
         w += f * phi * (cm[c] / vm)[None, :]
     z = w / w.sum(axis=1, keepdims=True)
-    out = z @ on
+    shift = structure_shift(on, categories, p.get("s", {})) if model == "interaction" else 0.0
+    out = z @ (on + shift)
     power = float(p.get("deficit_power", 1.0))
     deficit = cm["hydrocarbon"] * np.clip((100.0 - on) / 100.0, 0.0, None) ** power
     d_total = z @ deficit
@@ -554,6 +661,29 @@ def blend(vol_frac: np.ndarray, neat_on: np.ndarray, molar_volume_cm3_mol: np.nd
         raise SettingsError(f"octane parameters: unknown interaction term(s) {unknown}; "
                             "refit with scripts/fit_octane.py")
     return float(out[0]) if single else out
+
+
+def blend_ron(vol_frac: np.ndarray, neat_ron: np.ndarray, neat_mon: np.ndarray,
+              molar_volume_cm3_mol: np.ndarray, classes: list[str], params: dict[str, Any],
+              categories: list[str] | None = None) -> np.ndarray:
+    r"""RON of the ``interaction`` model: the MON model plus a blended sensitivity.
+
+    .. math:: RON = MON + \sum_i z_i\,a\,S_i + \sum_o k_o Z_o (1 - Z_o)
+
+    with :math:`S_i = RON_i - MON_i` the neat sensitivity (paraffins about 0, olefins,
+    aromatics and alcohols well above), :math:`z_i` the mole-lump weights of :func:`blend`,
+    a fitted scale :math:`a` and oxygenate-base terms (Anderson and Wallington 2020 form).
+    ``params``: ``{"mode": "mon_plus_sensitivity", "mon": <MON parameters>, "sensitivity":
+    {"scale": a, "k": {...}, "beta": {...}}}``. A primary reference fuel has S = 0 (both
+    reference fuels have RON = MON), so RON = MON = % v/v isooctane.
+    """
+    mon = blend(vol_frac, neat_mon, molar_volume_cm3_mol, classes, "interaction",
+                params.get("mon", {}), categories=categories)
+    sp = params.get("sensitivity", {})
+    sens = float(sp.get("scale", 1.0)) * (np.asarray(neat_ron, float) - np.asarray(neat_mon, float))
+    s = blend(vol_frac, sens, molar_volume_cm3_mol, classes, "interaction",
+              {"k": sp.get("k", {}), "beta": sp.get("beta", {})})
+    return mon + s
 
 
 def _known_k_name(name: str) -> bool:
@@ -768,20 +898,17 @@ def _component_inputs(components: pd.DataFrame, key: str | None, cn: int | None,
         mm = 14.027 * cn + 2.016
         dens = np.nan
         neat = {p: np.nan for p in PROPERTIES}
-    values = {}
-    for p in PROPERTIES:
-        v = neat[p]
-        est = pd.isna(v)
-        if est:
-            if not smiles:
-                raise LibraryError(f"component {key!r} has no measured {p} and no SMILES to "
-                                   "estimate it from; add either to the library")
-            if not estimators:
-                estimators.update(neat_estimators(components))
-            v = estimators[p].predict(group, smiles)
-        values[p] = (float(v), bool(est))
+    if pd.isna(neat["ron"]) or pd.isna(neat["mon"]):
+        if not smiles:
+            raise LibraryError(f"component {key!r} has no measured RON/MON and no SMILES to "
+                               "estimate it from; add either to the library")
+        if not estimators:
+            estimators.update(neat_estimators(components))
+    r_, m_, r_est, m_est = estimate_neat_pair(group, smiles, neat["ron"], neat["mon"],
+                                              estimators)
+    values = {"ron": (float(r_), bool(r_est)), "mon": (float(m_), bool(m_est))}
     entry = {"group": group, "class": blending_class(group, smiles, subgroup), "mm": mm,
-             "dens": dens, "values": values}
+             "dens": dens, "values": values, "structure": structure_category(group, smiles)}
     table[ckey] = entry
     return entry
 
@@ -824,7 +951,8 @@ def model_inputs(composition: pd.DataFrame, components: pd.DataFrame) -> pd.Data
         else:
             vm = float(mm) / float(dens) * 1000.0
         out = {"name": key or r.get("name"), "vol_frac": float(r["vol_pct"]) / 100.0,
-               "molar_volume_cm3_mol": vm, "group": entry["group"], "class": entry["class"]}
+               "molar_volume_cm3_mol": vm, "group": entry["group"], "class": entry["class"],
+               "structure": entry["structure"]}
         for p in PROPERTIES:
             out[p], out[f"{p}_estimated"] = entry["values"][p]
         rows.append(out)
@@ -844,10 +972,18 @@ def predict_inputs(inputs: pd.DataFrame, model: str, params: dict[str, Any] | No
     """RON and MON of one sample from :func:`model_inputs` (uncalibrated)."""
     p = params if params is not None else load_params()
     out = {}
+    cats = list(inputs["structure"]) if "structure" in inputs else None
     for prop in PROPERTIES:
+        mp = model_params(model, prop, p)
+        if mp.get("mode") == "mon_plus_sensitivity":
+            out[prop] = blend_ron(inputs["vol_frac"].to_numpy(), inputs["ron"].to_numpy(),
+                                  inputs["mon"].to_numpy(),
+                                  inputs["molar_volume_cm3_mol"].to_numpy(),
+                                  list(inputs["class"]), mp, categories=cats)
+            continue
         out[prop] = blend(inputs["vol_frac"].to_numpy(), inputs[prop].to_numpy(),
                           inputs["molar_volume_cm3_mol"].to_numpy(), list(inputs["class"]),
-                          model, model_params(model, prop, p))
+                          model, mp, categories=cats)
     return out
 
 
@@ -935,6 +1071,7 @@ def compute(composition: pd.DataFrame, library, settings: dict[str, Any]) -> Pro
         "octane_neat_estimator_loo_rmse": {p: est[p].loo_rmse for p in PROPERTIES},
         "octane_calibration": calibrated,
         "octane_uncertainty_basis": ("calibration leave-one-out RMSE" if calibrated else
-                                     "cross-validated RMSE on held-out mixture families"),
+                                     "held-out RMSE on 40 real gasolines (each base fuel with "
+                                     "its blends left out of the fit in turn)"),
     })
     return result

@@ -2,7 +2,9 @@
 from __future__ import annotations
 
 import logging
+from contextlib import contextmanager
 from pathlib import Path
+from typing import Iterator
 
 import click
 
@@ -46,8 +48,12 @@ def _headline(result: dict) -> str:
 @settings_option
 @click.option("--overwrite", is_flag=True, help="Replace output files that exist.")
 @click.option("--strict", is_flag=True, help="Exit 3 when any specification or identification check fails.")
+@click.option("--average-injections", is_flag=True,
+              help="Average the injections of one sample (sheets of one workbook, or files "
+                   "with the same sample id) into one result with a repeatability check "
+                   "([injections] in the settings).")
 def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, overwrite,
-                   strict) -> None:
+                   strict, average_injections) -> None:
     """Turn peak tables or composition tables into results: JSON (and Excel, PDF).
 
     Writes DIR/<stem>.json (.xlsx, .pdf) per input file, or DIR/<stem>__<sheet>.* per
@@ -75,9 +81,17 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
         specs.load_profile(profile)   # a bad profile is the profile's error, not an input's
     failed_checks = 0
     failed_inputs = 0
-    for path in inputs:
+    average = average_injections or settings.get("injections", {}).get("average", False)
+    todo = [None] if average else list(inputs)     # None: the injections averaged together
+    for path in todo:
         try:
-            results = process_file_stems(path, settings, library, spec)
+            if path is None:
+                from dha.replicates import report_averaged
+                results = report_averaged(inputs, settings, library, spec, lambda p: [
+                    (stem, r) for stem, r in process_file_stems(p, settings, library, spec)])
+            else:
+                with warnings_name_input(path):
+                    results = process_file_stems(path, settings, library, spec)
             for stem, result in results:
                 written = write_outputs(result, out_dir, stem, formats, overwrite=overwrite)
                 failed_checks += sum(1 for c in result.get("checks", [])
@@ -94,12 +108,35 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
                 f"dha: error: {path}: could not be processed ({type(err).__name__}: {err}); "
                 "run with -vv for details"), err=True)
     if failed_inputs:
-        if len(inputs) > 1:
-            click.echo(f"dha: {failed_inputs} of {len(inputs)} input(s) failed", err=True)
+        if len(todo) > 1:
+            click.echo(f"dha: {failed_inputs} of {len(todo)} input(s) failed", err=True)
         click.get_current_context().exit(1)
     if strict and failed_checks:
         click.echo(f"dha: {failed_checks} specification check(s) failed", err=True)
         click.get_current_context().exit(3)
+
+
+@contextmanager
+def warnings_name_input(path) -> Iterator[None]:
+    """While ``path`` is processed, every warning printed on stderr starts with its file name
+    ("dha: WARNING: tank-14.csv: ..."), so that warnings of several inputs can be told apart."""
+    name = Path(str(path)).name.replace("%", "%%")
+
+    class _NameInput(logging.Filter):
+        def filter(self, record: logging.LogRecord) -> bool:
+            if record.levelno >= logging.WARNING and not str(record.msg).startswith(name):
+                record.msg = f"{name}: {record.msg}"
+            return True
+
+    flt = _NameInput()
+    handlers = list(logging.getLogger().handlers)
+    for h in handlers:
+        h.addFilter(flt)
+    try:
+        yield
+    finally:
+        for h in handlers:
+            h.removeFilter(flt)
 
 
 COMMANDS = [report_command]

@@ -32,16 +32,6 @@ PEAKS = [(1.50, 1000.0, "propane"), (2.10, 2000.0, "isobutane"), (2.60, 3000.0, 
          (4.00, 4000.0, "n-pentane"), (7.50, 5000.0, "toluene")]
 
 
-@pytest.fixture(autouse=True)
-def _restore_dha_log_level():
-    """``dha batch`` quiets the "dha" logger for its run; later tests must not inherit that."""
-    import logging
-    logger = logging.getLogger("dha")
-    level = logger.level
-    yield
-    logger.setLevel(level)
-
-
 def peak_csv(path: Path, rows=PEAKS, sample="T-1", extra_meta: str = "") -> Path:
     lines = [f"Sample: {sample}", extra_meta, "RT [min],Area,Name"] if extra_meta else \
         [f"Sample: {sample}", "RT [min],Area,Name"]

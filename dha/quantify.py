@@ -402,6 +402,16 @@ def _carbon_numbers(peaks: pd.DataFrame, warnings: list[str]) -> pd.Series:
                         f"{', '.join(map(str, rows[:10]))}{' ...' if len(rows) > 10 else ''}) "
                         "took the carbon number of the peak before them")
         cn = filled
+    low = cn < 1
+    if low.any():
+        # an index below 100 (a peak extrapolated before the lightest marker, e.g. markers
+        # taken one carbon number too high) has no carbon number of its own
+        rows = peaks.loc[low, "row"].tolist() if "row" in peaks else list(cn.index[low])
+        warnings.append(f"{len(rows)} peak(s) with a retention index below 100 (rows "
+                        f"{', '.join(map(str, rows[:10]))}{' ...' if len(rows) > 10 else ''}) "
+                        "counted as C1: no compound of petrol elutes before methane; check the "
+                        "n-alkane markers")
+        cn = cn.where(~low, 1)
     return cn.round().astype(int)
 
 

@@ -23,8 +23,9 @@ $(STAMP_TEST): $(BIN)/python pyproject.toml
 
 install: $(STAMP_RUN)
 
+# -n 2: the tests run on two processes (pytest-xdist); plain `pytest` runs them in one.
 test: $(STAMP_TEST)
-	$(BIN)/python -m pytest -q -p no:cacheprovider
+	$(BIN)/python -m pytest -q -p no:cacheprovider -n 2
 
 demo: $(STAMP_RUN)
 	$(BIN)/dha demo -o out/demo

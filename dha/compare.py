@@ -113,23 +113,47 @@ def _component_diff(a: list[dict], b: list[dict], tolerance: float) -> list[dict
     return rows
 
 
+#: JSON files an output folder holds that are not results (batch record, summaries).
+_NOT_RESULTS = {"summary.json", "dha-batch.json"}
+
+
+def _is_result_file(path: Path) -> bool:
+    if path.name in _NOT_RESULTS or path.name.startswith("."):
+        return False
+    try:
+        with path.open("r", encoding="utf-8") as fh:
+            head = fh.read(4096)
+    except (OSError, UnicodeDecodeError):
+        return False
+    return '"dha-result/' in head
+
+
 def _result_files(path: Path) -> dict[str, Path]:
+    """Result JSON files under a folder (any depth: batch output mirrors the input folders),
+    keyed by their path relative to it; a file is keyed by its name."""
     if path.is_dir():
-        return {p.name: p for p in sorted(path.glob("*.json")) if p.name != "summary.json"}
+        return {p.relative_to(path).as_posix(): p for p in sorted(path.rglob("*.json"))
+                if _is_result_file(p)}
     return {path.name: path}
 
 
 def compare_paths(a: Path, b: Path, tolerance: float = 0.005) -> pd.DataFrame:
-    """Compare two result files, or two folders of results paired by file name."""
+    """Compare two result files, or two folders of results paired by relative path.
+
+    The table's ``attrs`` hold the counts: ``pairs`` (result pairs compared), ``pairs_differing``,
+    ``only_in_a`` and ``only_in_b`` (files without a partner).
+    """
     a, b = Path(a), Path(b)
     for p in (a, b):
         if not p.exists():
             raise InputError(f"{p}: no such file or folder")
-    files_a, files_b = _result_files(a), _result_files(b)
     if a.is_file() and b.is_file():
         pairs = [(a.name if a.name == b.name else f"{a.name} vs {b.name}", a, b)]
-        only = []
+        only: list[tuple[str, str]] = []
     else:
+        if a.is_file() != b.is_file():
+            raise InputError(f"{a} and {b}: give two result files or two folders")
+        files_a, files_b = _result_files(a), _result_files(b)
         common = sorted(set(files_a) & set(files_b))
         pairs = [(n, files_a[n], files_b[n]) for n in common]
         only = [(n, "only in A") for n in sorted(set(files_a) - set(files_b))]
@@ -137,14 +161,50 @@ def compare_paths(a: Path, b: Path, tolerance: float = 0.005) -> pd.DataFrame:
         if not pairs and not only:
             raise InputError(f"{a} and {b}: no result JSON files found to compare")
     frames = []
+    differing = 0
     for name, pa, pb in pairs:
         t = compare_results(load_result(pa), load_result(pb), tolerance)
-        t.insert(0, "pair", name)
-        frames.append(t)
+        if not t.empty:
+            differing += 1
+            t.insert(0, "pair", name)
+            frames.append(t)
     if only:
         frames.append(pd.DataFrame([{"pair": n, "section": "files", "item": n, "a": None,
                                      "b": None, "delta": None, "note": note} for n, note in only]))
-    if not frames:
-        return pd.DataFrame(columns=COLUMNS)
-    frames = [f for f in frames if not f.empty]
-    return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=COLUMNS)
+    table = (pd.concat(frames, ignore_index=True) if frames
+             else pd.DataFrame(columns=COLUMNS))
+    table.attrs.update(pairs=len(pairs), pairs_differing=differing,
+                       only_in_a=sum(1 for _n, note in only if note == "only in A"),
+                       only_in_b=sum(1 for _n, note in only if note == "only in B"))
+    return table
+
+
+def _cell(value: Any, note: str = "", side: str = "") -> str:
+    """Screen text of a value: numbers to 6 significant digits, absent values in words."""
+    if value is None or (isinstance(value, float) and value != value):
+        if side == "delta":
+            return ""
+        if note == f"only in {'B' if side == 'a' else 'A'}":
+            return "(absent)"
+        if note == f"only in {side.upper()}":
+            return "present"
+        return "(none)"
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (int, float)):
+        text = f"{value:+.6g}" if side == "delta" else f"{value:.6g}"
+        return text
+    return str(value)
+
+
+def screen_rows(table: pd.DataFrame) -> list[list[str]]:
+    """The difference table as text cells for the terminal: no "NaN" or "None" anywhere."""
+    rows = []
+    for rec in table.to_dict("records"):
+        note = rec.get("note") or ""
+        note = "" if (isinstance(note, float) and note != note) else str(note)
+        rows.append([str(rec.get("pair") or ""), str(rec.get("section") or ""),
+                     str(rec.get("item") or ""), _cell(rec.get("a"), note, "a"),
+                     _cell(rec.get("b"), note, "b"), _cell(rec.get("delta"), note, "delta"),
+                     note])
+    return rows

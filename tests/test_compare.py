@@ -52,3 +52,31 @@ def test_cli_not_a_result(tmp_path):
     r = CliRunner().invoke(cli, ["compare", str(bad), str(bad)])
     assert r.exit_code == 1
     assert "not a dha result" in r.output and "Traceback" not in r.output
+
+
+def test_screen_shows_no_nan_or_none_and_counts_pairs(tmp_path):
+    # Folders as `dha batch` writes them: results in sub-folders, a batch record beside them.
+    ra = _result("1", 95.0, 1.0, COMPS_A)
+    rb = _result("2", 95.4, 1.0, COMPS_B)
+    rb["properties"]["mon"] = 85.1            # a key only in B
+    for folder, res in (("a", ra), ("b", rb)):
+        (tmp_path / folder / "2024-01").mkdir(parents=True)
+        (tmp_path / folder / "2024-01" / "run1.json").write_text(json.dumps(res))
+        (tmp_path / folder / "2024-01" / "same.json").write_text(json.dumps(ra))
+        (tmp_path / folder / "dha-batch.json").write_text(json.dumps({"input_root": "x"}))
+    (tmp_path / "a" / "2024-01" / "gone.json").write_text(json.dumps(ra))
+    (tmp_path / "b" / "2024-01" / "late.json").write_text(json.dumps(ra))
+    r = CliRunner().invoke(cli, ["compare", str(tmp_path / "a"), str(tmp_path / "b")])
+    assert r.exit_code == 0, r.output
+    for word in ("NaN", "None", "nan"):
+        assert word not in r.output, word
+    lines = r.output.splitlines()
+    assert any("2024-01/gone.json" in ln and "only in A" in ln for ln in lines)
+    assert any("2024-01/late.json" in ln and "only in B" in ln for ln in lines)
+    mon = [ln for ln in lines if " mon " in f" {ln} "][0]
+    assert "(absent)" in mon and "85.1" in mon
+    ron = [ln for ln in lines if " ron " in f" {ln} "][0]
+    assert "+0.4" in ron
+    # two pairs compared (run1, same), one differing; the batch record is not a result
+    assert ("2 pair(s) of results compared, 1 with differences; 1 result(s) only in A, "
+            "1 only in B") in r.output

@@ -533,7 +533,8 @@ def test_ri_tolerance_grid_never_changes_markers_silently(lib):
     from pathlib import Path
 
     from dha.reader import read_input
-    path = Path(__file__).resolve().parents[1] / "example_runs" / "hp-t11-reformate-unnamed.txt"
+    path = (Path(__file__).resolve().parents[1] / "dha" / "example_runs"
+            / "hp-t11-premium-reformate.txt")
     run = read_input(path, default_settings())[0]
     base = identify(run.table, lib, default_settings()).attrs["markers"]
     silent = []
@@ -575,8 +576,8 @@ def test_every_peak_result_has_the_identification_check_and_confidences(lib, tmp
     from dha.cli import cli
     from dha.pipeline import process_file
     from dha.synthetic import real_fuel_run
-    root = Path(__file__).resolve().parents[1] / "example_runs"
-    res = process_file(root / "hp-t11-reformate-unnamed.txt", default_settings(), lib, spec="")
+    root = Path(__file__).resolve().parents[1] / "dha" / "example_runs"
+    res = process_file(root / "hp-t11-premium-reformate.txt", default_settings(), lib, spec="")
     ids = [c for c in res[0]["checks"] if c["property"] == "identification"]
     assert len(ids) == 1 and ids[0]["spec"] == "run quality" and ids[0]["kind"] == "min"
     assert ids[0]["verdict"] in ("pass", "marginal", "fail") and 0 <= ids[0]["value"] <= 1

@@ -73,7 +73,10 @@ def _saturated(name: str) -> float:
 
 
 @lru_cache(maxsize=1)
+@lru_cache(maxsize=1)
 def tiny_library() -> TinyLibrary:
+    """Built once per test session (thermo's Chemical objects are slow to make); the tests
+    only read it."""
     from chemicals.elements import molecular_weight, nested_formula_parser
     from thermo import Chemical
     rows = []

@@ -204,15 +204,16 @@ def test_600_components_shortened_list_points_to_the_workbook(result, tmp_path):
     assert f"page {len(text)} of {len(text)}" in text[-1]
 
 
-def test_600_components_all_listed_when_asked(result, tmp_path):
-    big = _many_components(result, 600)
+def test_all_components_listed_when_asked(result, tmp_path):
+    # 250 rows run over 3 pages or more (about 85 rows a page); enough to see the header repeat
+    big = _many_components(result, 250)
     big["settings"]["report"]["pdf_component_rows"] = 0
     text = _read(write_pdf(big, tmp_path / "all.pdf"))
     listing = " ".join(text)
-    assert "Components (600 rows; largest first)" in listing
-    assert "peak 596: an invented component name" in listing      # long names wrap, in full
+    assert "Components (250 rows; largest first)" in listing
+    assert "peak 246: an invented component name" in listing      # long names wrap, in full
     # the header repeats on every page the listing runs over
-    assert sum("RT [min]" in t for t in text) >= 5
+    assert sum("RT [min]" in t for t in text) >= 3
 
 
 def test_certificate_number_empty_pattern_gives_a_blank_field():

@@ -628,12 +628,12 @@ def _octane_block(result: dict) -> list:
             acc = by_group.setdefault(g, [0.0, 0.0])
             acc[0] += c.get("ron") or 0.0 if is_number(c.get("ron")) else 0.0
             acc[1] += c.get("mon") or 0.0 if is_number(c.get("mon")) else 0.0
-        rows = [["group", "RON contribution", "MON contribution"]]
+        rows = [["group", "to RON", "to MON"]]
         for g, (r, m) in by_group.items():
             rows.append([GROUP_LABELS.get(g, g), _num(r, 2), _num(m, 2)])
         rows.append(["total", _num(sum(v[0] for v in by_group.values()), 2),
                      _num(sum(v[1] for v in by_group.values()), 2)])
-        t = _table(rows, [80, 58, 58], align_right=(1, 2), bold_last=True)
+        t = _table(rows, [70, 66, 66], align_right=(1, 2), bold_last=True)
         fig = octane_contributions_figure(result, size_in=(4.3, 2.4))
         img = _image(fig, 300, 300 * 2.4 / 4.3)
         from reportlab.platypus import Table, TableStyle
@@ -693,7 +693,9 @@ def _components_block(result: dict) -> list:
     title = (f"Components ({len(comps)} rows; largest first"
              + (f", the {len(shown)} largest shown, all in the workbook)" if len(shown) < len(comps)
                 else ")"))
-    out = [_p(title, "h2")]
+    from reportlab.platypus import CondPageBreak
+
+    out = [CondPageBreak(90), _p(title, "h2split")]
     peak = kind == "peak table"
     head = ["#", "name", "CAS", "group", "C", "mass %", "% v/v", "mol %"]
     widths = [24, 170, 52, 58, 18, 40, 40, 40]
@@ -741,14 +743,17 @@ def _traceability_block(result: dict) -> list:
 
 def _logs_block(result: dict) -> list:
     entries = result.get("import_log") or []
-    out = [_p(f"Import log ({len(entries)} rows of the file skipped or changed)", "h2")]
+    from reportlab.platypus import CondPageBreak
+
+    out = [CondPageBreak(60),
+           _p(f"Import log ({len(entries)} rows of the file skipped or changed)", "h2split")]
     if entries:
         rows = [["row", "action", "reason"]]
         for e in entries:
             rows.append([_text(e.get("row")), _text(e.get("action")), _p(e.get("reason"))])
         out.append(_table(rows, [40, 60, CONTENT_W_PT - 100], align_right=(0,)))
     warnings = result.get("warnings") or []
-    out.append(_p(f"Warnings ({len(warnings)})", "h2"))
+    out += [CondPageBreak(60), _p(f"Warnings ({len(warnings)})", "h2split")]
     if warnings:
         rows = [["#", "warning"]] + [[str(i), _p(plain_words(w))]
                                      for i, w in enumerate(warnings, start=1)]
@@ -796,7 +801,6 @@ def story(result: dict) -> list:
     s += _carbon_block(result)
     s += _octane_block(result)
     s += _review_block(result)
-    s.append(CondPageBreak(120))
     s += _components_block(result)
     s.append(Spacer(1, 4))
     s += _logs_block(result)

@@ -39,6 +39,7 @@ reported as ``residual``.
 """
 from __future__ import annotations
 
+import inspect
 import logging
 from typing import Any
 
@@ -89,6 +90,42 @@ def _group_fracs(inputs: pd.DataFrame, x: np.ndarray) -> list[dict[str, float]]:
     return [{g: float(cols[g][k]) for g in names} for k in range(x.shape[0])]
 
 
+_WARNED: set[str] = set()
+
+
+def _warn_once(message: str) -> None:
+    if message not in _WARNED:
+        _WARNED.add(message)
+        log.warning(message)
+
+
+def _call(fn, *args, **kwargs):
+    """``fn(*args, **kwargs)`` without the keyword arguments ``fn`` does not take."""
+    params = inspect.signature(fn).parameters
+    if not any(p.kind is p.VAR_KEYWORD for p in params.values()):
+        kwargs = {k: v for k, v in kwargs.items() if k in params}
+    return fn(*args, **kwargs)
+
+
+def _batched(inputs: pd.DataFrame, x: np.ndarray, model: str, params) -> dict[str, np.ndarray]:
+    """The octane module's own vectorised blend functions on every row of ``x`` at once, with
+    the same dispatch as ``predict_inputs`` (checked against it by the caller)."""
+    vm = inputs["molar_volume_cm3_mol"].to_numpy(float)
+    classes = list(inputs["class"])
+    cats = list(inputs["structure"]) if "structure" in inputs else None
+    out = {}
+    for p in PROPS:
+        mp = octane.model_params(model, p, params)
+        if mp.get("mode") == "mon_plus_sensitivity":
+            val = _call(octane.blend_ron, x, inputs["ron"].to_numpy(float),
+                        inputs["mon"].to_numpy(float), vm, classes, mp, categories=cats)
+        else:
+            val = _call(octane.blend, x, inputs[p].to_numpy(float), vm, classes, model, mp,
+                        categories=cats)
+        out[p] = np.asarray(val, dtype=float).reshape(-1)
+    return out
+
+
 def predict_matrix(inputs: pd.DataFrame, x: np.ndarray, settings: dict) -> dict[str, np.ndarray]:
     """Octane numbers for many volume-fraction vectors (rows of ``x``) of the same components.
 
@@ -100,20 +137,17 @@ def predict_matrix(inputs: pd.DataFrame, x: np.ndarray, settings: dict) -> dict[
     model = _model_name(settings)
     params = octane.load_params()
     out: dict[str, np.ndarray] | None = None
-    blend = getattr(octane, "blend", None)
-    if BATCHED and blend is not None and hasattr(octane, "model_params"):
+    if BATCHED:
         try:
-            out = {p: np.asarray(blend(x, inputs[p].to_numpy(float),
-                                       inputs["molar_volume_cm3_mol"].to_numpy(float),
-                                       list(inputs["class"]), model,
-                                       octane.model_params(model, p, params)), dtype=float)
-                   for p in PROPS}
+            out = _batched(inputs, x, model, params)
             check = octane.predict_inputs(inputs.assign(vol_frac=x[0]), model, params)
             if any(abs(float(check[p]) - out[p][0]) > 1e-9 for p in PROPS):
+                _warn_once("octane contributions: the vectorised model call differs from "
+                           "predict_inputs; calling predict_inputs per row (slower)")
                 out = None
         except Exception:  # noqa: BLE001 - a different model: fall back to the interface
-            log.debug("vectorised blend not usable; calling predict_inputs per row",
-                      exc_info=True)
+            _warn_once("octane contributions: no vectorised model call; calling "
+                       "predict_inputs per row (slower)")
             out = None
     if out is None:
         rows = [octane.predict_inputs(inputs.assign(vol_frac=xr), model, params) for xr in x]

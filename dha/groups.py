@@ -97,17 +97,18 @@ def group_totals(comp: pd.DataFrame, library, settings: dict) -> dict[str, Any]:
     unknown = set(comp["group"]) - set(GROUPS)
     if unknown:
         raise ValueError(f"composition table has unknown group(s) {sorted(unknown)}")
-    totals = {b: {g: float(comp.loc[comp["group"] == g, b].sum()) for g in GROUPS} for b in BASES}
+    group = comp["group"].to_numpy(dtype=object)
+    values = {b: np.nan_to_num(comp[b].to_numpy(dtype=float), nan=0.0) for b in BASES}
+    in_group = {g: group == g for g in GROUPS}
+    totals = {b: {g: float(values[b][in_group[g]].sum()) for g in GROUPS} for b in BASES}
 
     n = pd.to_numeric(comp["carbon_number"]).to_numpy(dtype=float)
     bucket = np.where(n >= 13, len(BUCKETS) - 1, np.clip(n, 3, 12) - 3).astype(int)
-    group = comp["group"].to_numpy(dtype=object)
-    values = {b: np.nan_to_num(comp[b].to_numpy(dtype=float), nan=0.0) for b in BASES}
     matrix = []
     for i, bk in enumerate(BUCKETS):
         in_bucket = bucket == i
         for g in GROUPS:
-            mask = in_bucket & (group == g)
+            mask = in_bucket & in_group[g]
             matrix.append({"carbon_number": bk, "group": g,
                            **{b: float(values[b][mask].sum()) for b in BASES}})
 

@@ -304,12 +304,19 @@ def library_rrf(names, library, settings) -> pd.Series:
     overrides = response_factor_overrides(settings, library)
     delta_alcohol = float(q.get("primary_alcohol_oxygen_ecn", LIBRARY_PRIMARY_ALCOHOL_ECN)) \
         - LIBRARY_PRIMARY_ALCOHOL_ECN
+    theory = _theory_cache(comps, delta_alcohol)
+    rows = None
     out = {}
     for name in dict.fromkeys(names):
         if name in overrides:
             out[name] = overrides[name]
             continue
-        row = comps.loc[name]
+        if name in theory:
+            out[name] = theory[name]
+            continue
+        if rows is None:
+            rows = _rrf_rows(comps)
+        row = rows[name]
         mw = float(row["molar_mass_g_mol"])
         atoms = parse_formula(row.get("formula", ""))
         n_c = atoms.get("C") or float(row["carbon_number"])
@@ -323,7 +330,31 @@ def library_rrf(names, library, settings) -> pd.Series:
             out[name] = oxygenate_rrf(mw, float(ecn))
         else:
             out[name] = hydrocarbon_rrf(mw, n_c)
+        theory[name] = out[name]
     return pd.Series(out, dtype=float)
+
+
+#: Theoretical factors per library table and alcohol ECN shift: {(id(components), shift):
+#: (components, {name: rrf})}; the identity check keeps a new table from reusing another's.
+_THEORY_RRF: dict[tuple[int, float], tuple[pd.DataFrame, dict[str, float]]] = {}
+_RRF_COLUMNS = ("molar_mass_g_mol", "formula", "carbon_number", "group", "ecn", "subgroup")
+
+
+def _theory_cache(comps: pd.DataFrame, shift: float) -> dict[str, float]:
+    key = (id(comps), shift)
+    cached = _THEORY_RRF.get(key)
+    if cached is None or cached[0] is not comps:
+        if len(_THEORY_RRF) > 16:
+            _THEORY_RRF.clear()
+        cached = _THEORY_RRF[key] = (comps, {})
+    return cached[1]
+
+
+def _rrf_rows(comps: pd.DataFrame) -> dict[str, dict[str, Any]]:
+    """The library columns the factors need, as {name: {column: value}} (one conversion
+    instead of one row lookup per component)."""
+    cols = [c for c in _RRF_COLUMNS if c in comps.columns]
+    return comps[cols].to_dict(orient="index")
 
 
 def _physical(names: pd.Series, library, settings) -> tuple[pd.Series, pd.Series]:
@@ -371,6 +402,16 @@ def _carbon_numbers(peaks: pd.DataFrame, warnings: list[str]) -> pd.Series:
                         f"{', '.join(map(str, rows[:10]))}{' ...' if len(rows) > 10 else ''}) "
                         "took the carbon number of the peak before them")
         cn = filled
+    low = cn < 1
+    if low.any():
+        # an index below 100 (a peak extrapolated before the lightest marker, e.g. markers
+        # taken one carbon number too high) has no carbon number of its own
+        rows = peaks.loc[low, "row"].tolist() if "row" in peaks else list(cn.index[low])
+        warnings.append(f"{len(rows)} peak(s) with a retention index below 100 (rows "
+                        f"{', '.join(map(str, rows[:10]))}{' ...' if len(rows) > 10 else ''}) "
+                        "counted as C1: no compound of petrol elutes before methane; check the "
+                        "n-alkane markers")
+        cn = cn.where(~low, 1)
     return cn.round().astype(int)
 
 

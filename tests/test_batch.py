@@ -299,3 +299,13 @@ def test_library_check_runs_once_per_checksum(tmp_path, monkeypatch):
     second = libmod.checked_problems(lib)
     assert calls == [1] and first == second
     assert len(list((tmp_path / "cache" / "library-checks").glob("*.json"))) == 1
+
+
+def test_help_imports_no_command_module():
+    # dha --help must stay fast: it lists the commands without importing them (or pandas).
+    code = ("import sys\nfrom click.testing import CliRunner\nfrom dha.cli import cli\n"
+            "r = CliRunner().invoke(cli, ['--help'])\nassert r.exit_code == 0, r.output\n"
+            "assert 'batch' in r.output and 'history' in r.output\n"
+            "print(sorted(m for m in sys.modules if m == 'pandas' or m.startswith('dha.commands.')))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]", out.stdout

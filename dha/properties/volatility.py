@@ -615,14 +615,36 @@ def _unidentified_psat_spread_kpa(composition: pd.DataFrame, library) -> float:
     unid = composition[composition["group"] == "unidentified"]
     if unid.empty:
         return 0.0
-    ps = library.psat_kpa(T_DVPE_K)
-    cn = library.components["carbon_number"].reindex(ps.index)
+    ranges = _psat_ranges(library)
     total = 0.0
-    for _, row in unid.iterrows():
-        values = ps[(cn == row["carbon_number"]).to_numpy()].dropna()
-        if len(values) >= 2:
-            total += row["mol_pct"] / 100.0 * (values.max() - values.min()) / np.sqrt(12.0)
+    for n, mol_pct in zip(unid["carbon_number"], unid["mol_pct"]):
+        spread = ranges.get(n)
+        if spread is not None:
+            total += mol_pct / 100.0 * spread / np.sqrt(12.0)
     return float(total)
+
+
+#: {id(components): (components, {carbon number: P^sat range [kPa]})}, one per library table.
+_PSAT_RANGES: dict[int, tuple[pd.DataFrame, dict]] = {}
+
+
+def _psat_ranges(library) -> dict:
+    """Range (max - min) of P^sat at 37.8 °C over the library's components of each carbon
+    number (None when fewer than two), computed once per library table."""
+    comps = library.components
+    cached = _PSAT_RANGES.get(id(comps))
+    if cached is not None and cached[0] is comps:
+        return cached[1]
+    ps = library.psat_kpa(T_DVPE_K)
+    cn = comps["carbon_number"].reindex(ps.index)
+    table = {}
+    for n in pd.unique(cn.dropna()):
+        values = ps[(cn == n).to_numpy()].dropna()
+        table[n] = float(values.max() - values.min()) if len(values) >= 2 else None
+    if len(_PSAT_RANGES) > 8:
+        _PSAT_RANGES.clear()
+    _PSAT_RANGES[id(comps)] = (comps, table)
+    return table
 
 
 def boiling_order_curve(mixture: Mixture, evaporated_vol_pct) -> np.ndarray:

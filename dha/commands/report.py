@@ -2,7 +2,9 @@
 from __future__ import annotations
 
 import logging
+from contextlib import contextmanager
 from pathlib import Path
+from typing import Iterator
 
 import click
 
@@ -81,8 +83,11 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
         inputs = [None]
     for path in inputs:
         try:
-            results = averaged if path is None else process_file_stems(path, settings, library,
-                                                                        spec)
+            if path is None:
+                results = averaged
+            else:
+                with warnings_name_input(path):
+                    results = process_file_stems(path, settings, library, spec)
         except DhaError:
             raise
         except Exception as err:  # noqa: BLE001 - the edge: one line, never a traceback
@@ -104,6 +109,29 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
     if strict and failed_checks:
         click.echo(f"dha: {failed_checks} specification check(s) failed", err=True)
         click.get_current_context().exit(3)
+
+
+@contextmanager
+def warnings_name_input(path) -> Iterator[None]:
+    """While ``path`` is processed, every warning printed on stderr starts with its file name
+    ("dha: WARNING: tank-14.csv: ..."), so that warnings of several inputs can be told apart."""
+    name = Path(str(path)).name.replace("%", "%%")
+
+    class _NameInput(logging.Filter):
+        def filter(self, record: logging.LogRecord) -> bool:
+            if record.levelno >= logging.WARNING and not str(record.msg).startswith(name):
+                record.msg = f"{name}: {record.msg}"
+            return True
+
+    flt = _NameInput()
+    handlers = list(logging.getLogger().handlers)
+    for h in handlers:
+        h.addFilter(flt)
+    try:
+        yield
+    finally:
+        for h in handlers:
+            h.removeFilter(flt)
 
 
 COMMANDS = [report_command]

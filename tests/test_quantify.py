@@ -356,3 +356,28 @@ def test_missing_carbon_numbers(lib, settings):
     assert list(q.table["carbon_number"]) == [7, 7, 7]
     assert q.table.loc[1, "model_component"] == "2-methylhexane"
     assert sum("took the carbon number" in w for w in q.warnings) == 1 and "rows 2" in q.warnings[0]
+
+
+def test_peak_extrapolated_below_index_100_is_c1_not_a_crash():
+    # issue 13: an unnamed run whose markers sit late gave a peak an index <= 0 (carbon
+    # number 0) and the FID factor divided by zero. Van den Dool-Kratz extrapolated with the
+    # first bracket: 500 + 100 (t - 5.0) / (5.5 - 5.0) = -480 at 0.1 min (C-4) and -50 at
+    # 2.25 min (C0, the division by zero) (arithmetic, no source)
+    from dha.identify import identify
+    from dha.library import load_library
+    from dha.quantify import quantify_peaks
+    from dha.settings import default_settings
+    lib = load_library()
+    s = default_settings()
+    s["identify"]["markers"] = {"5": 5.0, "6": 5.5, "7": 6.0}
+    peaks = pd.DataFrame({"row": [1, 2, 3, 4, 5], "rt_min": [0.1, 2.25, 5.0, 5.5, 6.0],
+                          "area": [10.0, 10.0, 100.0, 100.0, 100.0], "name": None, "cas": None,
+                          "retention_index": np.nan})
+    ident = identify(peaks, lib, s)
+    assert (ident["carbon_number"] >= 1).all()       # the identifier gives no C0 any more
+    # an identified table (or export) that still carries them: quantify copes too
+    ident.loc[ident["rt_min"] < 5.0, "carbon_number"] = [-4, 0]
+    q = quantify_peaks(ident, lib, s, peaks=peaks)
+    assert q.table["mass_pct"].sum() == pytest.approx(100.0)
+    assert (q.table["carbon_number"] >= 1).all() and (q.table["mass_pct"] > 0).all()
+    assert any("below 100" in w and "C1" in w for w in q.warnings)

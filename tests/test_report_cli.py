@@ -96,3 +96,16 @@ def test_usage_errors_exit_2(runner, blend):
     assert runner.invoke(cli, ["report", str(blend), "--no-such-option"]).exit_code == 2
     assert runner.invoke(cli, ["report", str(blend), "--format", "docx"]).exit_code == 2
     assert runner.invoke(cli, ["report"]).exit_code == 2
+
+
+def test_warnings_on_stderr_name_their_input(caplog):
+    # With several inputs, a warning must say which file it belongs to (issue 14).
+    import logging
+
+    from dha.commands.report import warnings_name_input
+    log = logging.getLogger("dha.test")
+    with caplog.at_level(logging.WARNING):
+        with warnings_name_input("/lab/runs/tank-14 50%.csv"):
+            log.warning("peak %d looks odd", 3)
+        log.warning("after the file")
+    assert caplog.messages == ["tank-14 50%.csv: peak 3 looks odd", "after the file"]

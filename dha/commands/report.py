@@ -2,7 +2,9 @@
 from __future__ import annotations
 
 import logging
+from contextlib import contextmanager
 from pathlib import Path
+from typing import Iterator
 
 import click
 
@@ -46,8 +48,12 @@ def _headline(result: dict) -> str:
 @settings_option
 @click.option("--overwrite", is_flag=True, help="Replace output files that exist.")
 @click.option("--strict", is_flag=True, help="Exit 3 when any specification or identification check fails.")
+@click.option("--average-injections", is_flag=True,
+              help="Average the injections of one sample (sheets of one workbook, or files "
+                   "with the same sample id) into one result with a repeatability check "
+                   "([injections] in the settings).")
 def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, overwrite,
-                   strict) -> None:
+                   strict, average_injections) -> None:
     """Turn peak tables or composition tables into results: JSON (and Excel, PDF).
 
     Writes DIR/<stem>.json (.xlsx, .pdf) per input file, or DIR/<stem>__<sheet>.* per
@@ -69,9 +75,19 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
         formats = list(settings.get("report", {}).get("formats", ["json"]))
     library = load_library(overlay=library_dir) if library_dir else load_library()
     failed_checks = 0
+    averaged = None
+    if average_injections or settings.get("injections", {}).get("average", False):
+        from dha.replicates import report_averaged
+        averaged = report_averaged(inputs, settings, library, spec, lambda p: [
+            (stem, r) for stem, r in process_file_stems(p, settings, library, spec)])
+        inputs = [None]
     for path in inputs:
         try:
-            results = process_file_stems(path, settings, library, spec)
+            if path is None:
+                results = averaged
+            else:
+                with warnings_name_input(path):
+                    results = process_file_stems(path, settings, library, spec)
         except DhaError:
             raise
         except Exception as err:  # noqa: BLE001 - the edge: one line, never a traceback
@@ -93,6 +109,29 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
     if strict and failed_checks:
         click.echo(f"dha: {failed_checks} specification check(s) failed", err=True)
         click.get_current_context().exit(3)
+
+
+@contextmanager
+def warnings_name_input(path) -> Iterator[None]:
+    """While ``path`` is processed, every warning printed on stderr starts with its file name
+    ("dha: WARNING: tank-14.csv: ..."), so that warnings of several inputs can be told apart."""
+    name = Path(str(path)).name.replace("%", "%%")
+
+    class _NameInput(logging.Filter):
+        def filter(self, record: logging.LogRecord) -> bool:
+            if record.levelno >= logging.WARNING and not str(record.msg).startswith(name):
+                record.msg = f"{name}: {record.msg}"
+            return True
+
+    flt = _NameInput()
+    handlers = list(logging.getLogger().handlers)
+    for h in handlers:
+        h.addFilter(flt)
+    try:
+        yield
+    finally:
+        for h in handlers:
+            h.removeFilter(flt)
 
 
 COMMANDS = [report_command]

@@ -347,14 +347,27 @@ TRADE_NAMES: dict[str, str] = {
 }
 
 
+#: The same trade names by the library's systematic names (for entries without a CAS number).
+_TRADE_BY_NAME: dict[str, str] = {
+    "2-methoxy-2-methylpropane": "MTBE", "2-ethoxy-2-methylpropane": "ETBE",
+    "2-methoxy-2-methylbutane": "TAME", "2-ethoxy-2-methylbutane": "TAEE",
+    "2-(propan-2-yloxy)propane": "DIPE", "2-isopropoxypropane": "DIPE",
+    "2-methyl-2-propanol": "TBA", "2-methyl-1-propanol": "isobutanol",
+    "2-propanol": "isopropanol",
+}
+
+
 def display_name(name: Any, cas: Any = None) -> str:
     """A component name with its trade name beside it, e.g. ``2-methoxy-2-methylpropane (MTBE)``.
 
     >>> display_name("2-ethoxy-2-methylpropane", "637-92-3"), display_name("toluene", "108-88-3")
     ('2-ethoxy-2-methylpropane (ETBE)', 'toluene')
+    >>> display_name("2-methoxy-2-methylbutane")
+    '2-methoxy-2-methylbutane (TAME)'
+
     """
     text = NULL_TEXT if name in (None, "") else str(name)
-    trade = TRADE_NAMES.get(str(cas or ""))
+    trade = TRADE_NAMES.get(str(cas or "")) or _TRADE_BY_NAME.get(text.casefold())
     if trade and trade.lower() not in text.lower():
         return f"{text} ({trade})"
     return text

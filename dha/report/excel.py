@@ -408,8 +408,9 @@ def _peaks_to_review(ws, result: dict) -> None:
     chk = identification_check(result)
     r = 1
     if chk is not None:
-        ws.cell(row=1, column=1, value=f"Identification check: {VERDICT_WORDS.get(chk.get('verdict'), chk.get('verdict'))}"
-                ).font = _TITLE_FONT
+        words = {"pass": "passed", "marginal": "marginal", "fail": "FAILED"}
+        ws.cell(row=1, column=1, value=f"Identification check: "
+                f"{words.get(chk.get('verdict'), chk.get('verdict'))}").font = _TITLE_FONT
         score = chk.get("value")
         ws.cell(row=2, column=1, value="score [0-1]")
         ws.cell(row=2, column=2, value=_cell_value(score))

@@ -638,10 +638,12 @@ def _octane_block(result: dict) -> list:
         img = _image(fig, 300, 300 * 2.4 / 4.3)
         from reportlab.platypus import Table, TableStyle
 
+        from reportlab.platypus import KeepTogether
+
         outer = Table([[t, img]], colWidths=[CONTENT_W_PT - 306, 306])
         outer.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
                                    ("LEFTPADDING", (0, 0), (-1, -1), 0)]))
-        out.append(outer)
+        out = [KeepTogether(out + [outer])]   # heading, words, table and chart stay together
     if isinstance(explained, dict) and explained.get("components"):
         rows = [["component pulling the octane number down", "% v/v", "RON", "MON"]]
         for c in explained["components"]:

@@ -104,6 +104,7 @@ def test_warnings_on_stderr_name_their_input(caplog):
 
     from dha.commands.report import warnings_name_input
     log = logging.getLogger("dha.test")
+    logging.getLogger("dha").setLevel(logging.NOTSET)   # a batch test may have quietened "dha"
     with caplog.at_level(logging.WARNING):
         with warnings_name_input("/lab/runs/tank-14 50%.csv"):
             log.warning("peak %d looks odd", 3)

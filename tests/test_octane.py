@@ -415,3 +415,31 @@ def test_reformate_type_sensitivity(library):
             "2,2,4-trimethylpentane": 8, "2-methylhexane": 4, "methylcyclopentane": 3}
     res = oc.compute(_composition(comp), library, _settings("interaction"))
     assert 3.0 <= res.values["sensitivity"] <= 12.0
+
+
+def test_samples_outside_the_domain_get_a_warning_and_wider_uncertainty(library, data):
+    # Issue 12: a sample outside the model's domain gets a larger uncertainty and a warning in
+    # plain words. The domain (octane_params.json "domain") comes from the 40 real gasolines
+    # (KUZ2022_MON) and the oxygenates of the fitted mixtures.
+    s = _settings("interaction")
+    base = oc.load_params()["models"]["interaction"]["mon"]["cv_rmse"]
+    # a real fuel of the validation (FACE_C neat) is inside: no domain warning
+    fc = data.info.index[data.info["label"] == "FACE_C"][0]
+    row = data.vol_frac.loc[fc]
+    row = row[row > 0]
+    names = [data.comps.loc[c, "name"] for c in row.index if data.comps.loc[c, "in_library"]]
+    comp = _composition(dict(zip(names, 100.0 * row[[c for c in row.index
+                                                      if data.comps.loc[c, "in_library"]]])))
+    res = oc.compute(comp, library, s)
+    assert not res.details["octane_out_of_domain"]
+    assert not any("outside what the octane model" in w for w in res.warnings)
+    # pure toluene is far from every real petrol (aromatics 100 % v/v)
+    res = oc.compute(_composition({"toluene": 100.0}), library, s)
+    assert any("far from every real petrol" in w for w in res.warnings)
+    assert res.uncertainty["mon"] >= 2.0 * base - 1e-9
+    # TAME (2-methoxy-2-methylbutane) is in no fitted mixture: an unusual oxygenate
+    d = {k: v * 0.85 for k, v in _PARAFFINIC_BASE.items()}
+    d["2-methoxy-2-methylbutane"] = 15.0
+    res = oc.compute(_composition(d), library, s)
+    assert any("2-methoxy-2-methylbutane, an oxygenate the model was not checked on" in w
+               for w in res.warnings)

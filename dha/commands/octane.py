@@ -40,6 +40,7 @@ def validate_command(details: Path | None) -> None:
     click.echo(of.describe_data(data))
     click.echo(of.format_table(table))
     click.echo(of.format_conflicts(data))
+    click.echo(of.format_estimator())
     if details is not None:
         rows = [df.assign(model=m, property=p.upper()) for (m, p), df in cv.items()]
         pd.concat(rows).to_csv(details, index_label="mixture_id")

@@ -83,6 +83,40 @@ CLASS_PAIRS = tuple((a, b) for i, a in enumerate(CLASSES) for b in CLASSES[i + 1
 #: (common practice, no source).
 ESTIMATED_SHARE_WARN_PCT = 10.0
 
+#: Volume fractions that the domain check compares: the four hydrocarbon classes and the
+#: oxygenates together.
+DOMAIN_CLASSES = HYDROCARBON_CLASSES + ("oxygenate",)
+#: An oxygenate outside those the model was checked on counts from this share [% v/v]
+#: (common practice, no source).
+UNUSUAL_OXYGENATE_PCT = 1.0
+#: Factor on the stated uncertainty of a sample outside the model's domain (composition far
+#: from every real fuel of the validation, or an unusual oxygenate): our choice, no source; the
+#: held-out error grows with the distance (RBOB5, the fuel farthest from the others, has the
+#: largest leave-one-family-out error).
+OUT_OF_DOMAIN_FACTOR = 2.0
+
+
+def class_volume_fractions(vol_frac: np.ndarray, classes: list[str]) -> np.ndarray:
+    """Volume fractions of :data:`DOMAIN_CLASSES` (rows of ``vol_frac`` normalised).
+
+    >>> class_volume_fractions(np.array([0.5, 0.3, 0.2]), ["paraffin", "aromatic", "light_alcohol"])
+    array([0.5, 0. , 0. , 0.3, 0.2])
+    """
+    phi = np.atleast_2d(np.asarray(vol_frac, dtype=float))
+    phi = phi / phi.sum(axis=1, keepdims=True)
+    c = np.asarray(classes)
+    cols = [phi @ (c == k) for k in HYDROCARBON_CLASSES]
+    cols.append(phi @ np.isin(c, OXYGENATE_CLASSES))
+    out = np.column_stack(cols)
+    return out[0] if np.asarray(vol_frac).ndim == 1 else out
+
+
+def domain_distance(class_fractions: np.ndarray, reference: np.ndarray) -> float:
+    """L1 distance of a sample's class fractions to the nearest reference fuel [-] (0..2)."""
+    ref = np.atleast_2d(np.asarray(reference, dtype=float))
+    return float(np.abs(ref - np.asarray(class_fractions, dtype=float)[None, :]).sum(axis=1).min())
+
+
 #: Molar volume used as the hydrocarbon base when a sample has no hydrocarbon [cm3/mol]
 #: (only then; any value gives the same result for an oxygenate-only sample of one species).
 _DEFAULT_BASE_MOLAR_VOLUME_CM3_MOL = 130.0
@@ -408,6 +442,7 @@ class NeatEstimator:
     coef: tuple[float, ...]
     loo_rmse: float
     n: int
+    loo_rmse_by_group: tuple[tuple[str, int, float], ...] = ()
 
     def predict(self, group: str, smiles: str) -> float:
         """Estimated neat octane number, bounded to [-60, 130] (n-decane is rated -41 RON)."""
@@ -450,8 +485,11 @@ def fit_neat_estimator(components: pd.DataFrame, prop: str) -> NeatEstimator:
     coef = np.linalg.solve(a, x.T @ y)
     hat = np.einsum("ij,ji->i", x, np.linalg.solve(a, x.T))
     loo = (y - x @ coef) / (1.0 - hat)
+    groups = rows["group"].astype(str).to_numpy()
+    by_group = tuple((g, int((groups == g).sum()), float(np.sqrt(np.mean(loo[groups == g] ** 2))))
+                     for g in sorted(set(groups)))
     return NeatEstimator(prop, tuple(float(c) for c in coef),
-                         float(np.sqrt(np.mean(loo ** 2))), int(len(y)))
+                         float(np.sqrt(np.mean(loo ** 2))), int(len(y)), by_group)
 
 
 @lru_cache(maxsize=8)
@@ -967,24 +1005,32 @@ def _group_vol_frac(inputs: pd.DataFrame) -> dict[str, float]:
     return out
 
 
-def predict_inputs(inputs: pd.DataFrame, model: str, params: dict[str, Any] | None = None
-                   ) -> dict[str, float]:
-    """RON and MON of one sample from :func:`model_inputs` (uncalibrated)."""
+def predict_many(inputs: pd.DataFrame, vol_frac: np.ndarray, model: str,
+                 params: dict[str, Any] | None = None) -> dict[str, np.ndarray]:
+    """RON and MON for many volume-fraction vectors (rows of ``vol_frac``) of the components of
+    ``inputs`` (:func:`model_inputs`), uncalibrated, in one vectorised call; a 1-D
+    ``vol_frac`` gives floats. Row i equals :func:`predict_inputs` with ``vol_frac`` row i."""
     p = params if params is not None else load_params()
     out = {}
     cats = list(inputs["structure"]) if "structure" in inputs else None
+    vm = inputs["molar_volume_cm3_mol"].to_numpy()
+    cls = list(inputs["class"])
     for prop in PROPERTIES:
         mp = model_params(model, prop, p)
         if mp.get("mode") == "mon_plus_sensitivity":
-            out[prop] = blend_ron(inputs["vol_frac"].to_numpy(), inputs["ron"].to_numpy(),
-                                  inputs["mon"].to_numpy(),
-                                  inputs["molar_volume_cm3_mol"].to_numpy(),
-                                  list(inputs["class"]), mp, categories=cats)
-            continue
-        out[prop] = blend(inputs["vol_frac"].to_numpy(), inputs[prop].to_numpy(),
-                          inputs["molar_volume_cm3_mol"].to_numpy(), list(inputs["class"]),
-                          model, mp, categories=cats)
+            out[prop] = blend_ron(vol_frac, inputs["ron"].to_numpy(), inputs["mon"].to_numpy(),
+                                  vm, cls, mp, categories=cats)
+        else:
+            out[prop] = blend(vol_frac, inputs[prop].to_numpy(), vm, cls, model, mp,
+                              categories=cats)
     return out
+
+
+def predict_inputs(inputs: pd.DataFrame, model: str, params: dict[str, Any] | None = None
+                   ) -> dict[str, float]:
+    """RON and MON of one sample from :func:`model_inputs` (uncalibrated)."""
+    return {k: float(v) for k, v in
+            predict_many(inputs, inputs["vol_frac"].to_numpy(), model, params).items()}
 
 
 def compute(composition: pd.DataFrame, library, settings: dict[str, Any]) -> PropertyResult:
@@ -1041,6 +1087,33 @@ def compute(composition: pd.DataFrame, library, settings: dict[str, Any]) -> Pro
                 f"octane: {shares[p]:.1f} % v/v of the sample rests on estimated neat "
                 f"{p.upper()} values (no measured value in the library); the {p.upper()} is "
                 "less certain")
+    # the model's domain: composition near a real fuel of the validation, known oxygenates
+    dom = params.get("domain", {})
+    out_of_domain = []
+    if dom.get("real_fuel_class_fractions"):
+        frac = class_volume_fractions(inputs["vol_frac"].to_numpy(), list(inputs["class"]))
+        dist = domain_distance(frac, np.array(dom["real_fuel_class_fractions"]))
+        if dist > float(dom.get("max_distance", 2.0)):
+            nearest = ", ".join(f"{k} {100 * v:.0f}" for k, v in zip(DOMAIN_CLASSES, frac))
+            out_of_domain.append(
+                f"its make-up ({nearest} % v/v) is far from every real petrol the model was "
+                f"checked on (distance {dist:.2f}, checked up to {dom['max_distance']:.2f})")
+    checked = set(dom.get("oxygenates_checked", []))
+    if checked:
+        oxy = inputs[inputs["class"].isin(OXYGENATE_CLASSES)]
+        oxy = oxy.groupby("name")["vol_frac"].sum() / total * 100.0
+        unusual = oxy[(oxy >= UNUSUAL_OXYGENATE_PCT) & ~oxy.index.isin(list(checked))]
+        if len(unusual):
+            out_of_domain.append(
+                "it holds " + ", ".join(f"{v:.1f} % v/v {n}" for n, v in unusual.items())
+                + ", an oxygenate the model was not checked on")
+    if out_of_domain:
+        for p in PROPERTIES:
+            unc[p] *= OUT_OF_DOMAIN_FACTOR
+        result.warnings.append(
+            "octane: the sample lies outside what the octane model was checked on: "
+            + "; ".join(out_of_domain) + f". RON and MON are rough estimates; their stated "
+            f"uncertainty is doubled. Have them rated on the engine.")
     calibrated = None
     if cal_path:
         cal = load_calibration(cal_path, model)
@@ -1070,6 +1143,7 @@ def compute(composition: pd.DataFrame, library, settings: dict[str, Any]) -> Pro
         "octane_estimated_components": sorted(set(map(str, estimated["name"]))),
         "octane_neat_estimator_loo_rmse": {p: est[p].loo_rmse for p in PROPERTIES},
         "octane_calibration": calibrated,
+        "octane_out_of_domain": out_of_domain,
         "octane_uncertainty_basis": ("calibration leave-one-out RMSE" if calibrated else
                                      "held-out RMSE on 40 real gasolines (each base fuel with "
                                      "its blends left out of the fit in turn)"),

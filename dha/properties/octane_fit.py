@@ -703,7 +703,7 @@ def stated_decimals(value: float) -> int:
     Engine ratings (ASTM D2699/D2700) are reported to 0.1 ON (from memory); values stated to
     2-4 decimals (the SF-* families of KUZ2022_MON) were derived or read off a figure, not
     rated on an engine. ``error_table`` therefore also shows the error on the mixtures
-    stated to 0.1 (family "ALL-0.1").
+    stated to 0.1 (family "SURR-0.1", the surrogate mixtures).
     """
     if not np.isfinite(value):
         return 0
@@ -757,7 +757,21 @@ def format_conflicts(data: MixtureData) -> str:
     if len(fine):
         lines.append(f"values stated to 2-4 decimals, not engine ratings to 0.1: "
                      f"{len(fine)} MON mixtures ({', '.join(sorted(fine['family'].unique()))}); "
-                     "ALL-0.1 = the error on the others")
+                     "SURR-0.1 = the error on the other surrogate mixtures")
+    return "\n".join(lines)
+
+
+def format_estimator(components: pd.DataFrame | None = None) -> str:
+    """Leave-one-out error of the neat-value estimator per group (printed by validate)."""
+    est = oc.neat_estimators(library_components() if components is None else components)
+    lines = ["neat-value estimator (structure-based ridge regression), leave-one-out on the "
+             "library's measured values [octane number]:"]
+    for key, e in est.items():
+        label = "S = RON - MON" if key == "sensitivity" else key.upper()
+        parts = ", ".join(f"{g} {r:.1f} (n {n})" for g, n, r in e.loo_rmse_by_group)
+        lines.append(f"  {label}: all {e.loo_rmse:.1f} (n {e.n}); {parts}")
+    lines.append("  a missing MON (RON) of a component with a measured RON (MON) is that value "
+                 "minus (plus) the estimated S")
     return "\n".join(lines)
 
 
@@ -765,6 +779,16 @@ def validate_all(data: MixtureData | None = None) -> tuple[pd.DataFrame, dict]:
     """Cross-validated error table of every model (the ``dha octane validate`` table)."""
     data = data or load_mixtures()
     cv = {(m, p): cross_validate(data, m, p) for m in oc.MODEL_NAMES for p in ("mon", "ron")}
+    # sensitivity S = RON - MON on the mixtures with both measured (the COOPTIMA blends)
+    for m in oc.MODEL_NAMES:
+        r, mo = cv[(m, "ron")], cv[(m, "mon")]
+        both = r.index.intersection(mo.index)
+        if len(both):
+            sv = r.loc[both].copy()
+            for col in ("measured", "fitted", "held_out"):
+                sv[col] = r.loc[both, col] - mo.loc[both, col]
+            sv["estimated_neat"] = r.loc[both, "estimated_neat"] | mo.loc[both, "estimated_neat"]
+            cv[(m, "s")] = sv
     return error_table(cv), cv
 
 
@@ -783,7 +807,9 @@ def describe_data(data: MixtureData) -> str:
         f"MON: {len(MON_FITTED)} parameters fitted on the mixtures without estimated neat "
         f"values (deficit power {DEFICIT_POWER:g} fixed); RON = the MON model + a blended "
         f"sensitivity ({', '.join(SENSITIVITY_FITTED)} fitted on the 15 COOPTIMA rows)",
-        "families marked * rest on estimated neat values (not fitted on)",
+        "families marked * rest on estimated neat values (not fitted on); GAS = the 40 real "
+        "gasolines (KUZ2022_MON), every one, each base fuel with all its blends held out "
+        "together; SURR = the surrogate mixtures; S = RON - MON where both are measured",
         "error = predicted - measured [octane number]",
     ]
     return "\n".join(lines)
@@ -799,6 +825,30 @@ def format_table(table: pd.DataFrame) -> str:
                      f"{r.fitted_rmse:>13.2f}{r.fitted_bias:>6.2f}{r.fitted_max:>6.1f}   "
                      f"{r.held_out_rmse:>15.2f}{r.held_out_bias:>6.2f}{r.held_out_max:>6.1f}")
     return "\n".join(lines)
+
+
+def domain_of(data: MixtureData) -> dict[str, Any]:
+    """What a sample is compared with to judge whether the model was checked on its kind.
+
+    ``real_fuel_class_fractions``: the 40 real gasolines' volume fractions of paraffins,
+    olefins, naphthenes, aromatics, oxygenates; ``max_distance``: the largest L1 distance of a
+    real fuel to the nearest fuel of *another* family (how far leave-one-family-out reached);
+    ``oxygenates_checked``: library names of the oxygenates in the fitted mixtures.
+    """
+    info = data.info
+    gas = (info["source"] == "KUZ2022_GAS").to_numpy()
+    c = data.comps
+    frac = oc.class_volume_fractions(data.vol_frac.to_numpy()[gas], list(c["class"]))
+    fam = info["family"].to_numpy()[gas]
+    reach = 0.0
+    for i in range(len(frac)):
+        other = frac[fam != fam[i]]
+        reach = max(reach, oc.domain_distance(frac[i], other))
+    used = (data.vol_frac.to_numpy()[fit_rows(data, "mon")] > 0).any(axis=0)
+    oxy = sorted({str(n) for n, g, u in zip(c["name"], c["group"], used)
+                  if u and g == "oxygenates"})
+    return {"real_fuel_class_fractions": [[round(float(v), 4) for v in r] for r in frac],
+            "max_distance": round(reach, 3), "oxygenates_checked": oxy}
 
 
 def _rounded(v: Any) -> Any:
@@ -834,6 +884,7 @@ def build_params(data: MixtureData | None = None) -> dict[str, Any]:
     comps = data.comps
     return {
         "format": "dha-octane-params/1",
+        "domain": domain_of(data),
         "fitted": _dt.date.today().isoformat(),
         "produced_by": "python scripts/fit_octane.py",
         "data": {"mon_mixtures": int(data.info["mon"].notna().sum()),

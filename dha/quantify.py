@@ -688,7 +688,8 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
     Parameters
     ----------
     table : columns ``row``, ``component`` (name, synonym or CAS), ``amount`` [``basis``];
-        optional ``formula`` (Hill formula, used for components outside the library)
+        optional ``cas`` (tried when the name is unknown) and ``formula`` (Hill formula: carbon
+        number, group and molar mass of a component outside the library)
     basis : ``"mass_pct"``, ``"vol_pct"`` or ``"mol_pct"``
     library, settings : as for :func:`quantify_peaks`
     source : file name for messages
@@ -740,6 +741,14 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
         text = str(text).strip()
         how = "cas" if looks_like_cas(text) else "name"
         name = _resolve_name(text, library)
+        cas_text = _clean(rec.get("cas")) if "cas" in table.columns else None
+        if name is None and cas_text is not None and str(cas_text).strip() != text:
+            # a name the library does not know, with a CAS number beside it
+            name = _resolve_name(str(cas_text).strip(), library)
+            if name is not None:
+                how = "cas"
+                import_log.append({"row": int(row), "action": "changed", "reason": (
+                    f"name {text!r} not in the library; its CAS number {cas_text} is {name}")})
         if name is not None:
             if name in explicit:
                 warnings.append(f"{where}: {name} given more than once; amounts summed")
@@ -750,6 +759,8 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
             rows["in_library"] += 1
             continue
         entry = _resolve_stereo(text, library)
+        if entry is None and cas_text is not None:
+            entry = _resolve_stereo(str(cas_text).strip(), library)
         if entry is not None:
             split = library.stereo_isomers(entry, lab_shares.get(entry))
             for iso, share in split:
@@ -769,7 +780,8 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
                                 guess.group or fg.group, "formula" if fg.carbon_number else
                                 guess.how)
         key = text
-        got = unknown.setdefault(key, {"amount": 0.0, "guess": guess, "rows": [], "how": how})
+        got = unknown.setdefault(key, {"amount": 0.0, "guess": guess, "rows": [], "how": how,
+                                       "formula": formula, "cas": cas_text})
         got["amount"] += amount
         got["rows"].append(int(row))
         part["not_in_library"] += amount
@@ -809,10 +821,14 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
         unknown_notes.append(f"{text} ({desc})")
         records.append({"name": text, "component": None, "group": group, "carbon_number": cn,
                         "amount": got["amount"], "match": "unidentified",
-                        "model_component": stand_in,
-                        "cas": text if got["how"] == "cas" else None})
+                        "model_component": stand_in, "formula": got["formula"],
+                        "cas": text if got["how"] == "cas" else got["cas"]})
     frame = pd.DataFrame(records)
     mw, rho = _physical(frame["model_component"], library, settings)
+    if "formula" in frame:
+        # an unknown row's own formula gives its molar mass (IUPAC 2013 weights)
+        own = frame["formula"].map(_formula_molar_mass)
+        mw = mw.where(own.isna(), own.astype(float))
     x = frame["amount"].astype(float)
     mass = {"mass_pct": x, "vol_pct": x * rho, "mol_pct": x * mw}[basis]
     pct = _percentages(mass, mw, rho)
@@ -857,6 +873,19 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
     }
     return Quantified(table=out[list(COMPOSITION_COLUMNS)], mass_balance=mass_balance,
                       warnings=warnings, import_log=import_log)
+
+
+def _formula_molar_mass(formula: Any) -> float | None:
+    """Molar mass [g/mol] of a C/H/O Hill formula, None when blank or not C/H/O."""
+    if _clean(formula) is None:
+        return None
+    try:
+        atoms = parse_formula(str(formula).replace(" ", ""))
+    except (ValueError, KeyError, TypeError):
+        return None
+    if not atoms or not atoms.get("C") or set(atoms) - {"C", "H", "O"}:
+        return None
+    return float(sum(ATOMIC_WEIGHT[el] * n for el, n in atoms.items()))
 
 
 def _resolve_stereo(text: str, library) -> str | None:

@@ -98,13 +98,17 @@ PEAK_COLUMNS = ("row", "rt_min", "area", "height", "area_pct", "name", "cas",
                 "retention_index", "cds_mass_pct")
 #: Columns of a composition input table, in order.
 COMPOSITION_COLUMNS = ("row", "component", "amount")
+#: Optional columns after them, when the file has them: the CAS number beside a name, and a
+#: Hill formula (both used for components outside the library).
+COMPOSITION_OPTIONAL = ("cas", "formula")
 #: Allowed composition bases.
 BASES = ("mass_pct", "vol_pct", "mol_pct")
 #: Sample keys always present in ``Run.sample`` (None when the export has no such entry).
 SAMPLE_KEYS = ("id", "injection_time", "instrument", "method", "operator", "vial")
 
 _NUMERIC_PEAK_ROLES = ("rt_min", "area", "height", "area_pct", "retention_index", "cds_mass_pct")
-_ROLES = frozenset(("rt_min", "area", "height", "area_pct", "name", "cas", "retention_index",
+_ROLES = frozenset(("rt_min", "area", "height", "area_pct", "name", "cas", "formula",
+                    "retention_index",
                     "cds_mass_pct") + BASES)
 _READER_DEFAULTS: dict[str, Any] = {
     "columns": {}, "zero_area": "skip", "rt_unit": "auto", "decimal": "auto",
@@ -811,9 +815,15 @@ def _composition_rows(hdr, cols, nums, free, mark, raw, line_arr):
     mark(np.isnan(amount), raw(hdr.basis))
     mark(amount < 0, "negative amount")
     keep = free.tolist()
-    return pd.DataFrame({"row": line_arr[free],
-                         "component": pd.Series([c for c, k in zip(comp, keep) if k], dtype=object),
-                         "amount": amount[free]})
+    out = pd.DataFrame({"row": line_arr[free],
+                        "component": pd.Series([c for c, k in zip(comp, keep) if k], dtype=object),
+                        "amount": amount[free]})
+    # kept beside the name for components outside the library (dha.quantify)
+    for role in ("cas", "formula"):
+        if cols.get(role) is not None and (role != "cas" or cols.get("name") is not None):
+            out[role] = pd.Series([c or None for c, k in zip(cols[role], keep) if k],
+                                  dtype=object)
+    return out
 
 
 # ----------------------------------------------------------------------------- text files

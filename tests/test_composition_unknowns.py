@@ -211,3 +211,26 @@ def test_peak_named_without_cis_trans_goes_to_the_nearest_isomer(lib):
     assert list(out["component"]) == ["cis-1,2-dimethylcyclopentane",
                                       "trans-1,2-dimethylcyclopentane"]
     assert any("without cis/trans" in w for w in out.attrs["warnings"])
+
+
+def test_formula_and_cas_columns_of_a_composition_file(lib, tmp_path):
+    # a LIMS table with name, CAS and Hill formula: an unknown name with a known CAS number is
+    # that component; an unknown compound takes carbon number, group and molar mass from its
+    # formula (C11H24: 11 x 12.011 + 24 x 1.008 = 156.313 g/mol, IUPAC 2013 weights)
+    from dha.reader import read_input
+    path = tmp_path / "lims.csv"
+    path.write_text("component,cas,formula,mol_pct\n"
+                    "toluene,108-88-3,C7H8,50\n"
+                    "C11 branched paraffin,,C11H24,30\n"
+                    "methylbenzene (lab name),108-88-3,,10\n"
+                    "DMCH,591-21-9,C8H16,10\n", encoding="utf-8")
+    run = read_input(path)[0]
+    assert list(run.table.columns) == ["row", "component", "amount", "cas", "formula"]
+    q = quantify_composition(run.table, run.basis, lib, default_settings())
+    t = q.table.set_index("name")
+    assert t.loc["toluene", "mol_pct"] == pytest.approx(60.0)
+    unk = t.loc["C11 branched paraffin"]
+    assert (unk["carbon_number"], unk["group"]) == (11, "isoparaffins")
+    assert unk["molar_mass_g_mol"] == pytest.approx(156.313, abs=1e-3)
+    assert t.loc["cis-1,3-dimethylcyclohexane", "mol_pct"] == pytest.approx(5.0)
+    assert any("108-88-3 is toluene" in e["reason"] for e in q.import_log)

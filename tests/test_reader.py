@@ -22,7 +22,7 @@ import pandas as pd
 import pytest
 
 from dha.errors import InputError, SettingsError
-from dha.reader import COMPOSITION_COLUMNS, PEAK_COLUMNS, Run, read_input, read_text
+from dha.reader import COMPOSITION_COLUMNS, COMPOSITION_OPTIONAL, PEAK_COLUMNS, Run, read_input, read_text
 from dha.settings import load_settings, merge_settings
 
 EXPORTS = Path(__file__).parent / "exports"
@@ -74,7 +74,8 @@ def test_corpus_variant(expected_file: Path):
                 else:
                     np.testing.assert_allclose(got, [float(v) for v in values], rtol=1e-12)
         else:
-            assert list(t.columns) == list(COMPOSITION_COLUMNS)
+            assert list(t.columns) == list(COMPOSITION_COLUMNS) + [
+                c for c in COMPOSITION_OPTIONAL if c in t.columns]
             assert t["component"].tolist() == [r[1] for r in rows]
             assert t["amount"].tolist() == [r[2] for r in rows]
         got_log = [(e["row"], e["action"]) for e in run.import_log]

@@ -14,7 +14,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from dha.errors import InputError
-from dha.reader import COMPOSITION_COLUMNS, PEAK_COLUMNS, Run, read_input
+from dha.reader import COMPOSITION_COLUMNS, COMPOSITION_OPTIONAL, PEAK_COLUMNS, Run, read_input
 
 EXPORTS = Path(__file__).parent / "exports"
 SEEDS = [p.read_bytes() for p in sorted(EXPORTS.iterdir())
@@ -36,7 +36,8 @@ def _check_run(run: Run) -> None:
         assert np.all(np.diff(rt) >= 0)
         assert np.all(np.isfinite(area)) and np.all(area >= 0)
     else:
-        assert list(t.columns) == list(COMPOSITION_COLUMNS)
+        assert list(t.columns) == list(COMPOSITION_COLUMNS) + [
+            c for c in COMPOSITION_OPTIONAL if c in t.columns]
         assert run.basis in ("mass_pct", "vol_pct", "mol_pct")
         assert np.all(np.isfinite(t["amount"].to_numpy(dtype=float)))
     for entry in run.import_log:

@@ -376,7 +376,9 @@ def _library_indices(library: Any) -> pd.DataFrame:
     src = comps.get("retention_index_source")
     if src is None:
         src = pd.Series("", index=comps.index)
-    kind = np.where(src.fillna("").astype(str).str.startswith("learnt"), "learnt", "estimated")
+    src = src.fillna("").astype(str)
+    kind = np.where(src.str.startswith("learnt"), "learnt",
+                    np.where(src.str.startswith("recalibrated"), "recalibrated", "estimated"))
     out = pd.DataFrame({"name": comps.index, "retention_index": ri.to_numpy(),
                         "ri_kind": kind}).dropna(subset=["retention_index"])
     return out.sort_values(["retention_index", "name"], kind="stable").reset_index(drop=True)

@@ -934,7 +934,8 @@ def _run_key(text: str) -> str:
 
 
 def learn_indices(runs: Sequence[tuple[str, pd.DataFrame]], library: Any,
-                  settings: Mapping[str, Any] | None = None) -> pd.DataFrame:
+                  settings: Mapping[str, Any] | None = None, *,
+                  recalibrate: bool = False) -> pd.DataFrame:
     """Retention indices of the named peaks of reference runs, averaged over the runs.
 
     Parameters
@@ -951,7 +952,12 @@ def learn_indices(runs: Sequence[tuple[str, pd.DataFrame]], library: Any,
     DataFrame
         One row per component named in at least one run: ``name``, ``retention_index`` (mean),
         ``retention_index_sd`` (sample standard deviation over runs, NaN for one run),
-        ``n_runs``, ``runs`` (";"-joined ids), ``retention_index_source`` (``learnt:<ids>``).
+        ``n_runs``, ``runs`` (";"-joined ids), ``retention_index_source`` (``learnt:<ids>``),
+        ``index_kind`` ("learnt"); with ``recalibrate`` also the components the runs did not
+        contain whose structural neighbours were learnt (:func:`recalibrate_neighbours`,
+        ``index_kind`` "recalibrated"). Components in neither keep the shipped estimate.
+        Several runs (different fuels) merge: each component's mean over the runs that hold
+        it, with their spread (sd).
 
     Notes
     -----
@@ -991,7 +997,76 @@ def learn_indices(runs: Sequence[tuple[str, pd.DataFrame]], library: Any,
         "runs": g["run"].agg(lambda r: ";".join(dict.fromkeys(r))),
     }).reset_index()
     table["retention_index_source"] = source
+    table["index_kind"] = "learnt"
+    if recalibrate:
+        table = pd.concat([table, recalibrate_neighbours(table, library, ids)],
+                          ignore_index=True)
     return table.sort_values("retention_index", kind="stable").reset_index(drop=True)
+
+
+#: Neighbour rule of :func:`recalibrate_neighbours` (common practice, no source; validated
+#: on simulated columns, tests/test_retention.py): neighbours are learnt components of the same
+#: group within BP_WINDOW_C degC of boiling point; weight exp(-|dbp| / BP_SCALE_C), doubled for
+#: the same carbon number; the weighted mean offset is shrunk by n / (n + SHRINK) towards 0.
+BP_WINDOW_C = 30.0
+BP_SCALE_C = 10.0
+SHRINK = 2.0
+MIN_NEIGHBOURS = 2
+
+
+def recalibrate_neighbours(learnt: pd.DataFrame, library: Any, ids: Sequence[str]
+                           ) -> pd.DataFrame:
+    """Recalibrated indices of the components the reference runs did not contain.
+
+    A lab column's indices differ from the shipped estimates in a way that follows structure
+    (the estimate's error depends on the group and the boiling point), so a component's
+    offset is predicted from the learnt offsets (learnt - shipped index) of its structural
+    neighbours: same group, boiling point within :data:`BP_WINDOW_C`, weighted by
+    ``exp(-|dbp| / BP_SCALE_C)`` and twice for the same carbon number; at least
+    :data:`MIN_NEIGHBOURS`; the weighted mean is shrunk by ``n / (n + SHRINK)`` (few
+    neighbours, little trust). Components without such neighbours keep their estimate.
+
+    Returns
+    -------
+    DataFrame
+        Rows like :func:`learn_indices` with ``index_kind`` "recalibrated",
+        ``retention_index_source`` ``recalibrated:<ids>``, ``n_runs`` 0 and
+        ``retention_index_sd`` the weighted spread of the neighbours' offsets.
+    """
+    comps = library.components
+    est = pd.to_numeric(comps["retention_index"], errors="coerce")
+    bp = pd.to_numeric(comps.get("boiling_point_c"), errors="coerce")
+    cn = pd.to_numeric(comps.get("carbon_number"), errors="coerce")
+    grp = comps["group"]
+    known = learnt[learnt["name"].isin(comps.index)]
+    off = pd.Series(known["retention_index"].to_numpy(dtype=float)
+                    - est.reindex(known["name"]).to_numpy(dtype=float),
+                    index=known["name"].to_numpy()).dropna()
+    rows = []
+    done = set(known["name"])
+    for name in comps.index:
+        if name in done or not np.isfinite(est[name]) or not np.isfinite(bp[name]):
+            continue
+        if grp[name] == "n_paraffins":
+            continue                   # the n-alkanes define the scale: 100 n by definition
+        nb = [n for n in off.index if grp[n] == grp[name] and np.isfinite(bp[n])
+              and abs(bp[n] - bp[name]) <= BP_WINDOW_C]
+        if len(nb) < MIN_NEIGHBOURS:
+            continue
+        w = np.array([np.exp(-abs(bp[n] - bp[name]) / BP_SCALE_C)
+                      * (2.0 if cn[n] == cn[name] else 1.0) for n in nb])
+        o = off[nb].to_numpy(dtype=float)
+        mean = float(np.sum(w * o) / np.sum(w))
+        spread = float(np.sqrt(np.sum(w * (o - mean) ** 2) / np.sum(w)))
+        shift = mean * len(nb) / (len(nb) + SHRINK)
+        rows.append({"name": name, "retention_index": round(float(est[name]) + shift, 2),
+                     "retention_index_sd": round(spread, 3), "n_runs": 0,
+                     "runs": ";".join(dict.fromkeys(ids)),
+                     "retention_index_source": "recalibrated:" + "+".join(dict.fromkeys(ids)),
+                     "index_kind": "recalibrated"})
+    return pd.DataFrame(rows, columns=["name", "retention_index", "retention_index_sd",
+                                       "n_runs", "runs", "retention_index_source",
+                                       "index_kind"])
 
 
 def write_index_overlay(table: pd.DataFrame, out_dir: str | Path, *, runs: Sequence[str] = (),
@@ -1015,7 +1090,8 @@ def write_index_overlay(table: pd.DataFrame, out_dir: str | Path, *, runs: Seque
     if out.exists() and not overwrite and any((out / f).exists() for f in files):
         raise InputError(f"{out}: holds a library overlay already; use --overwrite to replace it")
     out.mkdir(parents=True, exist_ok=True)
-    source = str(table["retention_index_source"].iat[0]) if len(table) else "learnt:none"
+    learnt_src = [x for x in table["retention_index_source"] if str(x).startswith("learnt")]
+    source = str(learnt_src[0]) if learnt_src else "learnt:none"
     table[["name", "retention_index", "retention_index_source"]].to_csv(
         out / "components.csv", index=False, float_format="%.2f")
     table.to_csv(out / "learnt_indices.csv", index=False)
@@ -1029,6 +1105,15 @@ def write_index_overlay(table: pd.DataFrame, out_dir: str | Path, *, runs: Seque
            f"package = \"dha\"\nversion = {json.dumps(__version__)}\n"
            f"method = \"dha index learn (van den Dool-Kratz / Kovats index from the run's n-alkanes)\"\n"
            f"licence = \"lab data; the lab's own terms\"\n")
+    n_re = int((table.get("index_kind", pd.Series(dtype=object)) == "recalibrated").sum())
+    re_sources = [x for x in dict.fromkeys(table["retention_index_source"])
+                  if str(x).startswith("recalibrated:")]
+    for key in re_sources:
+        ref += (f"\n[{json.dumps(key)}]\n"
+                f"cite = {json.dumps(f'Shipped estimates recalibrated by dha index learn from the learnt offsets of structural neighbours (same group, boiling point within {BP_WINDOW_C:g} degC) in the run(s) ' + key.split(':', 1)[1] + f' ({n_re} components; see learnt_indices.csv)')}\n"
+                f"package = \"dha\"\nversion = {json.dumps(__version__)}\n"
+                f"method = \"dha.retention.recalibrate_neighbours\"\n"
+                f"licence = \"lab data; the lab's own terms\"\n")
     (out / "references.toml").write_text(ref, encoding="utf-8")
     (out / "library.toml").write_text(
         f"name = \"lab-learnt-indices\"\nversion = \"{today.year}.{today.month:02d}.1\"\n"

@@ -104,3 +104,103 @@ def test_alignment_interval_entry_and_prior():
     assert align_indices(np.array([500.8]), lib, 3.0)[0].tolist() == [1]
     assert align_indices(np.array([500.8]), lib, 3.0,
                          lib_bonus=np.array([1.0, 0.0]))[0].tolist() == [0]
+
+
+# --------------------------------------------------------------------------------------------
+# Issue 13: learning that carries over (dha.retention.recalibrate_neighbours)
+# --------------------------------------------------------------------------------------------
+
+def _lab_settings(**kw):
+    from dha.settings import default_settings
+    from dha.synthetic import lab_standard
+    s = default_settings()
+    s["identify"].update({"isothermal_until_min": 15.0, "holdup_time_min": 4.0,
+                          "markers": lab_standard()}, **kw)
+    return s
+
+
+def _structured_column(lib, seed=5):
+    """A simulated lab column: per group an offset smooth in boiling point (+-2.5 units scale)
+    plus an independent 0.7 units per component; the n-alkanes stay at 100 n."""
+    import dataclasses
+
+    import numpy as np
+    import pandas as pd
+    rng = np.random.default_rng(seed)
+    c = lib.components.copy()
+    bp = pd.to_numeric(c["boiling_point_c"], errors="coerce").fillna(100.0)
+    off = pd.Series(0.0, index=c.index)
+    for g in sorted(c["group"].unique()):
+        a, b = rng.normal(0.0, 2.5, 2)
+        off[c["group"] == g] = a + b * np.sin((bp[c["group"] == g] - 30.0) / 60.0)
+    off += rng.normal(0.0, 0.7, len(c))
+    off[c["group"] == "n_paraffins"] = 0.0
+    c["retention_index"] = c["retention_index"] + off
+    return dataclasses.replace(lib, components=c)
+
+
+def test_recalibrated_indices_are_nearer_the_column_and_recorded(tmp_path):
+    # The neighbour rule (dha.retention.recalibrate_neighbours) on structured simulated columns
+    # (seeds 5-7), learnt from one real fuel (FACE G, 73 components): the recalibrated indices
+    # must lie nearer the column's true indices than the shipped estimates (RMS over the
+    # recalibrated components). Measured: see the assert message. NOT shown: that this raises
+    # the identification of a different fuel -- over 5 fuel pairs x 3 columns the mass right
+    # was 0.776 with recalibration against 0.778 learnt-only (seeds 5-7; losses up to 0.35 in
+    # one pair), so the rule is off by default (dha index learn --recalibrate).
+    import numpy as np
+
+    from dha.fuel_data import composition
+    from dha.library import load_library
+    from dha.retention import learn_indices, write_index_overlay
+    from dha.synthetic import synthetic_run
+    lib = load_library()
+    est = lib.components["retention_index"]
+    for seed in (5, 6, 7):
+        true = _structured_column(lib, seed)
+        rp, _ = synthetic_run(composition(lib, "KUZ-0697"), true, seed=1, names=True,
+                              index_noise_sd=0.1)
+        table = learn_indices([("REF", rp)], lib, _lab_settings(), recalibrate=True)
+        re = table[table["index_kind"] == "recalibrated"].set_index("name")["retention_index"]
+        assert len(re) > 20
+        truth = true.components["retention_index"].reindex(re.index)
+        rms_new = float(np.sqrt(np.mean((re - truth) ** 2)))
+        rms_old = float(np.sqrt(np.mean((est.reindex(re.index) - truth) ** 2)))
+        assert rms_new < rms_old, (seed, rms_new, rms_old)
+    assert set(table["index_kind"]) == {"learnt", "recalibrated"}
+    d = write_index_overlay(table, tmp_path / "lab", runs=["REF"])
+    lab = load_library(d)
+    kinds = lab.components["retention_index_source"].str.split(":").str[0]
+    assert {"learnt", "recalibrated"} <= set(kinds)
+    assert set(learn_indices([("REF", rp)], lib, _lab_settings())["index_kind"]) == {"learnt"}
+
+
+def test_learnt_from_the_same_fuel_is_right(tmp_path):
+    # Issue 13: a column whose indices differ from the estimates by N(0, 3) units fixed per
+    # component; learnt from a named run of a real fuel, a later unnamed run of the same fuel
+    # (alkane standard given) >= 99.5 % of the mass right. Measured 1.000 (FACE C, seeds 1/2).
+    from dha.identify import identify
+    from dha.library import load_library
+    from dha.retention import learn_indices, write_index_overlay
+    from dha.synthetic import identification_accuracy, real_fuel_run
+    lib = load_library()
+    col = dict(column_sd=3.0, column_seed=77, index_noise_sd=0.1)
+    rp, _ = real_fuel_run(lib, "KUZ-0589", seed=1, names=True, **col)
+    d = write_index_overlay(learn_indices([("REF", rp)], lib, _lab_settings()), tmp_path / "lab")
+    lab = load_library(d)
+    p, tr = real_fuel_run(lib, "KUZ-0589", seed=2, **col)
+    assert identification_accuracy(identify(p, lab, _lab_settings()), tr) >= 0.995
+
+
+def test_several_reference_runs_merge_with_their_spread():
+    from dha.library import load_library
+    from dha.retention import learn_indices
+    from dha.synthetic import real_fuel_run
+    lib = load_library()
+    runs = [(f"R{k}", real_fuel_run(lib, mid, seed=k, names=True, index_noise_sd=0.5)[0])
+            for k, mid in enumerate(("KUZ-0589", "KUZ-0628"))]
+    t = learn_indices(runs, lib, _lab_settings(), recalibrate=False)
+    both = t[t["n_runs"] == 2]
+    assert len(both) > 5 and both["retention_index_sd"].notna().all()
+    # sd of two draws of N(0, 0.5): its median over many components is near 0.5 * 0.67
+    assert 0.1 < both["retention_index_sd"].median() < 0.8
+    assert set(t["runs"]) >= {"R0;R1", "R0", "R1"} or set(t["runs"]) >= {"R0;R1"}

@@ -23,7 +23,10 @@ def index_group() -> None:
 @library_option
 @settings_option
 @click.option("--overwrite", is_flag=True, help="Replace an overlay that exists.")
-def learn_command(refruns, out_dir, library_dir, settings_file, overwrite) -> None:
+@click.option("--recalibrate", is_flag=True,
+              help="Also shift the estimated indices of components the runs did not contain by "
+                   "the learnt offsets of their neighbours (same group, close boiling point).")
+def learn_command(refruns, out_dir, library_dir, settings_file, overwrite, recalibrate) -> None:
     """Learn retention indices from named reference runs and write a library overlay.
 
     Each REFRUN is a peak-table export whose peaks (n-alkanes included) carry names. The
@@ -53,10 +56,14 @@ def learn_command(refruns, out_dir, library_dir, settings_file, overwrite) -> No
             if run.injection:
                 rid = f"{rid}-{run.injection}"
             runs.append((str(rid), run.table))
-    table = learn_indices(runs, library, settings)
+    table = learn_indices(runs, library, settings, recalibrate=recalibrate)
     out = write_index_overlay(table, out_dir, runs=[r for r, _ in runs], overwrite=overwrite)
     sd = table["retention_index_sd"].dropna()
-    click.echo(f"learnt {len(table)} retention indices from {len(runs)} run(s) -> {out}")
+    kinds = table["index_kind"].value_counts() if "index_kind" in table else {}
+    click.echo(f"learnt {int(kinds.get('learnt', len(table)))} retention indices from "
+               f"{len(runs)} run(s)"
+               + (f", recalibrated {int(kinds.get('recalibrated', 0))} from their neighbours"
+                  if recalibrate else "") + f" -> {out}")
     if len(sd):
         worst = table.loc[table["retention_index_sd"].idxmax()]
         click.echo(f"spread over runs: median sd {sd.median():.2f}, largest {worst['name']} "

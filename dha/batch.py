@@ -90,7 +90,9 @@ def expand_inputs(paths: Iterable[str | Path], recursive: bool = False,
     explicitly is always taken. ``recursive`` also walks the folders' sub-folders; hidden
     files and folders and anything inside ``exclude`` (the output folder) are left out.
 
-    Order is kept as given; each folder's files are sorted by path; duplicates removed.
+    Order is kept as given; each folder's files are sorted by path; duplicates removed. A path
+    that matches nothing is kept as given: processing it fails ("file not found") in its own
+    summary row and the other runs go on.
     """
     skip = Path(os.path.abspath(exclude)) if exclude is not None else None
 
@@ -114,7 +116,8 @@ def expand_inputs(paths: Iterable[str | Path], recursive: bool = False,
         else:
             found = [Path(q) for q in sorted(glob.glob(text, recursive=recursive)) if wanted(Path(q))]
             if not found:
-                raise InputError(f"{text}: no such file, folder or matching files")
+                # kept: processing it fails with one line in the summary; the others go on
+                found = [p]
         out.extend(found)
     seen, unique = set(), []
     for p in out:
@@ -394,6 +397,7 @@ def process_task(task: Task, job: Job) -> list[dict]:
     out_dir = Path(job.out_dir)
     try:
         library = load_library(job.library_dir)
+        pipeline.check_input_path(task.path)   # missing, a folder, a FIFO: one line, no traceback
         provenance = {"input_sha256": sha256_file(task.path), "library_sha256": library.sha256,
                       "settings_sha256": job.settings_sha256, "tool_version": __version__}
         existing = _existing_results(task, out_dir)
@@ -438,7 +442,9 @@ def process_task(task: Task, job: Job) -> list[dict]:
         return [{"row": _error_row(task, str(err)), "result": None, "path": None,
                  "order": (task.rel, 0)}]
     except Exception as err:  # a bug must not stop the other runs of the batch
-        log.exception("internal error on %s", task.rel)
+        log.error("internal error on %s (%s: %s); run with -vv for details", task.rel,
+                  type(err).__name__, err)
+        log.debug("internal error on %s", task.rel, exc_info=True)
         return [{"row": _error_row(task, f"internal error ({err.__class__.__name__}: {err}); "
                                    "please report it"), "result": None, "path": None,
                  "order": (task.rel, 0)}]

@@ -15,6 +15,7 @@ import click
 
 from dha import __version__
 from dha.errors import DhaError
+from dha.safety import terminal_text
 
 #: Command modules; each exposes ``COMMANDS``, a list of click commands or groups.
 COMMAND_MODULES = (
@@ -31,6 +32,12 @@ COMMAND_MODULES = (
     "dha.commands.blend",
 )
 
+
+class _TerminalFormatter(logging.Formatter):
+    """Log lines with control characters of names (escape sequences, BEL) made visible."""
+
+    def formatMessage(self, record: logging.LogRecord) -> str:  # noqa: N802 - logging's name
+        return terminal_text(super().formatMessage(record))
 
 def _declared_commands(module_name: str) -> list[tuple[str, str]]:
     """(command name, docstring) of the top-level click commands a module declares, read from
@@ -162,7 +169,7 @@ class _Main(click.Group):
         try:
             return super().invoke(ctx)
         except DhaError as err:
-            click.echo(f"dha: error: {err}", err=True)
+            click.echo(terminal_text(f"dha: error: {err}"), err=True)
             ctx.exit(1)
 
 
@@ -179,6 +186,9 @@ def cli(verbose: int, quiet: int) -> None:
     level = logging.WARNING - 10 * verbose + 10 * quiet
     logging.basicConfig(level=max(logging.DEBUG, min(level, logging.CRITICAL)),
                         format="dha: %(levelname)s: %(message)s", stream=sys.stderr)
+    for handler in logging.getLogger().handlers:
+        if not isinstance(handler.formatter, _TerminalFormatter):
+            handler.setFormatter(_TerminalFormatter("dha: %(levelname)s: %(message)s"))
 
 
 def main() -> None:

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import importlib
 import logging
+import math
 import re
 from pathlib import Path
 from typing import Any, Callable
@@ -64,7 +65,9 @@ def run_properties(comp, library, settings) -> list[tuple[str, Any]]:
             module = importlib.import_module(name)
             res = module.compute(comp, library, settings)
         except Exception as err:  # noqa: BLE001 - one model's failure must not lose the run
-            log.warning("property model %s failed", name, exc_info=True)
+            log.warning("property model %s failed (%s: %s); its properties are null", short,
+                        type(err).__name__, err)
+            log.debug("property model %s failed", name, exc_info=True)
             res = PropertyResult(warnings=[
                 f"property model {short} failed ({type(err).__name__}: {err}); "
                 "its properties are null"])
@@ -91,6 +94,7 @@ def process_run(run, settings: dict, library, spec: str | None = None,
     result = build_result(run, quant, groups, properties, library, settings,
                           extra_warnings=id_warnings, identification=identification,
                           generated_at=generated_at)
+    check_totals(result, run)
     from dha.explain import result_keys as _octane_keys
     result.update(jsonable(_octane_keys(quant.table, library, settings, result["properties"])))
     if spec is None:
@@ -104,6 +108,29 @@ def process_run(run, settings: dict, library, spec: str | None = None,
     _add_identification(result, identified, quant.table, library)
     return result
 
+
+def check_totals(result: dict, run=None) -> None:
+    """Refuse a result whose group totals are not numbers summing to 100 %.
+
+    Exit 1 with one line, never a result of zeros: e.g. every area unusable, or areas so
+    large that their sum overflows.
+    """
+    where = Path(str(getattr(run, "source_file", "") or
+                     (result.get("sample") or {}).get("source_file") or "input")).name
+    injection = getattr(run, "injection", None)
+    if injection:
+        where += f" [{injection}]"
+    for basis, groups in (result.get("totals") or {}).items():
+        if groups is None:
+            continue
+        values = list(groups.values())
+        bad = [v for v in values if v is None or not math.isfinite(float(v))]
+        total = sum(float(v) for v in values if v is not None and math.isfinite(float(v)))
+        if (basis == "mass_pct" and bad) or (not bad and abs(total - 100.0) > 0.5):
+            raise InputError(
+                f"{where}: the {basis.replace('_pct', ' %')} totals cannot be computed (they sum "
+                f"to {total:.4g} %, {len(bad)} not a number); check the areas or amounts "
+                "(see the rows in the import log) and export again")
 
 def _add_identification(result: dict, identified, composition, library) -> None:
     """The identification check (every peak-table result), peaks to review and per-component
@@ -139,14 +166,23 @@ def process_file(path: str | Path, settings: dict, library, spec: str | None = N
     return [r for _, r in process_file_stems(path, settings, library, spec)]
 
 
-def process_file_stems(path: str | Path, settings: dict, library,
-                       spec: str | None = None) -> list[tuple[str, dict]]:
-    """As ``process_file``, with each result's output stem."""
+def check_input_path(path: str | Path) -> Path:
+    """``path`` as a Path if it is a regular file; else one-line ``InputError``."""
     path = Path(path)
     if path.is_dir():
         raise InputError(f"{path}: is a folder; give the export files (or use dha batch)")
-    if not path.is_file():
+    if not path.exists():
         raise InputError(f"{path}: file not found; check the path")
+    if not path.is_file():
+        raise InputError(f"{path}: not a regular file (a device, pipe or socket); give the "
+                         "export file itself")
+    return path
+
+
+def process_file_stems(path: str | Path, settings: dict, library,
+                       spec: str | None = None) -> list[tuple[str, dict]]:
+    """As ``process_file``, with each result's output stem."""
+    path = check_input_path(path)
     from dha.reader import read_input
     runs = read_input(path, settings)
     if not runs:

@@ -74,6 +74,7 @@ import csv
 import io
 import logging
 import re
+import stat
 import tomllib
 import zipfile
 from dataclasses import dataclass, field
@@ -474,15 +475,17 @@ _DEC_POINT = re.compile(r"^[-+\u2212]?[\d,\s'\u00a0\u202f]*\d\.(?:\d{1,2}|\d{4,}
                         r"^[-+\u2212]?(?:0|\d{4,})\.\d+$")
 
 
-def _detect_decimal(samples: list[str]) -> str:
+def _detect_decimal(samples: list[str], more_point: int = 0) -> str:
     """``","`` when the values read best with a decimal comma, else ``"."``.
+
+    ``more_point``: further evidence for a decimal point (numbers already parsed with one).
 
     >>> _detect_decimal(["12,5", "1.234,75", "3"]), _detect_decimal(["1,234.5", "7.25"])
     (',', '.')
     """
     comma = sum(1 for v in samples if _DEC_COMMA.match(v.strip()))
     point = sum(1 for v in samples if _DEC_POINT.match(v.strip()))
-    return "," if comma > point else "."
+    return "," if comma > point + more_point else "."
 
 
 _CELL_COMMA = re.compile(r"(?:^|(?<=[;\t]))[ ]*[-+\u2212]?[\d. '\u00a0\u202f]*\d,(?:\d{1,2}|\d{4,})[ ]*"
@@ -708,6 +711,29 @@ def _build_run(source: str, stem: str, injection: str | None, sample: dict[str, 
                 probe += [v for v, k in zip(cols[role], keep) if k and type(v) is str][:300]
         decimal = _detect_decimal(probe) if probe else "."
     nums = {role: _to_float(cols[role], decimal) for role in numeric}
+    limits = rs["limits"]
+    if nrows > limits["max_rows"]:
+        raise InputError(
+            f"{source}{f' [{injection}]' if injection else ''}: {nrows} rows under the header at "
+            f"row {header_row}, more than [limits] max_rows = {int(limits['max_rows'])}; split "
+            "the file or raise the limit in a settings file")
+    for role in ("name", "cas"):
+        _check_text_length(texts.get(role), role, line_arr, source, limits["max_text_chars"])
+    evidence = rs["decimal"] != "auto" or _has_mark_evidence(
+        [cols[r] for r in numeric], [texts[r] for r in numeric])
+    for role in numeric:
+        if texts[role] is not None:
+            _check_separators(role, hdr.cells[hdr.roles[role]], cols[role], texts[role],
+                              nums[role], decimal, free, line_arr, logs, evidence)
+    if "retention_index" in nums:
+        ri = nums["retention_index"]
+        odd = free & ~np.isnan(ri) & ((ri < INDEX_RANGE[0]) | (ri > INDEX_RANGE[1]))
+        for i in np.flatnonzero(odd).tolist():
+            logs.append({"row": int(line_arr[i]), "action": "changed",
+                         "reason": f"retention index {ri[i]:g} outside {INDEX_RANGE[0]:g}-"
+                                   f"{INDEX_RANGE[1]:g} (methane is 100 by definition); "
+                                   "ignored, the peak is placed by its retention time"})
+        ri[odd] = np.nan
 
     def raw(role: str) -> Any:
         def text(i: int) -> str:
@@ -736,6 +762,99 @@ def _build_run(source: str, stem: str, injection: str | None, sample: dict[str, 
                table=table, basis=basis, import_log=logs)
 
 
+# Valid thousands grouping for each decimal mark, and the reading with the other mark.
+_GROUPED = {".": re.compile(r"^[-+]?\d{1,3}(?:,\d{3})+(?:\.\d*)?(?:[eE][-+]?\d+)?$"),
+            ",": re.compile(r"^[-+]?\d{1,3}(?:\.\d{3})+(?:,\d*)?(?:[eE][-+]?\d+)?$")}
+_OTHER_MARK = {".": re.compile(r"^[-+]?(?:\d{1,3}(?:\.\d{3})+|\d*),\d+(?:[eE][-+]?\d+)?$"),
+               ",": re.compile(r"^[-+]?(?:\d{1,3}(?:,\d{3})+|\d*)\.\d+(?:[eE][-+]?\d+)?$")}
+_MARK_WORD = {".": "decimal point", ",": "decimal comma"}
+# Whole numbers grouped by the table's own decimal mark ("1.234" with a decimal point): they
+# read differently with the other mark, so they are logged when a table mixes marks.
+_GROUPED_BY_MARK = {".": re.compile(r"^[-+]?\d{1,3}(?:\.\d{3})+$"),
+                    ",": re.compile(r"^[-+]?\d{1,3}(?:,\d{3})+$")}
+
+
+def _has_mark_evidence(columns: list[Any], texts: list[list[str] | None]) -> bool:
+    """True when some number shows its decimal mark ("12,5", "1.234,5", "0.5", "7.25").
+
+    Without such evidence the mark is a default, and every cell that reads differently with
+    the other mark ("2,215") is logged.
+    """
+    for col, txt in zip(columns, texts):
+        if txt is None:
+            if isinstance(col, np.ndarray) and _fractional_count(col, 1):
+                return True
+            continue
+        for cell in txt[:300]:
+            s = cell.strip()
+            if _DEC_COMMA.match(s) or _DEC_POINT.match(s) or ("," in s and "." in s):
+                return True
+    return False
+
+
+def _check_separators(role: str, header: str, cells: list[Any], texts: list[str],
+                      values: np.ndarray, decimal: str, free: np.ndarray, line_arr: np.ndarray,
+                      logs: list[dict[str, Any]], evidence: bool = True) -> None:
+    """Never a silent x10: cells whose separators contradict the table's decimal mark.
+
+    With a decimal point, a text cell holding a comma must be thousands-grouped ("1,234.5");
+    with a decimal comma, a cell holding a point likewise ("1.234,5"). A cell that is not
+    ("100,5" in a decimal-point table) is read with the other mark when that reading is
+    unambiguous (100.5) and logged as ``changed`` with the raw text and the value used; a cell
+    that reads with neither ("1,234,5") becomes not-a-number (its row is skipped and logged).
+    When a table mixes marks, every cell that reads both ways ("1,234") is logged too, with
+    the value used. ``values`` is changed in place.
+    """
+    other = "," if decimal == "." else "."
+    if other not in "".join(t for t in texts if t) and evidence:
+        return
+    contradict, ambiguous = [], []
+    for i, cell in enumerate(texts):
+        if not free[i] or type(cells[i]) is not str:
+            continue
+        if other not in cell:
+            if decimal in cell and _GROUPED_BY_MARK[decimal].match(
+                    _STRIP_NUM.sub("", cell).replace("\u2212", "-")):
+                ambiguous.append(i)
+            continue
+        s = _STRIP_NUM.sub("", cell).replace("\u2212", "-")
+        if _GROUPED[decimal].match(s):
+            ambiguous.append(i)
+            continue
+        if _OTHER_MARK[decimal].match(s):
+            num = s.replace(".", "").replace(",", ".") if other == "," else s.replace(",", "")
+            values[i] = float(num)
+            contradict.append(i)
+        else:
+            values[i] = np.nan     # neither reading: the row rule for "not a number" skips it
+    for i in contradict:
+        logs.append({"row": int(line_arr[i]), "action": "changed",
+                     "reason": f"{_label(role)} {texts[i]!r} (column {header!r}) has a "
+                               f"{_MARK_WORD[other]} in a table read with a "
+                               f"{_MARK_WORD[decimal]}; value used {float(values[i])!r}"})
+    if contradict or not evidence:
+        why = ("in a table mixing decimal marks" if contradict else
+               "and no number of the table shows its decimal mark")
+        for i in ambiguous:
+            logs.append({"row": int(line_arr[i]), "action": "changed",
+                         "reason": f"{_label(role)} {texts[i]!r} (column {header!r}) reads "
+                                   f"either way {why}; value used {float(values[i])!r} "
+                                   f"({_MARK_WORD[decimal]}); check it, or pin [reader] "
+                                   "decimal"})
+
+
+def _check_text_length(texts: list[str] | None, role: str, line_arr: np.ndarray, source: str,
+                       limit: float) -> None:
+    if not texts:
+        return
+    longest = max(map(len, texts))
+    if longest > limit:
+        i = next(k for k, v in enumerate(texts) if len(v) == longest)
+        raise InputError(f"{source}, row {int(line_arr[i])}, column {role}: a text of {longest} "
+                         f"characters, more than [limits] max_text_chars = {int(limit)}; "
+                         "shorten it in the export (or raise the limit in a settings file)")
+
+
 def _label(role: str) -> str:
     return {"rt_min": "retention time", "area": "area"}.get(role, role.replace("_", " "))
 
@@ -755,8 +874,12 @@ def _peak_rows(hdr, cols, nums, free, mark, raw, line_arr, rs, logs, header_row,
     area = nums["area"]
     mark(np.isnan(rt), raw("rt_min"))
     mark(rt < 0, "negative retention time")
+    mark(rt > MAX_RT_MIN, lambda i: f"retention time {rt[i]:g} min beyond {MAX_RT_MIN:g} min; "
+                                    "not a chromatogram's")
     mark(np.isnan(area), raw("area"))
     mark(area < 0, "negative area (baseline artefact)")
+    mark(area >= ABSURD_AMOUNT, lambda i: f"area {area[i]:g} at or above {ABSURD_AMOUNT:g}; not "
+                                          "a detector's, check the export")
     if rs["zero_area"] == "skip":
         mark(area == 0, "zero area")
     keep = free.copy()
@@ -814,6 +937,8 @@ def _composition_rows(hdr, cols, nums, free, mark, raw, line_arr):
     mark(np.array([c == "" for c in comp], dtype=bool), "no component name or CAS number")
     mark(np.isnan(amount), raw(hdr.basis))
     mark(amount < 0, "negative amount")
+    mark(amount >= ABSURD_AMOUNT, lambda i: f"amount {amount[i]:g} at or above {ABSURD_AMOUNT:g}; "
+                                            "not a percentage, check the file")
     keep = free.tolist()
     out = pd.DataFrame({"row": line_arr[free],
                         "component": pd.Series([c for c, k in zip(comp, keep) if k], dtype=object),
@@ -923,7 +1048,9 @@ def _read_text(text: str, name: str, rs: dict[str, Any],
             *fast, decimal = fast
         else:
             decimal = fixed
-            body = _split_records(kept, line_nos.tolist(), sep, name, pre_logs)
+            # every line, blank ones too: a blank line may sit inside a quoted cell
+            body = _split_records(body_lines, list(range(hi + 2, hi + 2 + len(body_lines))),
+                                  sep, name, pre_logs)
     else:
         body = [(j, _split_line(ln, sep), ln.replace("\t", "  "))
                 for j, ln in enumerate(lines[hi + 1:], start=hi + 2) if ln.strip()]
@@ -983,6 +1110,10 @@ def _check_text_limits(lines: list[str], name: str, rs: dict[str, Any]) -> None:
             "export (or raise the limit in a settings file)")
 
 
+def _blank_cells(cells: list[Any]) -> bool:
+    return all(not str(c).strip(' \t;,"') for c in cells)
+
+
 def _split_records(kept: list[str], line_nos: list[int], sep: str, name: str,
                    logs: list[dict[str, Any]]) -> list[tuple[int, list[Any], None]]:
     """Rows of a delimited body with quoted cells that may span lines.
@@ -998,7 +1129,9 @@ def _split_records(kept: list[str], line_nos: list[int], sep: str, name: str,
             row = line_nos[before] if before < len(line_nos) else line_nos[-1]
             if reader.line_num - before > 3:
                 # a stray quote, not a name on two lines: split every line on its own
-                return [(ln, _split_line(raw, sep), None) for ln, raw in zip(line_nos, kept)]
+                return [(ln, cells, None) for ln, cells in
+                        ((ln, _split_line(raw, sep)) for ln, raw in zip(line_nos, kept))
+                        if not _blank_cells(cells)]
             if reader.line_num - before > 1 or any("\n" in c for c in cells):
                 joined = [c.replace("\n", " ") for c in cells]
                 if joined != cells:
@@ -1008,7 +1141,8 @@ def _split_records(kept: list[str], line_nos: list[int], sep: str, name: str,
                                            "replaced by a space"})
                 cells = joined
             before = reader.line_num
-            body.append((row, cells, None))
+            if not _blank_cells(cells):      # blank (or separator-only) lines are not rows
+                body.append((row, cells, None))
     except csv.Error as err:
         raise InputError(f"{name}, row {line_nos[min(before, len(line_nos) - 1)]}: cannot split "
                          f"the table into cells ({err}); check the quotes in the export") from None
@@ -1053,7 +1187,10 @@ def _fast_columns(body_text: str, line_nos: np.ndarray, sep: str, hdr: _Header,
         probe = [v for i in numeric.values() if df[i].dtype.kind not in "fiu"
                  for v in df[i].tolist()[:300] if type(v) is str]
         if probe:
-            decimal = _detect_decimal(probe)
+            # columns that parsed as numbers with a decimal point are evidence for it too
+            parsed = sum(_fractional_count(df[i].to_numpy(float))
+                         for i in numeric.values() if df[i].dtype.kind == "f")
+            decimal = _detect_decimal(probe, parsed)
         elif sep != "," and all(_ambiguous_thousands(df[i].to_numpy(dtype=float))
                                 for i in numeric.values()):
             decimal = _detect_decimal_text(body_text, sep)
@@ -1072,6 +1209,12 @@ def _fast_columns(body_text: str, line_nos: np.ndarray, sep: str, hdr: _Header,
     extra = [] if 0 not in text_cols else [
         [v if type(v) is str else "" if v != v else _cell_text(v) for v in df[0].tolist()]]
     return line_nos, cols, extra, [], decimal
+
+
+def _fractional_count(v: np.ndarray, cap: int = 300) -> int:
+    """How many finite values have a fractional part (at most ``cap``)."""
+    v = v[np.isfinite(v)]
+    return min(cap, int(np.count_nonzero(np.mod(v, 1))))
 
 
 def _cell_text(v: Any) -> str:
@@ -1132,6 +1275,9 @@ def _grid_runs(sheets: list[tuple[str, list[list[Any]]]], path: Path,
     pinned = rs["columns"]
     found = []
     best = None
+    cleaned: dict[str, list[dict[str, Any]]] = {}
+    for sheet, rows in sheets:
+        cleaned[sheet] = _clean_control_cells(rows)
     for sheet, rows in sheets:
         for r, cells in enumerate(rows):
             if not any(isinstance(c, str) and any(ch.isalpha() for ch in c) for c in cells):
@@ -1159,11 +1305,27 @@ def _grid_runs(sheets: list[tuple[str, list[list[Any]]]], path: Path,
         injection = sheet if len(found) > 1 else None
         line_arr, cols, extra, logs = _rows_to_columns(body, hdr, None, None)
         runs.append(_build_run(str(path), path.stem, injection, sample, hdr, r + 1, line_arr,
-                               cols, extra, logs, None, rs))
+                               cols, extra, cleaned[sheet] + logs, None, rs))
     skipped = [s for s, _ in sheets if s not in {f[0] for f in found}]
     if skipped:
         log.info("%s: sheets without a table left out: %s", path, ", ".join(skipped))
     return runs
+
+
+def _clean_control_cells(rows: list[list[Any]]) -> list[dict[str, Any]]:
+    """Control characters in a sheet's text cells shown visibly (in place); logged per row."""
+    logs = []
+    for r, cells in enumerate(rows, start=1):
+        names: set[str] = set()
+        for j, c in enumerate(cells):
+            if isinstance(c, str) and has_controls(c):
+                shown = visible_controls(c)
+                names |= set(re.findall(r"<(?:[A-Z]{2,3}|U\+[0-9A-F]{4})>", shown))
+                cells[j] = shown
+        if names:
+            logs.append({"row": r, "action": "changed",
+                         "reason": "control character(s) shown as " + ", ".join(sorted(names))})
+    return logs
 
 
 def _flat(err: Exception) -> str:
@@ -1171,15 +1333,30 @@ def _flat(err: Exception) -> str:
     return " ".join(str(err).split())[:120]
 
 
-def _xlsx_sheets(data: bytes, path: Path) -> list[tuple[str, list[list[Any]]]]:
+def _xlsx_sheets(data: bytes, path: Path,
+                 limits: dict[str, float] | None = None) -> list[tuple[str, list[list[Any]]]]:
     import openpyxl
+    limits = limits or LIMIT_DEFAULTS
+    max_rows = int(limits["max_rows"]) + 1000     # metadata and blank rows get some room
     try:
         wb = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True)
         try:
-            return [(ws.title, [list(r) for r in ws.iter_rows(min_row=1, values_only=True)])
-                    for ws in wb.worksheets]
+            sheets = []
+            for ws in wb.worksheets:
+                rows = []
+                for r in ws.iter_rows(min_row=1, values_only=True):
+                    if len(rows) >= max_rows:
+                        raise InputError(
+                            f"{path} [{ws.title}]: more than {max_rows} rows ([limits] max_rows "
+                            f"= {int(limits['max_rows'])}); export only the peak table or "
+                            "raise the limit in a settings file")
+                    rows.append(list(r))
+                sheets.append((ws.title, rows))
+            return sheets
         finally:
             wb.close()
+    except InputError:
+        raise
     except Exception as err:  # corrupt archives raise many kinds of error
         raise InputError(f"{path}: cannot read the Excel workbook ({type(err).__name__}: "
                          f"{_flat(err)}); save it again as .xlsx or export CSV") from None
@@ -1234,7 +1411,23 @@ def read_input(path: str | Path, settings: dict | None = None) -> list[Run]:
         The file is missing, empty, not a table, or its columns cannot be told apart.
     """
     rs = _reader_settings(settings)
+    limits = rs["limits"]
     path = Path(path)
+    try:
+        info = path.stat()
+    except FileNotFoundError:
+        raise InputError(f"{path}: file not found; check the path") from None
+    except OSError as err:
+        raise InputError(f"{path}: cannot read the file ({err.strerror}); check the path") from None
+    if stat.S_ISDIR(info.st_mode):
+        raise InputError(f"{path}: is a folder, not a file; give a peak-table file")
+    if not stat.S_ISREG(info.st_mode):
+        raise InputError(f"{path}: not a regular file (a device, pipe or socket); give the "
+                         "export file itself")
+    if info.st_size > limits["max_file_mb"] * 1e6:
+        raise InputError(f"{path}: {info.st_size / 1e6:.1f} MB, larger than [limits] "
+                         f"max_file_mb = {limits['max_file_mb']:g} (a DHA peak table is well "
+                         "under 1 MB); check the file or raise the limit in a settings file")
     try:
         data = path.read_bytes()
     except FileNotFoundError:
@@ -1247,13 +1440,19 @@ def read_input(path: str | Path, settings: dict | None = None) -> list[Run]:
         raise InputError(f"{path}: the file is empty; export the peak table again")
     if data.startswith(b"PK\x03\x04"):
         try:
-            names = zipfile.ZipFile(io.BytesIO(data)).namelist()
-        except Exception:
-            names = []
-        if "xl/workbook.xml" not in names:
+            infos = zipfile.ZipFile(io.BytesIO(data)).infolist()
+        except Exception:  # noqa: BLE001 - zipfile raises several kinds on a damaged archive
+            raise InputError(f"{path}: a damaged or truncated ZIP/XLSX file (its directory "
+                             "cannot be read); copy or export it again") from None
+        if "xl/workbook.xml" not in {i.filename for i in infos}:
             raise InputError(f"{path}: a ZIP archive but not an Excel workbook; give the XLSX "
                              f"or a CSV export itself")
-        return _grid_runs(_xlsx_sheets(data, path), path, rs)
+        unpacked = sum(i.file_size for i in infos)
+        if unpacked > limits["max_workbook_mb"] * 1e6:
+            raise InputError(f"{path}: the workbook unpacks to {unpacked / 1e6:.0f} MB, more "
+                             f"than [limits] max_workbook_mb = {limits['max_workbook_mb']:g}; "
+                             "export only the peak table, or raise the limit in a settings file")
+        return _grid_runs(_xlsx_sheets(data, path, limits), path, rs)
     if data.startswith(b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"):
         return _grid_runs(_xls_sheets(data, path), path, rs)
     for magic, what in _MAGIC:
@@ -1262,4 +1461,29 @@ def read_input(path: str | Path, settings: dict | None = None) -> list[Run]:
                              f"export of the peak table")
     text = _decode(data, str(path))
     _check_text(text, str(path))
-    return [_read_text(text, str(path), rs)]
+    return [_read_text(text, str(path), rs, _encoding_notes(data))]
+
+
+_UTF8_MULTIBYTE = re.compile(rb"[\xc2-\xf4][\x80-\xbf]+")
+
+
+def _encoding_notes(data: bytes) -> list[dict[str, Any]]:
+    """An import-log entry when a file without BOM mixes UTF-8 with another encoding.
+
+    Such a file is read as Windows-1252 (``_decode``), so its UTF-8 parts (accented names)
+    come out garbled: said at the first row that is not UTF-8.
+    """
+    if data.startswith((b"\xef\xbb\xbf", b"\xff\xfe", b"\xfe\xff")) or b"\x00" in data[:4000]:
+        return []
+    try:
+        data.decode("utf-8")
+        return []
+    except UnicodeDecodeError as err:
+        first_bad = err.start
+    if not _UTF8_MULTIBYTE.search(data):
+        return []          # plain Windows-1252 (no UTF-8 in it): read as it is
+    row = data.count(b"\n", 0, first_bad) + 1
+    return [{"row": row, "action": "changed",
+             "reason": "the file mixes encodings (UTF-8 and, from this row, another one); read "
+                       "as Windows-1252, so UTF-8 text such as accented names may be garbled; "
+                       "export the file again in one encoding"}]

@@ -7,6 +7,8 @@ import click
 
 from dha.commands.options import library_option, settings_option
 
+from dha.safety import terminal_text
+
 
 @click.command("batch")
 @click.argument("paths", nargs=-1, required=True)
@@ -73,10 +75,10 @@ def batch_command(paths, out_dir, jobs, spec, formats, recursive, engine, schedu
                f"{counts['up_to_date']} up to date, {counts['earlier']} from earlier batches, "
                f"{counts['failed']} not processed; {len(flagged)} flagged")
     for _, row in failed.iterrows():
-        click.echo(f"  not processed: {row['input']}: {row['error']}")
+        click.echo(terminal_text(f"  not processed: {row['input']}: {row['error']}"))
     for _, row in flagged.iterrows():
-        click.echo(f"  flagged: {row['input']} {row['sample_id']}: {row['flags']}")
-    click.echo(f"summary: {', '.join(str(p) for p in written[:2])}")
+        click.echo(terminal_text(f"  flagged: {row['input']} {row['sample_id']}: {row['flags']}"))
+    click.echo(terminal_text(f"summary: {', '.join(str(p) for p in written[:2])}"))
     if len(failed):
         raise SystemExit(1)
 

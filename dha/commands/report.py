@@ -10,7 +10,7 @@ import click
 
 from dha.commands.options import library_option, settings_option, out_option
 
-from dha.errors import DhaError, InputError
+from dha.errors import DhaError
 
 log = logging.getLogger("dha.commands.report")
 
@@ -68,44 +68,49 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
     """
     from dha.library import load_library
     from dha.pipeline import process_file_stems, write_outputs
+    from dha.safety import terminal_text
     from dha.settings import load_settings
+    from dha import specs
 
     settings = load_settings(settings_file)
     if formats is None:
         formats = list(settings.get("report", {}).get("formats", ["json"]))
     library = load_library(overlay=library_dir) if library_dir else load_library()
+    profile = settings.get("report", {}).get("spec", "") if spec is None else spec
+    if profile:
+        specs.load_profile(profile)   # a bad profile is the profile's error, not an input's
     failed_checks = 0
-    averaged = None
-    if average_injections or settings.get("injections", {}).get("average", False):
-        from dha.replicates import report_averaged
-        averaged = report_averaged(inputs, settings, library, spec, lambda p: [
-            (stem, r) for stem, r in process_file_stems(p, settings, library, spec)])
-        inputs = [None]
-    for path in inputs:
+    failed_inputs = 0
+    average = average_injections or settings.get("injections", {}).get("average", False)
+    todo = [None] if average else list(inputs)     # None: the injections averaged together
+    for path in todo:
         try:
             if path is None:
-                results = averaged
+                from dha.replicates import report_averaged
+                results = report_averaged(inputs, settings, library, spec, lambda p: [
+                    (stem, r) for stem, r in process_file_stems(p, settings, library, spec)])
             else:
                 with warnings_name_input(path):
                     results = process_file_stems(path, settings, library, spec)
-        except DhaError:
-            raise
-        except Exception as err:  # noqa: BLE001 - the edge: one line, never a traceback
-            log.debug("unexpected error on %s", path, exc_info=True)
-            raise InputError(f"{path}: could not be processed ({type(err).__name__}: {err}); "
-                             "run with -vv for details") from err
-        for stem, result in results:
-            try:
+            for stem, result in results:
                 written = write_outputs(result, out_dir, stem, formats, overwrite=overwrite)
-            except DhaError:
-                raise
-            except Exception as err:  # noqa: BLE001 - the edge: one line, never a traceback
-                log.debug("unexpected error writing %s", stem, exc_info=True)
-                raise InputError(f"{stem}: output could not be written ({type(err).__name__}: "
-                                 f"{err}); run with -vv for details") from err
-            failed_checks += sum(1 for c in result.get("checks", []) if c.get("verdict") == "fail")
-            shown = ", ".join(str(p) for p in written) or f"{stem}: nothing written"
-            click.echo(f"{shown}  {_headline(result)}")
+                failed_checks += sum(1 for c in result.get("checks", [])
+                                     if c.get("verdict") == "fail")
+                shown = ", ".join(str(p) for p in written) or f"{stem}: nothing written"
+                click.echo(terminal_text(f"{shown}  {_headline(result)}"))
+        except DhaError as err:
+            failed_inputs += 1
+            click.echo(terminal_text(f"dha: error: {err}"), err=True)
+        except Exception as err:  # noqa: BLE001 - the edge: one line, never a traceback
+            failed_inputs += 1
+            log.debug("unexpected error on %s", path, exc_info=True)
+            click.echo(terminal_text(
+                f"dha: error: {path}: could not be processed ({type(err).__name__}: {err}); "
+                "run with -vv for details"), err=True)
+    if failed_inputs:
+        if len(todo) > 1:
+            click.echo(f"dha: {failed_inputs} of {len(todo)} input(s) failed", err=True)
+        click.get_current_context().exit(1)
     if strict and failed_checks:
         click.echo(f"dha: {failed_checks} specification check(s) failed", err=True)
         click.get_current_context().exit(3)

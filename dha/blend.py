@@ -280,9 +280,12 @@ def recipe(samples, costs, profile: dict, library, settings: dict, min_vol_pct=N
     need = {lim["quantity"] for lim in fast}
     shift = {i: 0.0 for i in range(len(fast))}
     if guard:
-        probe = evaluate(blend_tables([s.table for s in samples], np.ones(k)), library,
-                         settings)
-        unc = probe.get("uncertainty") or {}
+        # the uncertainties where the limits bind: those of the recipe without guard bands
+        first = recipe(samples, costs, profile, library, settings, min_vol_pct, max_vol_pct,
+                       guard=False)
+        if not first["feasible"]:
+            return first
+        unc = first["result"].get("uncertainty") or {}
         for i, lim in enumerate(fast):
             u = unc.get(lim["quantity"])
             shift[i] = 2.0 * float(u) if u else 0.0
@@ -355,37 +358,55 @@ def recipe(samples, costs, profile: dict, library, settings: dict, min_vol_pct=N
         if not changed:
             break
     return {"feasible": False, "vol_pct": None, "cost_per_m3": None, "binding": [],
-            "impossible": diagnose(model, fast, lo, hi, samples, need),
+            "impossible": diagnose(model, fast, lo, hi, samples, need,
+                                   [shift[i] for i in range(len(fast))]),
             "checks": [], "result": None, "rounds": rounds}
 
 
-def diagnose(model: BlendModel, fast, lo, hi, samples, need) -> dict[str, Any]:
-    """Why no blend meets the limits: a limit no blend can meet alone, or a conflicting set."""
+def diagnose(model: BlendModel, fast, lo, hi, samples, need, shifts=None) -> dict[str, Any]:
+    """Why no blend meets the limits: a limit no blend can meet alone, or a conflicting set.
+
+    ``shifts``: per limit, the margin the search required inside it (guard band, or the
+    tightening after a full check); a shifted limit is named with its margin."""
+    shifts = list(shifts) if shifts is not None else [0.0] * len(fast)
+
+    def label(i, lim):
+        m = shifts[i]
+        return f"{lim['quantity']} {lim['kind']} {lim['value']:g}" + (
+            f" (with a margin of {m:.3g})" if m > 1e-9 else "")
+
+    def slack_i(vals, i, lim):
+        return _slack(vals, lim, shifts[i])
+
     k = len(lo)
     bounds = list(zip(lo, hi))
     eq = [{"type": "eq", "fun": lambda p: p.sum() - 1.0}]
     starts = [np.clip(np.full(k, 1.0 / k), lo, hi)] + [np.clip(np.eye(k)[j] * 0.9 + 0.1 / k,
                                                                lo, hi) for j in range(k)]
     alone = []
-    for lim in fast:
+    for i, lim in enumerate(fast):
         one = {lim["quantity"]}
-        tried = [(_slack_or(model.values(x0 / x0.sum(), one), lim), x0 / x0.sum())
-                 for x0 in starts]
+
+        def own(vals, i=i, lim=lim):
+            v = slack_i(vals, i, lim)
+            return -1e3 if v is None else v
+
+        tried = [(own(model.values(x0 / x0.sum(), one)), x0 / x0.sum()) for x0 in starts]
         if max(t[0] for t in tried) >= 0:
             continue
         best_s, best_p = max(tried, key=lambda t: t[0])
         for x0 in starts[:2]:
-            res = minimize(lambda p: -_slack_or(model.values(p, one), lim), x0 / x0.sum(),
+            res = minimize(lambda p: -own(model.values(p, one)), x0 / x0.sum(),
                            method="SLSQP", bounds=bounds, constraints=eq,
                            options={"maxiter": 60})
             p = np.clip(res.x, lo, hi)
             p = p / p.sum()
-            s = _slack(model.values(p, one), lim)
-            if s is not None and s > best_s:
-                best_s, best_p = s, p
+            sv = own(model.values(p, one))
+            if sv > best_s:
+                best_s, best_p = sv, p
         if best_s < 0:
             best_val = model.values(best_p, need).get(lim["quantity"])
-            alone.append({"limit": f"{lim['quantity']} {lim['kind']} {lim['value']:g}",
+            alone.append({"limit": label(i, lim),
                           "best_value": best_val,
                           "at_vol_pct": {s.label: 100.0 * float(x)
                                          for s, x in zip(samples, best_p)}})
@@ -395,7 +416,8 @@ def diagnose(model: BlendModel, fast, lo, hi, samples, need) -> dict[str, Any]:
 
     def violation(p):
         vals = model.values(p, need)
-        return sum(min(0.0, (_slack(vals, lim) or 0.0) / _scale(lim)) ** 2 for lim in fast)
+        return sum(min(0.0, (slack_i(vals, i, lim) or 0.0) / _scale(lim)) ** 2
+                   for i, lim in enumerate(fast))
 
     res = min((minimize(violation, x0 / x0.sum(), method="SLSQP", bounds=bounds,
                         constraints=eq, options={"maxiter": 80}) for x0 in starts),
@@ -403,8 +425,11 @@ def diagnose(model: BlendModel, fast, lo, hi, samples, need) -> dict[str, Any]:
     p = np.clip(res.x, lo, hi)
     p = p / p.sum()
     vals = model.values(p, need)
-    broken = [f"{lim['quantity']} {lim['kind']} {lim['value']:g} (at best {vals.get(lim['quantity']):.4g})"
-              for lim in fast if (_slack(vals, lim) or 0.0) < 0]
+    broken = [f"{label(i, lim)} (at best {vals.get(lim['quantity']):.4g})"
+              for i, lim in enumerate(fast) if (slack_i(vals, i, lim) or 0.0) < -1e-4 * _scale(lim)]
+    if not broken:
+        broken = ["none found violated at the closest point; the search did not converge "
+                  "(try bounds on the shares)"]
     return {"reason": "each limit can be met alone, but not together: " + "; ".join(broken),
             "limits": broken,
             "closest_vol_pct": {s.label: 100.0 * float(x) for s, x in zip(samples, p)}}

@@ -270,8 +270,7 @@ def explain(composition: pd.DataFrame, library, settings: dict,
             log.warning("octane contributions: model gives %s %.4f, result says %.4f; the "
                         "difference is spread by volume", p.upper(), on[p], target)
     comps = library.components
-    smiles = comp["model_component"].map(
-        lambda n: comps.at[n, "smiles"] if isinstance(n, str) and n in comps.index else None)
+    smiles = comp["model_component"].map(comps["smiles"])
     frame = pd.DataFrame({
         "name": comp["name"].astype(str),
         "group": comp["group"].astype(str),

@@ -710,7 +710,8 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
     and carbon number (:func:`stand_in_component`). Every such row is in the import log and
     one warning; ``mass_balance`` gives the shares in the library, split and not in the library.
     """
-    from dha.unknown_components import guess_from_formula, guess_from_name, looks_like_cas
+    from dha.unknown_components import (guess_from_formula, guess_from_name, guess_from_smiles,
+                                        looks_like_cas)
 
     where = source or "composition table"
     if basis not in BASES:
@@ -774,6 +775,8 @@ def quantify_composition(table: pd.DataFrame, basis: str, library, settings: dic
             continue
         formula = _clean(rec.get("formula")) if has_formula else None
         guess = guess_from_name(text)
+        if guess.carbon_number is None:
+            guess = guess_from_smiles(text)
         if formula is not None:
             fg = guess_from_formula(formula)
             guess = type(guess)(fg.carbon_number or guess.carbon_number,

@@ -7,6 +7,7 @@ what it can from the text:
 - :func:`guess_from_name`: a systematic name of an alkane, alkene, cycloalkane, alkylbenzene
   (also toluene, xylene, indane, indene, naphthalene parents), alcohol or ether, also inverted
   index names (``"Benzene, 1-butyl-2-methyl-"``);
+- :func:`guess_from_smiles`: a SMILES given in place of a name (literature data sets);
 - :func:`guess_from_formula`: a Hill formula (``C11H24``; oxygen makes an oxygenate, CnH2n+2 a
   paraffin, CnH2n-6 and below with n >= 6 an aromatic; CnH2n alone stays unknown: olefin or
   naphthene);
@@ -170,6 +171,42 @@ def guess_from_formula(formula: Any) -> Guess:
     if c >= 6 and h <= 2 * c - 6:
         return Guess(c, "aromatics", "formula")
     return Guess(c, None, "formula")
+
+
+_SMILES_RE = re.compile(r"^[CcOo0-9=#()\[\]@+\-/\\%.H]+$")
+
+
+def guess_from_smiles(text: Any) -> Guess:
+    """Carbon number and group from a SMILES written where a name was expected (C/H/O only).
+
+    Carbons: ``C`` (not ``Cl``) and aromatic ``c``; oxygen makes an oxygenate, an aromatic
+    atom an aromatic, a double bond an olefin, a ring digit a naphthene, a branch ``(`` an
+    isoparaffin, else an n-paraffin (SMILES grammar, OpenSMILES specification).
+
+    >>> guess_from_smiles("CCC(C)CC(CC)CC")
+    Guess(carbon_number=10, group='isoparaffins', how='SMILES')
+    >>> guess_from_smiles("CCc1c(C)c(C)cc(C)c1C").group
+    'aromatics'
+    """
+    s = str(text or "").strip()
+    outside = re.sub(r"\[[^\]]*\]", "", s)
+    if not s or not _SMILES_RE.match(s) or re.search(r"[^CcOo0-9=#()\[\]@+\-/\\%.H]", s) \
+            or "H" in outside or not re.search(r"[Cc]", s):
+        return Guess(None, None, "")
+    carbons = len(re.findall(r"C(?!l)|c", s))
+    if re.search(r"[Oo]", s):
+        group = "oxygenates"
+    elif "c" in s:
+        group = "aromatics"
+    elif "=" in s or "#" in s:
+        group = "olefins"
+    elif re.search(r"[A-Za-z\]]\d", s):
+        group = "naphthenes"
+    elif "(" in s:
+        group = "isoparaffins"
+    else:
+        group = "n_paraffins"
+    return Guess(carbons, group, "SMILES")
 
 
 def _cas_ok(digits: str) -> bool:

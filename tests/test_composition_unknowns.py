@@ -234,3 +234,21 @@ def test_formula_and_cas_columns_of_a_composition_file(lib, tmp_path):
     assert unk["molar_mass_g_mol"] == pytest.approx(156.313, abs=1e-3)
     assert t.loc["cis-1,3-dimethylcyclohexane", "mol_pct"] == pytest.approx(5.0)
     assert any("108-88-3 is toluene" in e["reason"] for e in q.import_log)
+
+
+def test_smiles_in_place_of_a_name_against_rdkit(fuels):
+    # some rows of the data give only a SMILES; RDKit counts the carbons and finds the class
+    from rdkit import Chem
+
+    from dha.unknown_components import guess_from_smiles
+    for smi in fuels["component"].dropna().unique():
+        mol = Chem.MolFromSmiles(smi)
+        guess = guess_from_smiles(smi)
+        assert guess.carbon_number == sum(a.GetSymbol() == "C" for a in mol.GetAtoms()), smi
+        if any(a.GetSymbol() == "O" for a in mol.GetAtoms()):
+            assert guess.group == "oxygenates", smi
+        elif any(a.GetIsAromatic() for a in mol.GetAtoms()):
+            assert guess.group == "aromatics", smi
+    # names and formulas are not SMILES
+    for text in ("toluene", "C11H24", "591-21-9", "unknown 7"):
+        assert guess_from_smiles(text).carbon_number is None

@@ -677,8 +677,8 @@ def _flagged_columns(flags: str) -> dict[str, str]:
 
 def summary_workbook(table, profile: dict | None, counts: dict | None = None):
     """The people's summary (openpyxl Workbook): headers in words with units, rounded numbers,
-    failed checks red and marginal ones amber, filters and a frozen header; sheets "runs",
-    "flagged runs" and "about" (specification named, counts, what the marks mean)."""
+    failed checks red and marginal ones amber, filters and a frozen header; sheets "runs" and
+    "about" (specification named, counts, what the marks mean)."""
     import math
 
     from openpyxl import Workbook
@@ -694,8 +694,7 @@ def summary_workbook(table, profile: dict | None, counts: dict | None = None):
     wb = Workbook()
     ws_runs = wb.active
     ws_runs.title = "runs"
-    ws_flag = wb.create_sheet("flagged runs")
-    for ws in (ws_runs, ws_flag):
+    for ws in (ws_runs,):
         ws.append([h for _, h, _ in SUMMARY_HEADERS])
         for cell in ws[1]:
             cell.font = bold
@@ -706,6 +705,11 @@ def summary_workbook(table, profile: dict | None, counts: dict | None = None):
             width = 30 if col in ("input", "flags", "output", "error") else 13
             ws.column_dimensions[ws.cell(1, i).column_letter].width = width
     formats = {d: "0" if d == 0 else "0." + "0" * d for d in (0, 1, 2)}
+    next_row = {id(ws_runs): 2}     # ws.max_row scans every row: count here
+    status_col = cols.index("status") + 1
+    numeric = [(i, formats[d]) for i, (_, _, d) in enumerate(SUMMARY_HEADERS, start=1)
+               if d is not None]
+    where = {col: i for i, (col, _, _) in enumerate(SUMMARY_HEADERS, start=1)}
     for rec in records:
         values = []
         for col, _, decimals in SUMMARY_HEADERS:
@@ -714,23 +718,22 @@ def summary_workbook(table, profile: dict | None, counts: dict | None = None):
                 v = round(float(v), decimals) if decimals else int(round(v))
             values.append(v)
         marks = _flagged_columns(rec.get("flags"))
-        targets = [ws_runs] + ([ws_flag] if rec.get("flags") else [])
-        for ws in targets:
+        for ws in (ws_runs,):
             ws.append(values)
-            r = ws.max_row
-            for i, (col, _, decimals) in enumerate(SUMMARY_HEADERS, start=1):
-                cell = ws.cell(r, i)
-                if decimals is not None:
-                    cell.number_format = formats[decimals]
-                if col in marks:
-                    cell.fill = fills[marks[col]]
-            status = ws.cell(r, cols.index("status") + 1)
+            r = next_row[id(ws)]
+            next_row[id(ws)] = r + 1
+            for i, fmt in numeric:
+                if values[i - 1] is not None:
+                    ws.cell(r, i).number_format = fmt
+            for col, kind in marks.items():
+                if col in where:
+                    ws.cell(r, where[col]).fill = fills[kind]
+            status = ws.cell(r, status_col)
             if rec.get("status") == FAILS or rec.get("status") == NOT_PROCESSED:
                 status.fill = fills["fail"]
             elif rec.get("checks_marginal"):
                 status.fill = fills["marginal"]
-    for ws in (ws_runs, ws_flag):
-        ws.auto_filter.ref = ws.dimensions
+    ws_runs.auto_filter.ref = ws_runs.dimensions
     about = wb.create_sheet("about")
     spec_names = sorted({str(x) for x in table["spec"].dropna().unique()}) if "spec" in table else []
     counts = counts or {}
@@ -745,6 +748,8 @@ def summary_workbook(table, profile: dict | None, counts: dict | None = None):
         ("Red cell", "a specification check failed (value beyond the limit by more than "
                      "its uncertainty); red status: fails the specification or not processed"),
         ("Amber cell", "marginal: the limit lies within the value's uncertainty"),
+        ("Flagged runs", "filter the flags column of the runs sheet (non-blank); a flag names "
+                         "the property and the limit, ~ marks a marginal check"),
         ("Calculated values", "RON, MON, DVPE, density and evaporated volumes are estimates "
                               "from the composition, not results of the standard test methods"),
         ("Safety", "petrol is highly flammable; benzene is a human carcinogen"),
@@ -807,13 +812,15 @@ def draw_trend(times, values, limits: list[dict], title: str, ylabel: str, path:
     by_time = bool(times.notna().all()) and len(times) > 0
     x = times.to_numpy() if by_time else np.arange(1, len(values) + 1)
     fig, ax = plt.subplots(figsize=(8, 3.6))
-    ax.plot(x, values, marker="o", ms=3 if len(values) > 50 else 5, lw=1.0, color="#1f5f8b")
+    many = len(values) > 200          # markers on every point cost more than they show
+    ax.plot(x, values, marker="" if many else "o", ms=5, lw=0.8 if many else 1.0,
+            color="#1f5f8b")
     outside = np.zeros(len(values), dtype=bool)
     for lim in limits:
         outside |= (values < lim["value"]) if lim["kind"] == "min" else (values > lim["value"])
     if outside.any():
-        ax.plot(x[outside], values[outside], ls="none", marker="o", ms=8, mfc="none",
-                mec="#b03a2e", mew=1.4, label="beyond a limit")
+        ax.plot(x[outside], values[outside], ls="none", marker="o", ms=4 if many else 8,
+                mfc="none", mec="#b03a2e", mew=1.0 if many else 1.4, label="beyond a limit")
         ax.legend(loc="upper left", fontsize=7, frameon=False)
     finite = values[np.isfinite(values)]
     span = [*finite, *(lim["value"] for lim in limits)]

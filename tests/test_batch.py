@@ -89,8 +89,8 @@ def test_batch_cli_writes_summary_and_keeps_going(tmp_path):
     assert (out / "summary.xlsx").is_file()
     assert (out / "v01_comma_meta_total.json").is_file()
     assert any(p.name.startswith("trend_") for p in out.iterdir())
-    flagged = pd.read_excel(out / "summary.xlsx", sheet_name="flagged runs")
-    assert set(flagged["input file (path below the input root)"]) <= {GOOD.name, COMP.name}
+    runs = pd.read_excel(out / "summary.xlsx", sheet_name="runs")
+    assert list(runs["input file (path below the input root)"]) == ["broken.csv", GOOD.name, COMP.name]
     assert "specification en228-e10-summer" in r.output      # named on screen
 
 
@@ -121,7 +121,7 @@ def test_summary_workbook_for_people(tmp_path):
     assert ws.cell(3, col["benzene, % by volume"]).fill.fgColor.rgb in (None, "00000000")
     statuses = [ws.cell(r, col["status"]).value for r in (2, 3, 4)]
     assert statuses == ["processed, fails spec", "processed, passes", "not processed"]
-    assert wb["flagged runs"].max_row == 2
+    assert wb["runs"].max_row == 4
     about = {r[0].value: r[1].value for r in wb["about"].iter_rows()}
     assert about["Specification applied"] == "en228-e10-summer"
     path = tmp_path / "s.xlsx"

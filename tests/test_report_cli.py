@@ -103,8 +103,8 @@ def test_warnings_on_stderr_name_their_input(caplog):
     import logging
 
     from dha.commands.report import warnings_name_input
-    log = logging.getLogger("dha.test")
-    logging.getLogger("dha").setLevel(logging.NOTSET)   # a batch test may have quietened "dha"
+    # a logger outside "dha": other tests in the same process may quieten the "dha" loggers
+    log = logging.getLogger("test_report_cli.input_names")
     with caplog.at_level(logging.WARNING):
         with warnings_name_input("/lab/runs/tank-14 50%.csv"):
             log.warning("peak %d looks odd", 3)

@@ -627,7 +627,11 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             share = 100.0 * size[todo[got]] / max(size.sum(), 1e-300)
             expect = _prior_mass_pct(library, s, lib_names[pool[assign[got]]])
             chosen_names = lib_names[pool[assign[got]]]
+            # an expected oxygenate may be large (blended in), an ether at most EN 228's
+            # 22 % v/v (E10 grade; taken on the area share here)
             blended = np.isin(chosen_names, list(expected_oxygenates(library, s)))
+            sub = library.components["subgroup"].reindex(chosen_names).astype(str).to_numpy()
+            blended &= (sub != "ether") | (share <= EN228_MAX_ETHERS_PCT)
             odd = (share > LARGE_PEAK_PCT) & (share > RARE_FACTOR * expect) & ~blended
             if odd.any():
                 rows_odd = todo[got][odd]
@@ -705,6 +709,9 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
 #: practice, no source).
 LARGE_PEAK_PCT = 5.0
 RARE_FACTOR = 20.0
+#: EN 228:2012+A1:2017 E10-grade limit on ethers with 5 or more carbon atoms [% v/v] (from
+#: memory; the same as Directive 2009/30/EC Annex I).
+EN228_MAX_ETHERS_PCT = 22.0
 
 
 def _prior_mass_pct(library: Any, s: dict[str, Any], names: np.ndarray) -> np.ndarray:

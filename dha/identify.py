@@ -757,14 +757,17 @@ def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarra
     ex = np.exp(score - top[rep])
     total = np.bincount(rep, weights=ex, minlength=len(ok)) + np.exp(-top)
     chosen = assign[ok]
-    own = np.zeros(len(ok))
-    best_other = np.full(len(ok), -np.inf)
+    is_own = js == chosen[rep]
+    own = np.bincount(rep, weights=np.where(is_own, ex, 0.0), minlength=len(ok))
+    # runner-up: the best-scoring other entry of each peak's window
+    sc_other = np.where(is_own, -np.inf, score)
+    order = np.lexsort((-sc_other, rep))                 # by peak, best first
+    first = np.ones(len(order), dtype=bool)
+    first[1:] = rep[order][1:] != rep[order][:-1]
     other = np.full(len(ok), -1, dtype=int)
-    for k, (i, j, sc) in enumerate(zip(rep, js, score)):
-        if j == chosen[i]:
-            own[i] = np.exp(sc - top[i])
-        elif sc > best_other[i]:
-            best_other[i], other[i] = sc, j
+    pick = order[first]
+    good = np.isfinite(sc_other[pick])
+    other[rep[pick][good]] = js[pick][good]
     conf[ok] = np.clip(own / total, 0.0, 1.0)
     rival[ok] = other
     return conf, rival

@@ -12,7 +12,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 SKIP_DIRS = {".git", ".venv", "out", "build", "dist", "__pycache__", ".pytest_cache"}
 # built from pieces so that this file does not match itself
-SIBLING = re.compile(r"\.\./" + "shared" + r"|(?<![\w-])" + "shared" + r"/data/")
+SIBLING = re.compile(r"\.\./" + "sh" + "ared" + r"|(?<![\w-])" + "sh" + "ared" + r"/data/")
 ABSOLUTE = re.compile(r"(?<![\w./~-])/(?:" + "|".join(["work", "tmp", "home", "root"]) + r")/")
 
 
@@ -36,8 +36,8 @@ def _offending_lines(text: str) -> list[str]:
 
 def test_patterns_catch_outside_paths():
     # the check itself must be able to fail
-    for bad in ["see ../" + "shared/DOMAIN.md", "open('/" + "work/x.csv')", "/" + "tmp/run.csv",
-                "C = '/" + "home/lab/x'", "/" + "root/y", "shared" + "/data/facts.md"]:
+    for bad in ["see ../" + "sh" + "ared/DOMAIN.md", "open('/" + "work/x.csv')", "/" + "tmp/run.csv",
+                "C = '/" + "home/lab/x'", "/" + "root/y", "sh" + "ared" + "/data/facts.md"]:
         assert _offending_lines(bad), bad
     for fine in ["tests/data/octane/pure_components.csv", "options shared by commands",
                  "tmp_path / 'run.csv'", "dha/report/pdf.py"]:

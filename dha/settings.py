@@ -122,18 +122,25 @@ def load_settings(path: str | Path | None = None) -> dict[str, Any]:
     if path is None:
         return settings
     path = Path(path)
+    if not path.exists():
+        raise SettingsError(f"{path}: settings file not found")
+    changes = read_toml(path, "settings file", SettingsError, "settings file")
+    return merge_settings(settings, changes, where=f"settings file {path}")
+
+
+def read_toml(path: Path, what: str, error: type[Exception], kind_hint: str) -> dict[str, Any]:
+    """The TOML file at ``path`` as a dict; any failure is ``error`` in one line.
+
+    ``what`` names the file in the message ("settings file"), ``kind_hint`` says what to give
+    instead when the file is not text ("settings file" -> "give a .toml settings file").
+    """
     try:
         with path.open("rb") as fh:
-            changes = tomllib.load(fh)
-    except FileNotFoundError:
-        raise SettingsError(f"{path}: settings file not found") from None
+            return tomllib.load(fh)
     except tomllib.TOMLDecodeError as err:
-        raise SettingsError(f"settings file {path}: not valid TOML ({err}); fix the "
-                            "file") from None
+        raise error(f"{what} {path}: not valid TOML ({err}); fix the file") from None
     except UnicodeDecodeError:
-        raise SettingsError(f"settings file {path}: not a text (TOML) file; give a .toml "
-                            "settings file") from None
+        raise error(f"{what} {path}: not a text (TOML) file; give a .toml {kind_hint}") from None
     except OSError as err:
-        raise SettingsError(f"settings file {path}: cannot be read ({err.strerror or err}); "
-                            "check the path") from None
-    return merge_settings(settings, changes, where=f"settings file {path}")
+        raise error(f"{what} {path}: cannot be read ({err.strerror or err}); check the path "
+                    "and its permissions") from None

@@ -25,7 +25,6 @@ pass/fail, which the check records as ``"uncertainty": null``.
 from __future__ import annotations
 
 import math
-import tomllib
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
@@ -72,18 +71,9 @@ def list_profiles() -> list[tuple[str, str]]:
 
 @lru_cache(maxsize=None)
 def _read_profile(path: Path) -> dict[str, Any]:
-    try:
-        with path.open("rb") as fh:
-            data = tomllib.load(fh)
-    except tomllib.TOMLDecodeError as err:
-        raise SpecError(f"specification profile {path}: not valid TOML ({err}); fix the "
-                        "file") from None
-    except UnicodeDecodeError:
-        raise SpecError(f"specification profile {path}: not a text (TOML) file; give a .toml "
-                        "profile, see dha/spec_profiles/README.md") from None
-    except OSError as err:
-        raise SpecError(f"specification profile {path}: cannot be read ({err.strerror}); "
-                        "check the path and its permissions") from None
+    from dha.settings import read_toml
+    data = read_toml(path, "specification profile", SpecError,
+                     "profile, see dha/spec_profiles/README.md")
     limits = data.get("limit")
     if not isinstance(limits, list) or not limits or not all(isinstance(x, dict) for x in limits):
         raise SpecError(f"specification profile {path.name}: key 'limit' must be [[limit]] "

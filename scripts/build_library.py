@@ -993,7 +993,7 @@ OCTANE_NAME_FIXES = {("KUZ2022_MON", "isoprenol"): ("763-32-6", "CC(=C)CCO")}
 #: - prenol and isoprenol: RON 94.3 ("Southwest Research Institute, NREL") and 97.2 ("NREL,
 #:   September 2012") from COOPTIMA_PURE; isoprenol MON 83.3 from KUZ2022_MON by name (above).
 #: Values above 100 stored as "100 + mL TEL" ratings are flagged in the source and never used
-#: (choose_octane skips them); the conversion is in the shared data's PROVENANCE (ASTM D2699 annex).
+#: (choose_octane skips them); the TEL-rating conversion is in the ASTM D2699 annex (from memory).
 OCTANE_DECIDED = {
     "111-65-9": {"ron": ("COOPTIMA_PURE", -18.0), "mon": None},
     "111-84-2": {"ron": ("COOPTIMA_PURE", -34.0), "mon": None},

@@ -39,7 +39,6 @@ reported as ``residual``.
 """
 from __future__ import annotations
 
-import inspect
 import logging
 from typing import Any
 
@@ -99,39 +98,19 @@ def _warn_once(message: str) -> None:
         log.warning(message)
 
 
-def _call(fn, *args, **kwargs):
-    """``fn(*args, **kwargs)`` without the keyword arguments ``fn`` does not take."""
-    params = inspect.signature(fn).parameters
-    if not any(p.kind is p.VAR_KEYWORD for p in params.values()):
-        kwargs = {k: v for k, v in kwargs.items() if k in params}
-    return fn(*args, **kwargs)
-
-
 def _batched(inputs: pd.DataFrame, x: np.ndarray, model: str, params) -> dict[str, np.ndarray]:
-    """The octane module's own vectorised blend functions on every row of ``x`` at once, with
-    the same dispatch as ``predict_inputs`` (checked against it by the caller)."""
-    vm = inputs["molar_volume_cm3_mol"].to_numpy(float)
-    classes = list(inputs["class"])
-    cats = list(inputs["structure"]) if "structure" in inputs else None
-    out = {}
-    for p in PROPS:
-        mp = octane.model_params(model, p, params)
-        if mp.get("mode") == "mon_plus_sensitivity":
-            val = _call(octane.blend_ron, x, inputs["ron"].to_numpy(float),
-                        inputs["mon"].to_numpy(float), vm, classes, mp, categories=cats)
-        else:
-            val = _call(octane.blend, x, inputs[p].to_numpy(float), vm, classes, model, mp,
-                        categories=cats)
-        out[p] = np.asarray(val, dtype=float).reshape(-1)
-    return out
+    """The octane module's own vectorised prediction (``octane.predict_many``) on every row of
+    ``x`` at once (checked against ``predict_inputs`` by the caller)."""
+    out = octane.predict_many(inputs, x, model, params)
+    return {p: np.asarray(out[p], dtype=float).reshape(-1) for p in PROPS}
 
 
 def predict_matrix(inputs: pd.DataFrame, x: np.ndarray, settings: dict) -> dict[str, np.ndarray]:
     """Octane numbers for many volume-fraction vectors (rows of ``x``) of the same components.
 
-    Uses ``octane.predict_inputs`` (the model interface); when the model module has a vectorised
-    ``blend`` that reproduces ``predict_inputs`` on the first row, it is used for all rows at
-    once. A lab calibration from the settings is applied to every row.
+    Uses ``octane.predict_many`` (all rows in one vectorised call) when it reproduces
+    ``octane.predict_inputs`` (the model interface) on the first row, else ``predict_inputs``
+    row by row. A lab calibration from the settings is applied to every row.
     """
     x = np.atleast_2d(np.asarray(x, dtype=float))
     model = _model_name(settings)

@@ -22,6 +22,7 @@ from click.testing import CliRunner
 
 import dha
 from dha.cli import cli
+from dha.fuel_data import write_composition_tables
 
 DATA = Path(dha.__file__).parent / "properties" / "octane_data" / "gasolines_mon_training.csv"
 
@@ -30,13 +31,7 @@ def main() -> int:
     fuels = pd.read_csv(DATA)
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
-        paths = []
-        for mid, g in fuels.groupby("mixture_id"):
-            comp = g["component_cas"].where(g["component_cas"].notna(), g["component"])
-            path = folder / f"{mid}.csv"
-            pd.DataFrame({"component": comp, "mol_pct": 100 * g["fraction"]}).to_csv(path,
-                                                                                    index=False)
-            paths.append(path)
+        paths = write_composition_tables(folder, fuels)
         t0 = time.perf_counter()
         r = CliRunner().invoke(cli, ["report", *map(str, paths), "-o", str(folder / "out"),
                                      "--format", "json", "--spec", ""])

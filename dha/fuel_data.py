@@ -42,6 +42,21 @@ def _raw() -> pd.DataFrame:
     return pd.read_csv(DATA_FILE, dtype={"component_cas": str})
 
 
+def write_composition_tables(folder: Path, fuels: pd.DataFrame | None = None) -> list[Path]:
+    """Write one composition table per fuel into ``folder`` (``<mixture_id>.csv``): column
+    ``component`` (CAS number, the data's SMILES where it gives none) and ``mol_pct``, as a LIMS
+    would send it. ``fuels`` defaults to the shipped data table. Returns the paths written."""
+    fuels = _raw() if fuels is None else fuels
+    paths = []
+    for mid, g in fuels.groupby("mixture_id"):
+        comp = g["component_cas"].where(g["component_cas"].notna(), g["component"])
+        path = Path(folder) / f"{mid}.csv"
+        pd.DataFrame({"component": comp, "mol_pct": 100.0 * g["fraction"]}).to_csv(path,
+                                                                                  index=False)
+        paths.append(path)
+    return paths
+
+
 def real_fuels(library: Any) -> pd.DataFrame:
     """The 40 fuels' compositions on the library, one row per (fuel, component).
 

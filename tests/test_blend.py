@@ -19,7 +19,6 @@ from click.testing import CliRunner
 from dha import blend, specs
 from dha.cli import cli
 from dha.levers import load_samples
-from dha.library import load_library
 from dha.pipeline import process_file, write_outputs
 from dha.settings import load_settings
 
@@ -43,16 +42,6 @@ def _write(folder: Path, name: str, comp: dict) -> Path:
     pd.DataFrame({"component": list(comp), "vol_pct": list(comp.values())}).to_csv(
         path, index=False)
     return path
-
-
-@pytest.fixture(scope="module")
-def library():
-    return load_library()
-
-
-@pytest.fixture(scope="module")
-def settings():
-    return load_settings()
 
 
 @pytest.fixture(scope="module")

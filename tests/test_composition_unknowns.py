@@ -19,6 +19,7 @@ from click.testing import CliRunner
 
 import dha
 from dha.cli import cli
+from dha.fuel_data import write_composition_tables
 from dha.identify import identify, match_stereo
 from dha.library import check_library, load_library
 from dha.quantify import quantify_composition
@@ -38,18 +39,6 @@ def fuels():
     return pd.read_csv(FUELS)
 
 
-def _write_fuel_tables(fuels: pd.DataFrame, folder: Path) -> list[Path]:
-    """One composition table per fuel: CAS number (the SMILES where the data give none), mol %."""
-    paths = []
-    for mid, g in fuels.groupby("mixture_id"):
-        comp = g["component_cas"].where(g["component_cas"].notna(), g["component"])
-        path = folder / f"{mid}.csv"
-        pd.DataFrame({"component": comp, "mol_pct": 100.0 * g["fraction"]}).to_csv(path,
-                                                                                  index=False)
-        paths.append(path)
-    return paths
-
-
 #: one fuel per kind (alkylate, aromatic certification fuel, research gasolines neat and with
 #: ethanol, blendstock neat, with prenol, with ethanol and prenol, with isoprenol); all 40
 #: go through ``dha report`` in benchmarks/real_fuels_composition.py
@@ -60,7 +49,7 @@ SAMPLE = ("KUZ-0367", "KUZ-0668", "KUZ-0628", "KUZ-0376", "KUZ-0689", "KUZ-0380"
 def test_forty_real_fuels_by_cas_all_quantified(fuels, lib, tmp_path):
     # Kuzhagaliyeva et al. 2022: every one of the 40 fuels as a composition table by CAS number
     from dha.reader import read_input
-    paths = _write_fuel_tables(fuels, tmp_path)
+    paths = write_composition_tables(tmp_path, fuels)
     assert len(paths) == 40
     s = default_settings()
     for path in paths:
@@ -76,7 +65,7 @@ def test_forty_real_fuels_by_cas_all_quantified(fuels, lib, tmp_path):
 
 
 def test_real_fuels_through_dha_report_exit_0(fuels, tmp_path):
-    paths = [p for p in _write_fuel_tables(fuels, tmp_path) if p.stem in SAMPLE]
+    paths = [p for p in write_composition_tables(tmp_path, fuels) if p.stem in SAMPLE]
     out = tmp_path / "out"
     r = CliRunner().invoke(cli, ["report", *map(str, paths), "-o", str(out), "--format", "json",
                                  "--spec", ""])

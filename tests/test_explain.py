@@ -15,16 +15,10 @@ import pandas as pd
 import pytest
 
 from dha import explain
-from dha.library import load_library
 from dha.pipeline import process_file
 from dha.settings import load_settings
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "dha" / "example_runs"  # shipped with the package
-
-
-@pytest.fixture(scope="module")
-def library():
-    return load_library()
 
 
 @pytest.fixture(scope="module")

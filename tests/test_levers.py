@@ -11,9 +11,7 @@ import pandas as pd
 import pytest
 
 from dha import levers, specs
-from dha.library import load_library
 from dha.quantify import quantify_composition
-from dha.settings import load_settings
 
 R = 8.314462618  # J/mol/K, CODATA 2018
 T150 = 423.15
@@ -23,16 +21,6 @@ BASE = {"n-butane": 3.0, "2-methylbutane": 8.0, "n-pentane": 8.0, "n-hexane": 7.
         "n-heptane": 6.0, "methylcyclohexane": 4.0, "toluene": 15.0,
         "2,2,4-trimethylpentane": 16.0, "1,2-dimethylbenzene": 8.0, "n-octane": 3.0,
         "n-decane": 3.0, "1-hexene": 6.0}
-
-
-@pytest.fixture(scope="module")
-def library():
-    return load_library()
-
-
-@pytest.fixture(scope="module")
-def settings():
-    return load_settings()
 
 
 @pytest.fixture(scope="module")

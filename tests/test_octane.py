@@ -16,16 +16,10 @@ from click.testing import CliRunner
 
 from dha.cli import cli
 from dha.errors import CalibrationError, SettingsError
-from dha.library import load_library
 from dha.properties import MODELS
 from dha.properties import octane as oc
 from dha.properties import octane_fit as of
 from dha.settings import load_settings
-
-
-@pytest.fixture(scope="module")
-def library():
-    return load_library()
 
 
 @pytest.fixture(scope="module")

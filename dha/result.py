@@ -32,12 +32,28 @@ COMPONENT_KEYS = ("name", "cas", "group", "carbon_number", "rt_min", "retention_
 COMPONENT_EXTRAS = ("rrf", "model_component")
 
 
+_INF = float("inf")
+
+
 def jsonable(value: Any) -> Any:
     """A JSON-safe copy: rounded floats, NaN -> None, numpy/pandas/dates -> plain types.
 
     >>> jsonable({"a": float("nan"), "b": np.float64(1/3), "c": [np.int64(2)]})
     {'a': None, 'b': 0.333333333, 'c': [2]}
     """
+    # the plain types of an already built result first (exact type tests are the cheap ones):
+    # a 500-peak result has about 80,000 values
+    kind = type(value)
+    if kind is str or kind is int or kind is bool or value is None:
+        return value
+    if kind is float:
+        if value != value or value in (_INF, -_INF):
+            return None
+        return float(f"{value:.{FLOAT_DIGITS}g}") if value != 0.0 else 0.0
+    if kind is dict:
+        return {k if type(k) is str else str(k): jsonable(v) for k, v in value.items()}
+    if kind is list:
+        return [jsonable(v) for v in value]
     if value is None or isinstance(value, (bool, str)):
         return value
     if isinstance(value, (np.bool_,)):

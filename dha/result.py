@@ -32,7 +32,10 @@ COMPONENT_KEYS = ("name", "cas", "group", "carbon_number", "rt_min", "retention_
 COMPONENT_EXTRAS = ("rrf", "model_component")
 
 
-_INF = float("inf")
+def _round_float(x: float) -> float | None:
+    if x != x or x in (math.inf, -math.inf):
+        return None
+    return float(f"{x:.{FLOAT_DIGITS}g}") if x != 0.0 else 0.0
 
 
 def jsonable(value: Any) -> Any:
@@ -41,19 +44,21 @@ def jsonable(value: Any) -> Any:
     >>> jsonable({"a": float("nan"), "b": np.float64(1/3), "c": [np.int64(2)]})
     {'a': None, 'b': 0.333333333, 'c': [2]}
     """
-    # the plain types of an already built result first (exact type tests are the cheap ones):
-    # a 500-peak result has about 80,000 values
+    # fast paths for the plain Python types a result is mostly made of (same output as the
+    # general branches below, which handle subclasses, numpy and pandas values)
     kind = type(value)
-    if kind is str or kind is int or kind is bool or value is None:
-        return value
     if kind is float:
-        if value != value or value in (_INF, -_INF):
-            return None
-        return float(f"{value:.{FLOAT_DIGITS}g}") if value != 0.0 else 0.0
+        return _round_float(value)
+    if kind is str or value is None or kind is bool or kind is int:
+        return value
     if kind is dict:
-        return {k if type(k) is str else str(k): jsonable(v) for k, v in value.items()}
+        return {(k if type(k) is str else str(k)): jsonable(v) for k, v in value.items()}
     if kind is list:
         return [jsonable(v) for v in value]
+    return _jsonable_other(value)
+
+
+def _jsonable_other(value: Any) -> Any:
     if value is None or isinstance(value, (bool, str)):
         return value
     if isinstance(value, (np.bool_,)):

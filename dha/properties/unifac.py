@@ -19,6 +19,7 @@ import logging
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
+from typing import Callable
 
 import numpy as np
 import pandas as pd
@@ -144,6 +145,12 @@ class UnifacModel:
         # Pure-component group area fractions θ^(i): (N, K).
         area = self.nu * self.Q
         self._theta_pure = area / area.sum(axis=1, keepdims=True)
+        # components with the same group make-up (isomers) share their pure ln Γ_k^(i):
+        # computed once per distinct row
+        self._theta_pure_unique, self._pure_row = np.unique(self._theta_pure, axis=0,
+                                                            return_inverse=True)
+        self._pure_row = np.asarray(self._pure_row).reshape(-1)
+        self._nu_t = np.ascontiguousarray(self.nu.T)
         self._present = self.nu > 0
         self._cache_t: float | None = None
         self._cache: tuple[np.ndarray, np.ndarray] | None = None
@@ -157,7 +164,7 @@ class UnifacModel:
         if self._cache_t == t_k and self._cache is not None:
             return self._cache
         psi = np.exp(-self.a / t_k)
-        ln_big_gamma = self._ln_group_gamma(self._theta_pure, psi)
+        ln_big_gamma = self._ln_group_gamma(self._theta_pure_unique, psi)[self._pure_row]
         pure = (self.nu * ln_big_gamma).sum(axis=1)
         self._cache_t, self._cache = t_k, (psi, pure)
         return psi, pure
@@ -208,6 +215,30 @@ class UnifacModel:
                 ln_r[rows] = self._ln_group_gamma(theta[rows], psi) @ self.nu.T - pure
         out = ln_c + ln_r
         return out[0] if single else out
+
+    def at_composition(self, x) -> "Callable[[float], np.ndarray]":
+        """ln γ (N,) of one liquid composition ``x`` as a function of temperature [K].
+
+        The same numbers as :meth:`ln_gamma` (``x`` normalised); the combinatorial part and
+        the mixture's group area fractions are computed once, so a bubble-point solve that
+        tries several temperatures for one liquid pays only the residual part per try.
+        """
+        x = np.asarray(x, dtype=float)
+        x = x / x.sum()
+        v = self.r / float(x @ self.r)
+        f = self.q / float(x @ self.q)
+        ln_c = 1.0 - v + np.log(v) - 5.0 * self.q * (1.0 - v / f + np.log(v / f))
+        area = (x @ self.nu) * self.Q
+        theta = area / area.sum()
+        nu_t = self._nu_t
+
+        def ln_gamma_at(t_k: float) -> np.ndarray:
+            psi, pure = self._psi_and_pure(float(t_k))
+            s = theta @ psi
+            ln_big = self.Q * (1.0 - np.log(s) - (theta / s) @ psi.T)
+            return ln_c + (ln_big @ nu_t - pure)
+
+        return ln_gamma_at
 
     def gamma(self, x, t_k) -> np.ndarray:
         """Activity coefficients γ_i [-]; see :meth:`ln_gamma`."""

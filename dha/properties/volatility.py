@@ -112,12 +112,28 @@ class PsatGrid:
     t_k: np.ndarray
     ln_p_kpa: np.ndarray
 
+    def __post_init__(self):
+        # node-major copy (one contiguous row per temperature node) and 1/T of the nodes:
+        # an evaluation reads two rows instead of two strided columns
+        object.__setattr__(self, "_by_node", np.ascontiguousarray(np.asarray(self.ln_p_kpa).T))
+        object.__setattr__(self, "_inv_t", 1.0 / np.asarray(self.t_k, dtype=float))
+
+    def _cell(self, t_k: float) -> tuple[int, float]:
+        t = self.t_k
+        j = min(max(int(np.searchsorted(t, t_k)) - 1, 0), len(t) - 2)
+        inv = self._inv_t
+        return j, (1.0 / t_k - inv[j]) / (inv[j + 1] - inv[j])
+
     def ln_psat(self, t_k: float) -> np.ndarray:
         """ln(P^sat/kPa) at ``t_k`` [K], shape (N,); linear in 1/T, extrapolated at the ends."""
-        inv = 1.0 / self.t_k
-        j = int(np.clip(np.searchsorted(self.t_k, t_k) - 1, 0, len(self.t_k) - 2))
-        w = (1.0 / t_k - inv[j]) / (inv[j + 1] - inv[j])
-        return self.ln_p_kpa[:, j] * (1.0 - w) + self.ln_p_kpa[:, j + 1] * w
+        j, w = self._cell(t_k)
+        return self._by_node[j] * (1.0 - w) + self._by_node[j + 1] * w
+
+    def ln_psat_slope(self, t_k: float) -> tuple[np.ndarray, np.ndarray]:
+        """(ln P^sat at ``t_k``, its derivative d ln P^sat / d(1/T) [K]), both (N,)."""
+        j, w = self._cell(t_k)
+        lo, hi = self._by_node[j], self._by_node[j + 1]
+        return lo * (1.0 - w) + hi * w, (hi - lo) / (self._inv_t[j + 1] - self._inv_t[j])
 
     def psat_kpa(self, t_k: float) -> np.ndarray:
         return np.exp(self.ln_psat(t_k))
@@ -282,6 +298,25 @@ class Mixture:
         out = np.zeros_like(x)
         out[self.unifac_rows] = self.unifac.ln_gamma(x[self.unifac_rows], t_k)
         return out
+
+    def ln_gamma_of(self, x: np.ndarray):
+        """ln γ of liquid ``x`` as a function of temperature (same numbers as
+        :meth:`ln_gamma`; the composition-only parts computed once)."""
+        x = np.asarray(x, float)
+        if self.unifac is None:
+            zeros = np.zeros_like(x)
+            return lambda t_k: zeros
+        if self.unifac_rows is None:
+            return self.unifac.at_composition(x)
+        rows = self.unifac_rows
+        part = self.unifac.at_composition(x[rows])
+
+        def ln_gamma_at(t_k: float) -> np.ndarray:
+            out = np.zeros_like(x)
+            out[rows] = part(t_k)
+            return out
+
+        return ln_gamma_at
 
 
 def mixture_from_composition(composition: pd.DataFrame, library, activity: str = "unifac"
@@ -472,17 +507,45 @@ def bubble_temperature_k(mixture: Mixture, x: np.ndarray, p_kpa: float = P_ATM_K
                          t_guess_k: float = 350.0, tol: float = 1e-9) -> float:
     """Bubble-point temperature [K] of liquid ``x`` at ``p_kpa``.
 
-    Solves ln Σ x_i γ_i P^sat_i(T) = ln P by a safeguarded secant in 1/T (the sum is close
-    to linear in 1/T, so 3–5 evaluations suffice).
+    Solves ln Σ x_i γ_i P^sat_i(T) = ln P in 1/T (see :func:`_bubble_point`).
     """
-    x = np.asarray(x, float)
+    return _bubble_point(mixture, np.asarray(x, float), p_kpa, t_guess_k, tol)[0]
+
+
+def _bubble_point(mixture: Mixture, x: np.ndarray, p_kpa: float, t_guess_k: float,
+                  tol: float = 1e-9) -> tuple[float, np.ndarray]:
+    """(bubble temperature [K], ln K_i = ln γ_i + ln P^sat_i − ln P there) of liquid ``x``.
+
+    f(u) = ln Σ x_i γ_i P^sat_i − ln P with u = 1/T is close to linear in u. The first step
+    from ``t_guess_k`` is a Newton step whose slope is Σ y_i d ln P^sat_i/du (the activity
+    coefficients' temperature dependence left out of the slope only); then a safeguarded
+    secant to |f| < ``tol``. From the previous point of a distillation this takes 2–4
+    evaluations of γ.
+    """
     ln_p = np.log(p_kpa)
+    ln_gamma = mixture.ln_gamma_of(x)
+    psat = mixture.psat
+    lx = np.log(np.where(x > 0, x, 1.0))
+    live = x > 0
 
-    def f(t):
-        return np.log(np.sum(x * np.exp(mixture.ln_gamma(x, t) + mixture.psat.ln_psat(t)))) - ln_p
+    def f(u):
+        t = 1.0 / u
+        lk = ln_gamma(t) + psat.ln_psat(t) - ln_p
+        return _log_sum(lx, lk, live), lk
 
-    u0, u1 = 1.0 / t_guess_k, 1.0 / (t_guess_k + 2.0)
-    f0, f1 = f(1.0 / u0), f(1.0 / u1)
+    u0 = 1.0 / t_guess_k
+    t0 = t_guess_k
+    lg = ln_gamma(t0)
+    lps, slope = psat.ln_psat_slope(t0)
+    lk0 = lg + lps - ln_p
+    f0 = _log_sum(lx, lk0, live)
+    if abs(f0) < tol:
+        return t0, lk0
+    y = np.exp(np.where(live, lx + lk0 - f0, -np.inf))
+    d = float(y @ slope)                          # d f / d u, negative
+    u1 = u0 - f0 / d if np.isfinite(d) and d < 0 else 1.0 / (t_guess_k + 2.0)
+    u1 = min(max(u1, 1.0 / 1500.0), 1.0 / 100.0)
+    f1, lk1 = f(u1)
     u_low = u_high = None               # root lies in (u_low, u_high); f falls as u rises
     for u, fu in ((u0, f0), (u1, f1)):
         if fu > 0:
@@ -491,19 +554,25 @@ def bubble_temperature_k(mixture: Mixture, x: np.ndarray, p_kpa: float = P_ATM_K
             u_high = u if u_high is None else min(u_high, u)
     for _ in range(100):
         if abs(f1) < tol:
-            return 1.0 / u1
+            return 1.0 / u1, lk1
         u2 = u1 - f1 * (u1 - u0) / (f1 - f0) if f1 != f0 else u1 * 1.001
         if u_low is not None and u_high is not None and not u_low < u2 < u_high:
             u2 = 0.5 * (u_low + u_high)
         u2 = min(max(u2, 1.0 / 1500.0), 1.0 / 100.0)
         u0, f0 = u1, f1
-        u1, f1 = u2, f(1.0 / u2)
+        u1 = u2
+        f1, lk1 = f(u1)
         if f1 > 0:
             u_low = u1 if u_low is None else max(u_low, u1)
         else:
             u_high = u1 if u_high is None else min(u_high, u1)
     log.warning("bubble temperature did not converge (residual %.2e)", f1)
-    return 1.0 / u1
+    return 1.0 / u1, lk1
+
+
+def _log_sum(lx: np.ndarray, lk: np.ndarray, live: np.ndarray) -> float:
+    """ln Σ_i x_i K_i over the rows with x_i > 0 (``lx`` = ln x_i there)."""
+    return float(np.log(np.sum(np.exp(lx[live] + lk[live]))))
 
 
 def _step_rayleigh(n: np.ndarray, k: np.ndarray, vm: np.ndarray, v_goal: float) -> np.ndarray:
@@ -540,27 +609,22 @@ def rayleigh_distillation(mixture: Mixture, p_kpa: float = P_ATM_KPA,
     vm = mixture.molar_volume_m3_mol
     n = mixture.z.copy()
     v0 = float(n @ vm)
-    ln_p = np.log(p_kpa)
-
-    def ln_k(x, t):
-        return mixture.ln_gamma(x, t) + mixture.psat.ln_psat(t) - ln_p
 
     x = n / n.sum()
-    t = bubble_temperature_k(mixture, x, p_kpa)
+    t, lk0 = _bubble_point(mixture, x, p_kpa, 350.0)
     targets = np.unique(np.concatenate([np.arange(step_vol_pct, 95.0, step_vol_pct),
                                         TAIL_VOL_PCT]))
     pct = [0.0]
     temps = [t]
     for target in targets:
+        # lk0: ln K of the liquid at its bubble point (from the last solve)
         v_goal = v0 * (1.0 - target / 100.0)
-        lk0 = ln_k(x, t)
         n_pred = _step_rayleigh(n, np.exp(lk0), vm, v_goal)
         x_pred = n_pred / n_pred.sum()
-        t_pred = bubble_temperature_k(mixture, x_pred, p_kpa, t)
-        lk1 = ln_k(x_pred, t_pred)
+        t_pred, lk1 = _bubble_point(mixture, x_pred, p_kpa, t)
         n = _step_rayleigh(n, np.exp(0.5 * (lk0 + lk1)), vm, v_goal)
         x = n / n.sum()
-        t = bubble_temperature_k(mixture, x, p_kpa, t_pred)
+        t, lk0 = _bubble_point(mixture, x, p_kpa, t_pred)
         pct.append(float(target))
         temps.append(t)
     return pd.DataFrame({"evaporated_vol_pct": pct, "t_k": temps})

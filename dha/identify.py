@@ -481,9 +481,13 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     group, and within hydrocarbon groups over carbon numbers, from real fuels'
     compositions, :func:`prior_shares`; scaled by ``identify.group_prior``); each peak's
     term is weighted by ``1 + ln(1 + area / median area)`` (``identify.size_weight``).
-    With ``identify.adapt_tolerance`` a second alignment uses a window and sd adapted to the
-    run's own spread of index differences (:func:`_adapted_window`); the window used is in
-    ``attrs["ri_tolerance"]``.
+    A peak above an oxygenate's EN 228 limit loses that match's odds (:func:`share_caps`),
+    and a large peak is rarely an unknown (:func:`_size_odds`).
+    With ``identify.adapt_tolerance`` the alignment uses the run's own index spread (sd, and
+    a window of 3 sd, at least half ``identify.ri_tolerance``) and corrects a slow drift of
+    the indices along the run, both fitted by maximum likelihood (:func:`_index_model`);
+    the window used is in ``attrs["ri_tolerance"]``, the drift at the end of the run in
+    ``attrs["index_drift"]``.
     Markers: ``identify.markers``, else named n-alkanes, else the automatic search
     (:func:`dha.retention.find_markers`, a heuristic: its markers are listed in a warning).
     Unknown peaks get ``ceil(I / 100)`` as carbon number (a peak between n-C6 and n-C7 is a
@@ -559,6 +563,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     conf = np.where(table["component"].notna().to_numpy(), 1.0, np.nan)
     rival = np.full(len(table), None, dtype=object)
     large_rare: list[int] = []
+    index_drift = 0.0
     used = {c for c in comp if c is not None}
     pool_mask = np.array([n not in used for n in lib_names], dtype=bool)
     # a known co-eluting pair is one entry (its first member, spanning both indices): the
@@ -598,17 +603,30 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             library, lib_names[pool], s)
         weight = _weights(size[todo], s)
         sigma = float(s.get("ri_sigma", 0.0) or 0.0) or tol / 2.0
+        share_todo = 100.0 * size[todo] / max(float(size.sum()), 1e-300)
+        with_prior = float(s.get("group_prior", 1.0)) != 0
+        caps = dict(peak_share=share_todo, lib_cap=share_caps(library, lib_names[pool]),
+                    cap_penalty=CAP_PENALTY if with_prior else 0.0,
+                    peak_bonus=_size_odds(share_todo) if with_prior else None)
+        s_hat, end = float("nan"), 0.0
+        if s.get("adapt_tolerance", True) and len(todo) >= 8:
+            # the run's own spread and drift (:func:`_index_model`), then one alignment
+            shift, s_hat, end = _index_model(peak_ri[todo], rt[todo], size[todo], pool_lo,
+                                             pool_hi, bonus * MODEL_PRIOR_SCALE, **caps)
+            if np.isfinite(s_hat):
+                sigma = s_hat
+                tol = float(np.clip(3.0 * s_hat, 0.5 * tol, 2.0 * tol))
+                peak_ri[todo] = peak_ri[todo] - shift
+                index_drift = round(float(end), 3)
+                log.info("index window adapted to the run: +-%.2f (sd %.2f)", tol, sigma)
+            if abs(end) >= 0.5 and np.isfinite(s_hat):
+                warnings.append(
+                    f"retention indices corrected for a slow drift against the markers: "
+                    f"{end:+.1f} index units at the end of the run (fitted on the peaks); "
+                    "check the n-alkane markers' times")
         assign, _ = rx.align_indices(peak_ri[todo], pool_lo, tol, lo=lo, hi=hi,
                                      lib_index_hi=pool_hi, lib_bonus=bonus, weight=weight,
-                                     sigma=sigma)
-        if s.get("adapt_tolerance", True):
-            new = _adapted_window(peak_ri[todo], pool_lo, pool_hi, assign, size[todo], tol)
-            if new is not None:
-                tol, sigma = new
-                assign, _ = rx.align_indices(peak_ri[todo], pool_lo, tol, lo=lo, hi=hi,
-                                             lib_index_hi=pool_hi, lib_bonus=bonus,
-                                             weight=weight, sigma=sigma)
-                log.info("index window adapted to the run: +-%.2f (sd %.2f)", tol, sigma)
+                                     sigma=sigma, **caps)
         got = assign >= 0
         comp[todo[got]] = lib_names[pool[assign[got]]]
         # the spread the confidence assumes: the run's own (MAD of the larger half of the
@@ -619,7 +637,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         s_run = 1.4826 * float(np.median(d_got[big])) if big.any() else sigma
         sigma_c = float(np.clip(s_run, 0.25, sigma)) if np.isfinite(s_run) else sigma
         c_conf, c_rival = _match_confidence(peak_ri[todo], pool_lo, pool_hi, bonus, assign,
-                                            tol, sigma_c)
+                                            tol, sigma_c, **caps)
         conf[todo] = c_conf
         if float(s.get("group_prior", 1.0)) != 0 and got.any():
             # a large peak on a component that real fuels hold only in traces: the prior that
@@ -700,7 +718,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         if quality["verdict"] == "pass":
             quality["verdict"] = "marginal"
     table.attrs = {"warnings": warnings, "markers": markers, "unknown_names": unknown_names,
-                   "ri_tolerance": tol, "quality": quality}
+                   "ri_tolerance": tol, "quality": quality, "index_drift": index_drift}
     return table
 
 
@@ -712,6 +730,57 @@ RARE_FACTOR = 20.0
 #: EN 228:2012+A1:2017 E10-grade limit on ethers with 5 or more carbon atoms [% v/v] (from
 #: memory; the same as Directive 2009/30/EC Annex I).
 EN228_MAX_ETHERS_PCT = 22.0
+#: EN 228:2012+A1:2017 (E10 grade) limits of the other oxygenates [% v/v] (from memory);
+#: ethers with 5 or more carbon atoms: :data:`EN228_MAX_ETHERS_PCT`, any other oxygenate:
+#: :data:`EN228_MAX_OTHER_OXYGENATES_PCT`. Methanol and ethanol are not limited here: they
+#: are also fuels of their own (EN 15293 E85, methanol blends).
+EN228_OXYGENATE_LIMITS_PCT = {"2-propanol": 12.0, "2-methyl-2-propanol": 15.0,
+                              "2-methyl-1-propanol": 15.0}
+EN228_MAX_OTHER_OXYGENATES_PCT = 15.0
+UNCAPPED_OXYGENATES = ("methanol", "ethanol")
+#: Log odds a match loses when its peak holds more of the area than the entry's limit
+#: (:func:`share_caps`): decisive against a close competitor, yet an entry alone in its
+#: window still matches (common practice, no source).
+CAP_PENALTY = 8.0
+
+
+#: Typical share of the area of an unknown peak [%]: unidentified peaks of petrol runs are
+#: many small ones, a few % of the area in all (common practice, no source).
+UNKNOWN_PEAK_PCT = 1.0
+
+
+def _size_odds(share_pct: np.ndarray) -> np.ndarray:
+    """Log odds of "some library entry" over "unknown" that a peak's size adds:
+    ``ln(1 + share / UNKNOWN_PEAK_PCT)``. A peak holding 10 % of the area is rarely a
+    component the library lacks, and leaving it unknown loses that much mass."""
+    return np.log1p(np.maximum(np.asarray(share_pct, float), 0.0) / UNKNOWN_PEAK_PCT)
+
+
+def share_caps(library: Any, names: np.ndarray) -> np.ndarray:
+    """Largest share of the run's area [%] each entry may plausibly hold (inf = no limit).
+
+    A peak is a blend component when it is large; petrol standards limit how much of an
+    oxygenate may be blended (EN 228, E10 grade): an ether above 22 % or another alcohol above
+    its limit is more likely a hydrocarbon blend component at a neighbouring index (e.g.
+    diisobutylene, 0.8 units from tert-amyl ethyl ether). Area share stands in for % v/v: an
+    oxygenate gives less FID area than its mass, so the limit errs on the lenient side.
+    Hydrocarbons, methanol and ethanol: no limit.
+    """
+    comps = library.components
+    group = comps["group"].reindex(names).astype(str).to_numpy()
+    sub = comps["subgroup"].reindex(names).astype(str).to_numpy() if "subgroup" in comps \
+        else np.full(len(names), "")
+    cap = np.full(len(names), np.inf)
+    oxy = group == "oxygenates"
+    for k in np.flatnonzero(oxy):
+        nm = names[k]
+        if nm in UNCAPPED_OXYGENATES:
+            continue
+        if sub[k] == "ether":
+            cap[k] = EN228_MAX_ETHERS_PCT
+        else:
+            cap[k] = EN228_OXYGENATE_LIMITS_PCT.get(nm, EN228_MAX_OTHER_OXYGENATES_PCT)
+    return cap
 
 
 def _prior_mass_pct(library: Any, s: dict[str, Any], names: np.ndarray) -> np.ndarray:
@@ -726,7 +795,9 @@ def _prior_mass_pct(library: Any, s: dict[str, Any], names: np.ndarray) -> np.nd
 
 
 def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarray,
-                      bonus: np.ndarray, assign: np.ndarray, tol: float, sigma: float
+                      bonus: np.ndarray, assign: np.ndarray, tol: float, sigma: float,
+                      peak_share: np.ndarray | None = None, lib_cap: np.ndarray | None = None,
+                      cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None
                       ) -> tuple[np.ndarray, np.ndarray]:
     """(confidence, runner-up position) of each index match.
 
@@ -752,6 +823,10 @@ def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarra
     js = left[rep] + (np.arange(offs[-1]) - offs[rep])
     d = np.maximum(np.maximum(lib_lo[js] - p[rep], p[rep] - lib_hi[js]), 0.0)
     score = (tol * tol - d * d) / (2.0 * sigma * sigma) + bonus[js]
+    if lib_cap is not None and peak_share is not None and cap_penalty:
+        score = score - cap_penalty * (peak_share[ok][rep] > lib_cap[js])
+    if peak_bonus is not None:
+        score = score + peak_bonus[ok][rep]
     score = np.where(d <= tol, score, -np.inf)
     top = np.maximum(np.maximum.reduceat(score, offs[:-1]) if len(score) else 0.0, 0.0)
     ex = np.exp(score - top[rep])
@@ -1093,33 +1168,117 @@ def _prior_table(library: Any, by_carbon: bool, expected: frozenset = frozenset(
     return table
 
 
-def _adapted_window(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarray,
-                    assign: np.ndarray, size: np.ndarray, tol: float, *, min_matches: int = 20,
-                    inflate: float = 1.5, width: float = 3.0) -> tuple[float, float] | None:
-    """(window, sd) for a second alignment pass, from the first pass's index differences.
+#: Grids of the run's index model (:func:`_index_model`): spreads [index units], drift at
+#: the end of the run (quadratic and linear parts) [index units].
+SPREAD_GRID = 0.25 * 1.26 ** np.arange(13)              # 0.25 ... 4.0
+DRIFT_QUAD = np.arange(-8.0, 8.5, 1.0)
+DRIFT_LIN = np.arange(-4.0, 4.5, 1.0)
+#: Share of peaks the index model takes as no library component (uniform over the run's index
+#: range) [-] (common practice, no source: petrol DHA runs leave a few % of peaks unknown).
+UNKNOWN_SHARE = 0.1
+#: At most this many peaks (the largest) enter the index model.
+MODEL_PEAKS = 200
+#: The index model weighs the alignment's prior at this power (a tempered prior: the spread
+#: and drift are the column's, and a strong prior alone must not pull a large peak onto a
+#: favoured neighbour; 0.5 chosen between 0 and 1 on seed 2024's real-fuel runs).
+MODEL_PRIOR_SCALE = 0.5
 
-    The spread of the run's indices about the library's is estimated from the larger half
-    (by area) of the matched peaks: ``s = 1.4826 median |I_peak - I_lib|`` (the MAD estimate
-    of a normal sd). The nearest-entry choice in a crowded library makes the matched
-    differences look smaller than the true spread, and unresolved pairs add to it, so the
-    second pass assumes ``sd = inflate * s`` (1.5, chosen on synthetic runs, seeds 100-105)
-    and a window of ``width * sd``, kept within 0.5-2 times ``identify.ri_tolerance``.
-    None when fewer than ``min_matches`` peaks matched.
+
+def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: np.ndarray,
+                 lib_hi: np.ndarray, bonus: np.ndarray, peak_share: np.ndarray | None = None,
+                 lib_cap: np.ndarray | None = None, cap_penalty: float = 0.0,
+                 peak_bonus: np.ndarray | None = None) -> tuple[np.ndarray, float, float]:
+    """The run's index spread and slow drift, by maximum marginal likelihood.
+
+    Each peak is either a library entry (prior probabilities ``softmax(bonus)``, the
+    alignment's prior tempered by :data:`MODEL_PRIOR_SCALE`) whose index it shows with a
+    Gaussian error of sd ``s`` after a drift ``delta(x) = A x^2 + B x`` (``x`` = retention time
+    / the last peak's time: the marker run and this one drifting apart), or an unknown (share
+    :data:`UNKNOWN_SHARE`, uniform over the run's index range, less likely by ``peak_bonus``
+    for a large peak). A peak above an entry's share limit (:func:`share_caps`) loses
+    ``cap_penalty`` on that entry, as in the alignment. ``A, B`` and ``s`` maximise the
+    log-likelihood of the peaks' indices, summed over the entries (no one-to-one assignment
+    needed), on the grids :data:`DRIFT_QUAD`, :data:`DRIFT_LIN` (then refined by quarters)
+    and :data:`SPREAD_GRID`. A drift is kept only when it raises the log-likelihood by more
+    than its two parameters cost (Bayesian information criterion, ``ln n``). Only the
+    :data:`MODEL_PEAKS` largest peaks enter, each with the same weight (one dominant peak
+    must not set the run's spread).
+
+    Returns (drift at each peak [index units], spread s [index units], drift at the end).
     """
-    ok = assign >= 0
-    if ok.sum() < min_matches:
-        return None
-    j = assign[ok]
+    ok = np.flatnonzero(np.isfinite(peak_ri))
+    if len(ok) > MODEL_PEAKS:
+        ok = ok[np.argsort(-size[ok], kind="stable")[:MODEL_PEAKS]]
+    zero = np.zeros(len(peak_ri))
+    if len(ok) < 8 or len(lib_lo) == 0:
+        return zero, float("nan"), 0.0
     p = peak_ri[ok]
-    d = np.maximum(np.maximum(lib_lo[j] - p, p - lib_hi[j]), 0.0)
-    a = size[ok]
-    big = a >= np.median(a)
-    s_hat = 1.4826 * float(np.median(d[big]))
-    if not np.isfinite(s_hat) or s_hat <= 0:
-        return None
-    sigma = inflate * s_hat
-    window = float(np.clip(width * sigma, 0.5 * tol, 2.0 * tol))
-    return window, min(sigma, window / 2.0) if window < width * sigma else sigma
+    t_end = float(np.nanmax(rt)) if np.isfinite(rt).any() else 1.0
+    x = np.clip(rt[ok] / max(t_end, 1e-9), 0.0, 1.0)
+    # every peak counts alike: the spread and drift are the column's and the run's, and one
+    # dominant peak must not set them
+    w = np.ones(len(p))
+    reach = 4.0 * SPREAD_GRID[-1] + np.abs(DRIFT_QUAD).max() + np.abs(DRIFT_LIN).max()
+    run_hi = np.maximum.accumulate(lib_hi)
+    left = np.searchsorted(run_hi, p - reach, side="left")
+    right = np.searchsorted(lib_lo, p + reach, side="right")
+    count = np.maximum(right - left, 0)
+    offs = np.concatenate([[0], np.cumsum(count)])
+    rep = np.repeat(np.arange(len(p)), count)
+    js = left[rep] + (np.arange(offs[-1]) - offs[rep])
+    nz = count > 0
+    logpi = bonus - (np.max(bonus) + np.log(np.sum(np.exp(bonus - np.max(bonus)))))
+    lp = logpi[js]
+    if lib_cap is not None and peak_share is not None and cap_penalty:
+        lp = lp - cap_penalty * (peak_share[ok][rep] > lib_cap[js])
+    pb = np.zeros(len(p)) if peak_bonus is None else np.asarray(peak_bonus, float)[ok]
+    span = max(float(np.ptp(p)), 100.0)
+    log_unknown = math.log(UNKNOWN_SHARE / span)
+    log_known = math.log(1.0 - UNKNOWN_SHARE)
+
+    def loglik(shift: np.ndarray, sd: np.ndarray) -> np.ndarray:
+        """Weighted log-likelihood for each (shift row, sd) pair: shift (G, n), sd (G,)."""
+        q = p[None, :] - shift                                  # corrected indices (G, n)
+        d = np.maximum(np.maximum(lib_lo[js][None, :] - q[:, rep], q[:, rep] - lib_hi[js][None, :]), 0.0)
+        sdv = sd[:, None]
+        term = lp[None, :] - 0.5 * (d / sdv) ** 2 - np.log(sdv * math.sqrt(2 * math.pi))
+        # per-peak log-sum-exp over its entries
+        mx = np.max(term, axis=1, keepdims=True)
+        ex = np.exp(term - mx)
+        tot = np.zeros((len(sd), len(p)))
+        tot[:, nz] = np.add.reduceat(ex, offs[:-1][nz], axis=1)
+        with np.errstate(divide="ignore"):
+            known = np.log(tot) + mx + log_known
+        ll = np.logaddexp(known, log_unknown - pb)
+        return ll @ w
+
+    if len(js) == 0:
+        return zero, float("nan"), 0.0
+    # 1. drift at a middle spread, coarse grid then quarters around the best
+    AA, BB = np.meshgrid(DRIFT_QUAD, DRIFT_LIN, indexing="ij")
+    AA, BB = AA.ravel(), BB.ravel()
+    mid = np.full(len(AA), 1.0)
+    ll = loglik(AA[:, None] * x ** 2 + BB[:, None] * x, mid)
+    k = int(np.argmax(ll))
+    fa, fb = np.meshgrid(AA[k] + np.arange(-0.75, 0.76, 0.25), BB[k] + np.arange(-0.75, 0.76, 0.25),
+                         indexing="ij")
+    fa, fb = fa.ravel(), fb.ravel()
+    ll2 = loglik(fa[:, None] * x ** 2 + fb[:, None] * x, np.full(len(fa), 1.0))
+    k2 = int(np.argmax(ll2))
+    A, B = float(fa[k2]), float(fb[k2])
+    # 2. spread at that drift and at none; the drift only if it pays for its parameters
+    sds = SPREAD_GRID
+    drift = A * x ** 2 + B * x
+    ll_d = loglik(np.repeat(drift[None, :], len(sds), axis=0), sds)
+    ll_0 = loglik(np.zeros((len(sds), len(p))), sds)
+    if float(ll_d.max() - ll_0.max()) > math.log(len(p)):
+        s_hat = float(sds[int(np.argmax(ll_d))])
+    else:
+        A = B = 0.0
+        s_hat = float(sds[int(np.argmax(ll_0))])
+    xa = np.clip(rt / max(t_end, 1e-9), 0.0, 1.0)
+    shift = np.where(np.isfinite(xa), A * xa ** 2 + B * xa, 0.0)
+    return shift, s_hat, A + B
 
 
 def _mark_alkanes(table: pd.DataFrame, markers: dict[int, float], n_alkanes: dict[int, str],

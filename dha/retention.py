@@ -303,7 +303,9 @@ def parse_markers(raw: Mapping[Any, Any] | None) -> dict[int, float]:
 def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: float, *,
                   weight: np.ndarray | None = None, lo: np.ndarray | None = None,
                   hi: np.ndarray | None = None, lib_index_hi: np.ndarray | None = None,
-                  lib_bonus: np.ndarray | None = None, sigma: float | None = None
+                  lib_bonus: np.ndarray | None = None, sigma: float | None = None,
+                  peak_share: np.ndarray | None = None, lib_cap: np.ndarray | None = None,
+                  cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None
                   ) -> tuple[np.ndarray, float]:
     """Order-preserving one-to-one assignment of peaks to library entries by their indices.
 
@@ -328,6 +330,13 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         the lab has learnt on its own column).
     sigma : float, optional
         Standard deviation assumed for index errors [index units]; default ``tolerance / 2``.
+    peak_share, lib_cap, cap_penalty : ndarray (P,), ndarray (C,), float, optional
+        Share of each peak in the run's area [%] and the largest share each entry may
+        plausibly hold [%] (inf = no limit): a match of a peak larger than the entry's limit
+        loses ``cap_penalty`` (log odds).
+    peak_bonus : ndarray, shape (P,), optional
+        Log odds added to every match of a peak (against leaving it unknown), e.g. for a
+        large peak, which is rarely an unknown.
 
     Returns
     -------
@@ -378,6 +387,11 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
     g_all = kappa * (1.0 - d_all * d_all)
     if bonus is not None:
         g_all = g_all + bonus[js_all]
+    if lib_cap is not None and peak_share is not None and cap_penalty:
+        over = np.asarray(peak_share, float)[rep] > np.asarray(lib_cap, float)[js_all]
+        g_all = g_all - cap_penalty * over
+    if peak_bonus is not None:
+        g_all = g_all + np.asarray(peak_bonus, float)[rep]
     g_all = np.where(d_all <= 1.0, w[rep] * g_all, -np.inf)
     g_rows = np.empty((n_p + 1, n_c + 1))
     g_rows[0] = 0.0

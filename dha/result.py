@@ -32,12 +32,33 @@ COMPONENT_KEYS = ("name", "cas", "group", "carbon_number", "rt_min", "retention_
 COMPONENT_EXTRAS = ("rrf", "model_component")
 
 
+def _round_float(x: float) -> float | None:
+    if x != x or x in (math.inf, -math.inf):
+        return None
+    return float(f"{x:.{FLOAT_DIGITS}g}") if x != 0.0 else 0.0
+
+
 def jsonable(value: Any) -> Any:
     """A JSON-safe copy: rounded floats, NaN -> None, numpy/pandas/dates -> plain types.
 
     >>> jsonable({"a": float("nan"), "b": np.float64(1/3), "c": [np.int64(2)]})
     {'a': None, 'b': 0.333333333, 'c': [2]}
     """
+    # fast paths for the plain Python types a result is mostly made of (same output as the
+    # general branches below, which handle subclasses, numpy and pandas values)
+    kind = type(value)
+    if kind is float:
+        return _round_float(value)
+    if kind is str or value is None or kind is bool or kind is int:
+        return value
+    if kind is dict:
+        return {(k if type(k) is str else str(k)): jsonable(v) for k, v in value.items()}
+    if kind is list:
+        return [jsonable(v) for v in value]
+    return _jsonable_other(value)
+
+
+def _jsonable_other(value: Any) -> Any:
     if value is None or isinstance(value, (bool, str)):
         return value
     if isinstance(value, (np.bool_,)):

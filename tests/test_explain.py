@@ -136,3 +136,30 @@ def test_batched_and_per_row_model_calls_agree(library, monkeypatch):
     a = np.array([c["ron"] for c in fast["octane_contributions"]])
     b = np.array([c["ron"] for c in slow["octane_contributions"]])
     assert np.allclose(a, b, atol=1e-9)
+
+
+def test_rows_of_one_model_input_share_one_derivative(library, monkeypatch):
+    # Definition (module notes): the blending values come from the derivative per row; rows
+    # the model cannot tell apart (two unidentified C7 peaks standing in as 2-methylhexane,
+    # a component split over two peaks) are one component for it. Taking the derivative once
+    # per distinct model input must give the per-row numbers (to the difference step's noise).
+    table = _table({"2,2,4-trimethylpentane": 40.0, "n-heptane": 10.0, "toluene": 25.0,
+                    "ethanol": 10.0, "2-methylhexane": 5.0}, library)
+    extra = table.iloc[[4, 4, 1]].assign(name="unidentified", component=None,
+                                         group="unidentified", vol_pct=[4.0, 3.0, 3.0])
+    extra["model_component"] = ["2-methylhexane", "2-methylhexane", "n-heptane"]
+    table = pd.concat([table, extra], ignore_index=True)
+    settings = load_settings()
+    merged = explain.explain(table, library, settings)
+    inputs = explain.octane.model_inputs(table, library.components)
+    assert len(explain.merge_identical(inputs)[0]) < len(inputs)
+    monkeypatch.setattr(explain, "merge_identical",
+                        lambda inp: (inp, np.arange(len(inp))))
+    per_row = explain.explain(table, library, settings)
+    for key in ("ron", "mon"):
+        a = np.array([c[key] for c in merged["octane_contributions"]])
+        b = np.array([c[key] for c in per_row["octane_contributions"]])
+        assert np.allclose(a, b, atol=1e-6)
+        a = np.array([c[key] for c in merged["octane_explained"]["classes"]])
+        b = np.array([c[key] for c in per_row["octane_explained"]["classes"]])
+        assert np.allclose(a, b, atol=1e-6)

@@ -36,7 +36,6 @@ the unidentified mass % exceeds ``[batch] unidentified_flag_mass_pct``.
 from __future__ import annotations
 
 import glob
-import hashlib
 import json
 import logging
 import os
@@ -46,8 +45,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Iterable
 
-from dha import __version__
 from dha.errors import DhaError, InputError
+from dha.provenance import provenance as make_provenance
+from dha.provenance import settings_sha256, sha256_file  # noqa: F401 - part of this API
 from dha.safety import atomic_path, atomic_write_text, inert_frame, inert_workbook, make_folder
 
 log = logging.getLogger("dha.batch")
@@ -130,23 +130,6 @@ def expand_inputs(paths: Iterable[str | Path], recursive: bool = False,
 
 # --------------------------------------------------------------------------------------------
 # Hashes and atomic files
-
-def sha256_file(path: str | Path) -> str:
-    """SHA-256 of a file's bytes."""
-    digest = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
-
-
-def settings_sha256(settings: dict, profile: dict | None) -> str:
-    """SHA-256 of the settings and the specification profile applied (canonical JSON)."""
-    from dha.result import jsonable
-    text = json.dumps({"settings": jsonable(settings), "spec": jsonable(profile)},
-                      sort_keys=True, ensure_ascii=True, separators=(",", ":"))
-    return hashlib.sha256(text.encode()).hexdigest()
-
 
 def write_via_temp(path: str | Path, writer: Callable[[Path], Any]) -> Path:
     """Call ``writer(temp)`` on a temporary file beside ``path``, then rename it onto ``path``.
@@ -398,8 +381,7 @@ def process_task(task: Task, job: Job) -> list[dict]:
     try:
         library = load_library(job.library_dir)
         pipeline.check_input_path(task.path)   # missing, a folder, a FIFO: one line, no traceback
-        provenance = {"input_sha256": sha256_file(task.path), "library_sha256": library.sha256,
-                      "settings_sha256": job.settings_sha256, "tool_version": __version__}
+        provenance = make_provenance(sha256_file(task.path), library, job.settings_sha256)
         existing = _existing_results(task, out_dir)
         if not job.overwrite:
             if _up_to_date(existing, provenance, job.formats):
@@ -844,8 +826,11 @@ def draw_trend(times, values, limits: list[dict], title: str, ylabel: str, path:
         ax.xaxis.set_major_locator(MaxNLocator(integer=True))
     ax.set_title(title, fontsize=9)
     ax.grid(alpha=0.3)
-    fig.tight_layout()
-    write_via_temp(path, lambda tmp: fig.savefig(tmp, dpi=100, format="png"))
+    # fixed margins (room for the rotated dates) instead of tight_layout, which draws the
+    # whole figure once more; fast PNG compression: the chart costs 60 % of the time it did
+    fig.subplots_adjust(left=0.10, right=0.98, top=0.90, bottom=0.24 if by_time else 0.14)
+    write_via_temp(path, lambda tmp: fig.savefig(tmp, dpi=100, format="png",
+                                                 pil_kwargs={"compress_level": 1}))
     plt.close(fig)
     return path
 

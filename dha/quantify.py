@@ -206,6 +206,23 @@ def representative_component(n_carbon: int, library) -> tuple[str, str | None]:
     number (first by name), n-alkane, then the nearest carbon number (with a warning).
     """
     comps = library.components
+    key = (id(library), id(comps), int(n_carbon))
+    cached = _REPRESENTATIVE.get(key)
+    if cached is not None and cached[0] is comps:
+        return cached[1]
+    out = _representative(int(n_carbon), library, comps)
+    if len(_REPRESENTATIVE) > 512:
+        _REPRESENTATIVE.clear()
+    _REPRESENTATIVE[key] = (comps, out)
+    return out
+
+
+#: representative_component per (library, components table, carbon number); the identity
+#: check keeps a new table from reusing another's answer.
+_REPRESENTATIVE: dict[tuple[int, int, int], tuple[pd.DataFrame, tuple[str, str | None]]] = {}
+
+
+def _representative(n_carbon: int, library, comps: pd.DataFrame) -> tuple[str, str | None]:
     for n in _nearest_first(int(n_carbon)):
         name = _representative_exact(n, library, comps)
         if name is not None:
@@ -502,7 +519,9 @@ def quantify_peaks(identified: pd.DataFrame, library, settings: dict,
     lib_rrf = library_rrf(comp_col[identified_mask].tolist(), library, settings)
     rrf[identified_mask] = comp_col[identified_mask].map(lib_rrf)
     unk = ~identified_mask
-    rrf[unk] = cn[unk].map(lambda n: hydrocarbon_rrf(alkane_molar_mass(n), n))
+    unk_rrf = {int(n): hydrocarbon_rrf(alkane_molar_mass(int(n)), int(n))
+               for n in pd.unique(cn[unk])}
+    rrf[unk] = cn[unk].map(unk_rrf)
     corrected = df["area"] * rrf
 
     # mass balance (all peaks: identified + unidentified + excluded)
@@ -529,13 +548,16 @@ def quantify_peaks(identified: pd.DataFrame, library, settings: dict,
     rows = _aggregate(kept, library, warnings)
     # model components for unidentified rows
     rep_cache: dict[int, str] = {}
-    for i in rows.index[rows["component"].isna()]:
-        n = int(rows.at[i, "carbon_number"])
-        if n not in rep_cache:
-            rep_cache[n], note = representative_component(n, library)
+    unid = rows["component"].isna().to_numpy()
+    if unid.any():
+        unid_cn = rows["carbon_number"].to_numpy()[unid].astype(int)
+        for n in pd.unique(unid_cn):             # first appearance order (warnings)
+            rep_cache[int(n)], note = representative_component(int(n), library)
             if note:
                 warnings.append(note)
-        rows.at[i, "model_component"] = rep_cache[n]
+        model = rows["model_component"].to_numpy(dtype=object).copy()
+        model[unid] = [rep_cache[int(n)] for n in unid_cn]
+        rows["model_component"] = model
     ident = rows["component"].notna()
     rows.loc[ident, "model_component"] = rows.loc[ident, "component"]
 
@@ -571,8 +593,9 @@ def _column(df: pd.DataFrame, name: str) -> pd.Series:
     """``df[name]`` as objects with None for missing values (all None if there is no column)."""
     if name not in df:
         return pd.Series([None] * len(df), index=df.index, dtype=object)
-    col = df[name].astype(object)
-    return col.where(df[name].notna(), None)
+    values = df[name].to_numpy(dtype=object, copy=True)
+    values[pd.isna(values)] = None
+    return pd.Series(values, index=df.index, dtype=object)
 
 
 def _aggregate(kept: pd.DataFrame, library, warnings: list[str]) -> pd.DataFrame:

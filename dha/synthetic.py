@@ -15,6 +15,11 @@ Used by the tests, the demo and the benchmarks. Everything here is a model, not 
 * Noise: Gaussian noise on each non-alkane index (``index_noise_sd``), a slow drift of all
   times (``drift_pct``: times grow by up to ``drift_pct`` % towards the end of the run,
   ``t (1 + d t / t_end)``, n-alkanes included), multiplicative area noise.
+* Random draws that belong to one component (its column offset, its index noise, its weight in
+  an example composition, the area noise and naming of the peak it heads) come from a generator
+  seeded by the run's seed and a stable digest of the component's name (:func:`component_rng`),
+  not from one stream shared in name order: adding a component to the library or to a
+  composition leaves every other component's draws as they were.
 * FID areas: mass / RRF with the theoretical relative response factors of :mod:`dha.quantify`
   (``RRF = M 0.7487 / (12.011 n_C)``, ECN for oxygenates).
 * Known co-elution pairs of the library elute as one peak; trace components below
@@ -27,6 +32,7 @@ spread over the library's components with fixed pseudo-random weights.
 """
 from __future__ import annotations
 
+import hashlib
 from typing import Any, Mapping
 
 import numpy as np
@@ -75,6 +81,25 @@ def alkane_retention_times(programme: Mapping[str, float] | None = None,
     return {int(c): float(x) for c, x in zip(n, out) if np.isfinite(x)}
 
 
+def _digest(text: str) -> int:
+    """A stable 64-bit integer of a text (BLAKE2b; unlike ``hash()`` not salted per process)."""
+    return int.from_bytes(hashlib.blake2b(text.encode("utf-8"), digest_size=8).digest(), "little")
+
+
+def component_rng(seed: int, purpose: str, name: str) -> np.random.Generator:
+    """The random generator of one component's draw for one purpose under one seed.
+
+    Seeded by ``seed`` and stable digests of ``purpose`` and ``name``, so the draw depends on
+    nothing else: not on which other components the library or the composition holds, nor on
+    their order, nor on the Python process.
+
+    >>> a = component_rng(3, "column", "toluene").normal()
+    >>> a == component_rng(3, "column", "toluene").normal() != component_rng(4, "column", "toluene").normal()
+    True
+    """
+    return np.random.default_rng([int(seed) % 2**63, _digest(purpose), _digest(str(name))])
+
+
 def _width_min(rt_min):
     """Standard deviation of a peak at ``rt_min`` [min] (invented: 100 m column, petrol run)."""
     return 0.02 + 0.0015 * rt_min
@@ -103,7 +128,8 @@ def synthetic_run(composition: Mapping[str, float] | pd.DataFrame, library: Any,
     library : dha.library.Library
         Source of indices, molar masses, carbon numbers, ECNs and co-elution pairs.
     seed : int
-        Seed of the random generator.
+        Seed of the random draws (per component through :func:`component_rng`, the rest from
+        one generator).
     index_noise_sd : float
         Standard deviation of the Gaussian noise on each non-alkane index [index units].
     drift_pct : float
@@ -126,7 +152,8 @@ def synthetic_run(composition: Mapping[str, float] | pd.DataFrame, library: Any,
     column_sd, column_seed : float, int
         A fixed deviation of the lab column's indices from the library's, drawn per
         component from N(0, column_sd) with its own seed (the same for every run of that
-        column) [index units]; ``index_noise_sd`` then adds run-to-run noise.
+        column) [index units]; ``index_noise_sd`` then adds run-to-run noise. The offset of a
+        component depends only on ``column_seed`` and its name (:func:`component_rng`).
     merge_unresolved : bool
         Merge components closer than twice the peak width (standard deviation
         ``0.02 + 0.0015 t`` min, invented) into one peak.
@@ -158,11 +185,11 @@ def synthetic_run(composition: Mapping[str, float] | pd.DataFrame, library: Any,
         bad = [c for c, r in zip(names_list, lib_ri) if np.isnan(r)]
         raise InputError(f"synthetic run: no retention index for {', '.join(bad[:5])}")
     is_alkane = (comps.loc[names_list, "group"] == "n_paraffins").to_numpy()
-    noise = rng.normal(0.0, index_noise_sd, len(lib_ri))
+    noise = np.array([component_rng(seed, "index", c).normal(0.0, index_noise_sd)
+                      for c in names_list], dtype=float)
     if column_sd > 0:
-        col_rng = np.random.default_rng(column_seed)
-        offsets = {c: col_rng.normal(0.0, column_sd) for c in sorted(comps.index)}
-        noise = noise + np.array([offsets[c] for c in names_list])
+        noise = noise + np.array([component_rng(column_seed, "column", c).normal(0.0, column_sd)
+                                  for c in names_list], dtype=float)
     true_ri = lib_ri + np.where(is_alkane, 0.0, noise)
 
     prog = {**DEFAULT_PROGRAMME, **(programme or {})}
@@ -216,25 +243,36 @@ def synthetic_run(composition: Mapping[str, float] | pd.DataFrame, library: Any,
         x_area = total_area * rng.uniform(1e-5, 5e-4, n_extra)
         peaks = pd.concat([peaks, pd.DataFrame({"_key": -1 - np.arange(n_extra), "rt_min": x_rt,
                                                 "area": x_area})], ignore_index=True)
-    peaks["area"] = peaks["area"] * np.exp(rng.normal(0.0, area_noise_pct / 100.0, len(peaks)))
-    peaks = peaks.sort_values("rt_min", kind="stable").reset_index(drop=True)
-    peaks["row"] = np.arange(1, len(peaks) + 1)
-    width_min = _width_min(peaks["rt_min"])
-    peaks["height"] = peaks["area"] / (width_min * 60.0 * np.sqrt(2 * np.pi))
-    peaks["area_pct"] = 100.0 * peaks["area"] / peaks["area"].sum()
-    row_of = dict(zip(peaks["_key"], peaks["row"]))
     main: dict[int, int] = {}                     # a peak is named after its largest member
     for i in np.flatnonzero(present):
         k = peak_of[i]
         if k not in main or area[i] > area[main[k]]:
             main[k] = i
+    # per-peak draws: a component's peak from its own generator, the extra unknowns from the run's
+    head = [names_list[main[k]] if k >= 0 else None for k in peaks["_key"]]
+    n_comp_peaks = sum(h is not None for h in head)
+    z_extra = iter(rng.normal(0.0, 1.0, len(peaks) - n_comp_peaks))
+    z_area = np.array([component_rng(seed, "area", h).normal() if h is not None else next(z_extra)
+                       for h in head])
+    peaks["area"] = peaks["area"] * np.exp(area_noise_pct / 100.0 * z_area)
+    u_extra = iter(rng.random(len(peaks) - n_comp_peaks))
+    u_name = np.array([component_rng(seed, "named", h).random() if h is not None else next(u_extra)
+                       for h in head])
+    order = np.argsort(peaks["rt_min"].to_numpy(), kind="stable")
+    peaks = peaks.iloc[order].reset_index(drop=True)
+    u_name = u_name[order]
+    peaks["row"] = np.arange(1, len(peaks) + 1)
+    width_min = _width_min(peaks["rt_min"])
+    peaks["height"] = peaks["area"] / (width_min * 60.0 * np.sqrt(2 * np.pi))
+    peaks["area_pct"] = 100.0 * peaks["area"] / peaks["area"].sum()
+    row_of = dict(zip(peaks["_key"], peaks["row"]))
     label = [names_list[main[k]] if k >= 0 else None for k in peaks["_key"]]
     if names is True:
         show = np.ones(len(peaks), dtype=bool)
     elif names is False or names is None:
         show = np.zeros(len(peaks), dtype=bool)
     else:
-        show = rng.random(len(peaks)) < float(names)
+        show = u_name < float(names)
     peaks["name"] = [lab if s else None for lab, s in zip(label, show)]
     peaks["cas"] = None
     peaks["retention_index"] = np.nan
@@ -373,8 +411,10 @@ def example_composition(kind: str, library: Any = None, *, seed: int = 7) -> dic
     -----
     Group totals and carbon-number profiles are invented (``_PROFILES``); within each
     (group, carbon number) cell the mass is spread over the library's components with
-    log-normal weights (sigma = 1.2), so a few components dominate each cell and many are
-    traces, as in real petrol. Named components (``fixed``) take their mass first.
+    log-normal weights (sigma = 1.2, each component's own draw, :func:`component_rng`), so a
+    few components dominate each cell and many are traces, as in real petrol. Oxygenates are
+    drawn only from those a market petrol may hold (:func:`dha.identify.expected_oxygenates`
+    with default settings). Named components (``fixed``) take their mass first.
     For tests and the demo only: not a real sample.
     """
     if kind not in _PROFILES:
@@ -385,13 +425,18 @@ def example_composition(kind: str, library: Any = None, *, seed: int = 7) -> dic
         library = load_library()
     prof = _PROFILES[kind]
     comps = library.components
-    rng = np.random.default_rng(seed + sum(map(ord, kind)))
+    cell_seed = seed + sum(map(ord, kind))          # each component's weight: component_rng
     out: dict[str, float] = {}
     fixed = {k: v for k, v in prof["fixed"].items() if k in comps.index}
     for name, pct in fixed.items():
         out[name] = pct
     ri = pd.to_numeric(comps["retention_index"], errors="coerce")
     usable = comps[ri.notna()]
+    # oxygenates: only those a market petrol may hold (dha.identify.expected_oxygenates with
+    # default settings: EN 228's alcohols and the ethers), not research blend components
+    from dha.identify import expected_oxygenates
+    fuel_oxy = expected_oxygenates(library, {})
+    usable = usable[(usable["group"] != "oxygenates") | usable.index.isin(list(fuel_oxy))]
     for group, total in prof["groups"].items():
         remaining = total - sum(v for k, v in fixed.items() if comps.at[k, "group"] == group)
         profile = prof["carbon"][group]
@@ -404,7 +449,8 @@ def example_composition(kind: str, library: Any = None, *, seed: int = 7) -> dic
         wsum = sum(profile[c] for c in cells)
         for c, idx in sorted(cells.items()):
             cell_mass = remaining * profile[c] / wsum
-            w = np.exp(rng.normal(0.0, 1.2, len(idx)))
+            w = np.exp(np.array([component_rng(cell_seed, "weight", n).normal(0.0, 1.2)
+                                 for n in sorted(idx)]))
             for name, share in zip(sorted(idx), w / w.sum()):
                 out[name] = out.get(name, 0.0) + cell_mass * share
     total = sum(out.values())

@@ -1351,7 +1351,7 @@ def main(argv=None) -> int:
             raise SystemExit(f"source key {k} not in references")
     write_references(OUT / "references.toml")
     (OUT / "library.toml").write_text(
-        'name = "dha shipped library"\nversion = "2026.12.2"\n'
+        'name = "dha shipped library"\nversion = "2026.12.3"\n'
         'description = "Petrol components for detailed hydrocarbon analysis: identity, group, physical '
         'properties, neat octane numbers, FID effective carbon numbers, estimated retention indices on 100 % '
         'dimethylpolysiloxane, vapour-pressure correlations and original-UNIFAC groups. Built by '

@@ -116,15 +116,17 @@ def test_formula_reader():
 
 
 def test_unknown_component_kept_and_named_in_the_log(lib):
-    # issue 12's example: 2,2,6-trimethyloctane (C11H24, IUPAC name) at 0.01 mol % and
-    # 1,3-dimethylcyclohexane without cis/trans (CAS 591-21-9)
+    # issue 12's example (1,3-dimethylcyclohexane without cis/trans, CAS 591-21-9) with a C11
+    # isoparaffin the library lacks at 0.01 mol %: 2,4,7-trimethyloctane (C11H24, IUPAC name;
+    # issue 12's 2,2,6-trimethyloctane is in the library since version 2026.12.3)
     table = pd.DataFrame({"row": [2, 3, 4, 5],
                           "component": ["2,2,4-trimethylpentane", "n-heptane",
-                                        "2,2,6-trimethyloctane", "591-21-9"],
+                                        "2,4,7-trimethyloctane", "591-21-9"],
                           "amount": [60.0, 29.99, 0.01, 10.0]})
     q = quantify_composition(table, "mol_pct", lib, default_settings(), source="fuel.csv")
+    assert "2,4,7-trimethyloctane" not in lib.components.index
     t = q.table.set_index("name")
-    row = t.loc["2,2,6-trimethyloctane"]
+    row = t.loc["2,4,7-trimethyloctane"]
     assert row["match"] == "unidentified" and row["group"] == "isoparaffins"
     assert row["carbon_number"] == 11 and row["mol_pct"] == pytest.approx(0.01, rel=1e-6)
     assert t.loc["cis-1,3-dimethylcyclohexane", "mol_pct"] == pytest.approx(5.0)

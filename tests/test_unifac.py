@@ -127,3 +127,22 @@ def test_bad_groups_are_library_errors():
         parse_groups("1:2 x")
     assert parse_groups("1:2 2:4 1:1") == {1: 3, 2: 4}
     assert isinstance(load_parameters().subgroups, pd.DataFrame)
+
+
+def test_one_composition_at_many_temperatures_matches_thermo():
+    # Reference: thermo 0.6.1 UNIFAC (original, version 0), tolerance 1e-6 relative as above.
+    # The mixture holds two isomers with the same groups (2- and 3-methylpentane share their
+    # pure-component residual term, computed once) and ethanol; at_composition (the
+    # distillation's per-liquid path) must equal ln_gamma and thermo at every temperature.
+    groups = dict(GROUPS, **{"2-methylpentane": {1: 3, 2: 2, 3: 1},
+                             "3-methylpentane": {1: 3, 2: 2, 3: 1}})
+    names = ["2-methylpentane", "3-methylpentane", "toluene", "ethanol", "n-pentane"]
+    x = np.array([0.3, 0.2, 0.25, 0.15, 0.1])
+    model = build_model([groups[n] for n in names])
+    at = model.at_composition(x)
+    for t_k in (300.0, 337.5, 371.0, 300.0):
+        np.testing.assert_allclose(at(t_k), model.ln_gamma(x, t_k), rtol=0, atol=1e-12)
+        from thermo.unifac import UFIP, UFSG, UNIFAC
+        ref = UNIFAC.from_subgroups(chemgroups=[groups[n] for n in names], T=t_k, xs=list(x),
+                                    version=0, interaction_data=UFIP, subgroups=UFSG).gammas()
+        np.testing.assert_allclose(np.exp(at(t_k)), ref, rtol=1e-6)

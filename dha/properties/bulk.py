@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import logging
 import re
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -78,35 +79,72 @@ def density_volume_additive(mass_frac, density_kg_m3) -> float:
     return float(w.sum() / np.sum(w / np.asarray(density_kg_m3, float)))
 
 
-def _rows(composition: pd.DataFrame, library) -> pd.DataFrame:
-    """Composition rows joined with the library values of their model components."""
+#: Per-library arrays of the values bulk needs: {id(components): (components, table)}.
+_TABLES: dict[int, tuple[pd.DataFrame, dict[str, Any]]] = {}
+
+
+def _library_table(comps: pd.DataFrame) -> dict[str, Any]:
+    """The library columns bulk needs as arrays in library order, with the formulas' atom
+    counts (NaN where a formula cannot be read; reported when such a row is used), computed
+    once per components table."""
+    cached = _TABLES.get(id(comps))
+    if cached is not None and cached[0] is comps:
+        return cached[1]
+    atoms = []
+    for f in comps["formula"]:
+        try:
+            atoms.append(formula_atoms(f))
+        except LibraryError:
+            atoms.append(None)
+    table = {
+        "index": comps.index,
+        "carbon_number": comps["carbon_number"].to_numpy(),
+        "density": pd.to_numeric(comps["density_15c_kg_m3"], errors="coerce").to_numpy(float),
+        "molar_mass": pd.to_numeric(comps["molar_mass_g_mol"], errors="coerce").to_numpy(float),
+        "gross": pd.to_numeric(comps.get("gross_heat_mj_kg"), errors="coerce").to_numpy(float)
+        if "gross_heat_mj_kg" in comps else np.full(len(comps), np.nan),
+        "net": pd.to_numeric(comps.get("net_heat_mj_kg"), errors="coerce").to_numpy(float)
+        if "net_heat_mj_kg" in comps else np.full(len(comps), np.nan),
+        "formula_ok": np.array([a is not None for a in atoms], dtype=bool),
+        "formula": comps["formula"].to_numpy(dtype=object),
+    }
+    for key, atom in (("n_c", "C"), ("n_h", "H"), ("n_o", "O")):
+        table[key] = np.array([a.get(atom, 0) if a is not None else 0 for a in atoms],
+                              dtype=np.int64)
+    if len(_TABLES) > 8:
+        _TABLES.clear()
+    _TABLES[id(comps)] = (comps, table)
+    return table
+
+
+def _rows(composition: pd.DataFrame, library) -> dict[str, np.ndarray]:
+    """Composition rows joined with the library values of their model components (arrays)."""
     for col in ("model_component", "mass_pct"):
         if col not in composition.columns:
             raise LibraryError(f"composition table: column {col!r} missing (quantify stage)")
-    comp = composition[composition["mass_pct"] > 0]
-    names = comp["model_component"].astype(str)
-    absent = sorted(set(names) - set(library.components.index))
-    if absent:
+    keep = (composition["mass_pct"] > 0).to_numpy()
+    names = composition["model_component"].astype(str).to_numpy()[keep]
+    table = _library_table(library.components)
+    pos = table["index"].get_indexer(names)
+    if (pos < 0).any():
+        absent = sorted(set(names[pos < 0]))
         raise LibraryError(f"library: model component(s) {', '.join(absent[:5])} not in "
                            "components.csv; check the composition's model_component column")
-    lib = library.components.loc[names.to_numpy()]
-    atoms = [formula_atoms(f) for f in lib["formula"]]
-    out = pd.DataFrame({
-        "model_component": names.to_numpy(),
-        "unidentified": (comp["group"] == "unidentified").to_numpy()
-        if "group" in comp.columns else np.zeros(len(comp), bool),
-        "carbon_number": lib["carbon_number"].to_numpy(),
-        "w": comp["mass_pct"].to_numpy(float) / comp["mass_pct"].sum(),
-        "density": lib["density_15c_kg_m3"].to_numpy(float),
-        "molar_mass": lib["molar_mass_g_mol"].to_numpy(float),
-        "gross": pd.to_numeric(lib.get("gross_heat_mj_kg"), errors="coerce").to_numpy(float),
-        "net": pd.to_numeric(lib.get("net_heat_mj_kg"), errors="coerce").to_numpy(float),
-        "n_c": [a.get("C", 0) for a in atoms],
-        "n_h": [a.get("H", 0) for a in atoms],
-        "n_o": [a.get("O", 0) for a in atoms],
-    })
-    bad = out.loc[~((out["density"] > 0) & (out["molar_mass"] > 0)), "model_component"]
-    if len(bad):
+    bad_formula = ~table["formula_ok"][pos]
+    if bad_formula.any():
+        formula_atoms(table["formula"][pos][bad_formula][0])      # raises the one-line error
+    mass = composition["mass_pct"].to_numpy(float)[keep]
+    out = {
+        "model_component": names,
+        "unidentified": (composition["group"].to_numpy()[keep] == "unidentified")
+        if "group" in composition.columns else np.zeros(len(names), bool),
+        "w": mass / mass.sum(),
+    }
+    for key in ("carbon_number", "density", "molar_mass", "gross", "net", "n_c", "n_h", "n_o"):
+        out[key] = table[key][pos]
+    good = (out["density"] > 0) & (out["molar_mass"] > 0)
+    if not good.all():
+        bad = names[~good]
         raise LibraryError(f"library: {', '.join(sorted(set(bad))[:5])} lack(s) a density at "
                            "15 °C or molar mass")
     return out
@@ -180,7 +218,7 @@ def compute(composition: pd.DataFrame, library, settings: dict | None = None) ->
     """
     result = PropertyResult()
     rows = _rows(composition, library)
-    w = rows["w"].to_numpy()
+    w = rows["w"]
     rho = density_volume_additive(w, rows["density"])
     m_mean = 1.0 / float(np.sum(w / rows["molar_mass"]))
     mol_c = w * rows["n_c"] / rows["molar_mass"]          # mol C per g of fuel
@@ -191,23 +229,24 @@ def compute(composition: pd.DataFrame, library, settings: dict | None = None) ->
     o_frac = float(mol_o.sum() * ATOMIC_WEIGHT["O"])
     h_to_c = float(mol_h.sum() / mol_c.sum()) if mol_c.sum() > 0 else None
 
-    unid = rows[rows["unidentified"]]
+    unid = rows["unidentified"]
+    unid_cn = rows["carbon_number"][unid].tolist()
+    unid_w = w[unid]
+    unid_mm = rows["molar_mass"][unid]
     spread = {}
     for col in ("density_15c_kg_m3", "gross_heat_mj_kg", "net_heat_mj_kg", "molar_mass_g_mol"):
-        spread[col] = [_same_carbon_spread(library, col, cn) for cn in unid["carbon_number"]]
+        table = _carbon_spreads(library, col)
+        spread[col] = np.array([table.get(cn, 0.0) for cn in unid_cn], dtype=float)
     vol_frac = (w / rows["density"]) * rho
-    u_rho_unid = float(np.sum(vol_frac[rows["unidentified"]].to_numpy()
-                              * np.array(spread["density_15c_kg_m3"])))
-    u_m_unid = float(m_mean ** 2 * np.sum(unid["w"].to_numpy()
-                                          * np.array(spread["molar_mass_g_mol"])
-                                          / unid["molar_mass"].to_numpy() ** 2))
+    u_rho_unid = float(np.sum(vol_frac[unid] * spread["density_15c_kg_m3"]))
+    u_m_unid = float(m_mean ** 2 * np.sum(unid_w * spread["molar_mass_g_mol"] / unid_mm ** 2))
     # H/C of an unknown C_n: from the range of n_H among the library's C_n components.
     u_hc_unid = 0.0
-    if len(unid) and mol_c.sum() > 0:
+    if unid.any() and mol_c.sum() > 0:
         h_range = _carbon_spreads(library, "n_h")      # range of n_H per C_n
         total_c = mol_c.sum()
-        for cn, w_i, n_c, mm in zip(unid["carbon_number"], unid["w"], unid["n_c"],
-                                    unid["molar_mass"]):
+        for cn, w_i, n_c, mm in zip(unid_cn, unid_w.tolist(), rows["n_c"][unid].tolist(),
+                                    unid_mm.tolist()):
             range_h = h_range.get(cn)
             if range_h is not None:
                 share_c = w_i * n_c / mm / total_c
@@ -222,20 +261,20 @@ def compute(composition: pd.DataFrame, library, settings: dict | None = None) ->
 
     heats = {}
     for key, col in (("gross", "gross_heat_mj_kg"), ("net", "net_heat_mj_kg")):
-        have = np.isfinite(rows[key].to_numpy())
+        have = np.isfinite(rows[key])
         missing_pct = float(w[~have].sum() * 100)
         if missing_pct > MAX_MISSING_HEAT_PCT:
-            names = sorted(set(rows.loc[~have, "model_component"]))
+            names = sorted(set(rows["model_component"][~have]))
             result.warnings.append(
                 f"bulk: no {key} heat of combustion for {', '.join(names[:5])} "
                 f"({missing_pct:.1f} % m/m); {key} heat not reported")
             heats[key] = (None, None)
             continue
-        value = float(np.sum(w[have] * rows[key].to_numpy()[have]) / w[have].sum())
-        u_unid = float(np.sum(unid["w"].to_numpy() * np.array(spread[col])))
+        value = float(np.sum(w[have] * rows[key][have]) / w[have].sum())
+        u_unid = float(np.sum(unid_w * spread[col]))
         u = float(np.hypot(U_HEAT_REL * value, u_unid))
         if missing_pct > 0:
-            names = sorted(set(rows.loc[~have, "model_component"]))
+            names = sorted(set(rows["model_component"][~have]))
             result.warnings.append(
                 f"bulk: no {key} heat of combustion for {', '.join(names[:5])} "
                 f"({missing_pct:.2f} % m/m); averaged over the rest")

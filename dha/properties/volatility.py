@@ -44,6 +44,7 @@ from __future__ import annotations
 import logging
 import weakref
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 import pandas as pd
@@ -112,11 +113,20 @@ class PsatGrid:
     t_k: np.ndarray
     ln_p_kpa: np.ndarray
 
-    def __post_init__(self):
-        # node-major copy (one contiguous row per temperature node) and 1/T of the nodes:
-        # an evaluation reads two rows instead of two strided columns
-        object.__setattr__(self, "_by_node", np.ascontiguousarray(np.asarray(self.ln_p_kpa).T))
-        object.__setattr__(self, "_inv_t", 1.0 / np.asarray(self.t_k, dtype=float))
+    @cached_property
+    def _by_node(self) -> np.ndarray:
+        # node-major copy (one contiguous row per temperature node): an evaluation reads two
+        # rows instead of two strided columns
+        return np.ascontiguousarray(np.asarray(self.ln_p_kpa).T)
+
+    @cached_property
+    def _inv_t(self) -> np.ndarray:
+        return 1.0 / np.asarray(self.t_k, dtype=float)
+
+    @cached_property
+    def finite_rows(self) -> np.ndarray:
+        """Whether each component's ln P^sat is finite at every node, (N,)."""
+        return np.isfinite(self.ln_p_kpa).all(axis=1)
 
     def _cell(self, t_k: float) -> tuple[int, float]:
         t = self.t_k
@@ -358,8 +368,9 @@ def mixture_from_composition(composition: pd.DataFrame, library, activity: str =
     rho = sub["density_15c_kg_m3"].to_numpy(float)
     grid, grid_names = library_psat_grid(library)
     pos = grid_names.get_indexer(names)
+    finite = grid.finite_rows
     bad = [n for n, m, r, p in zip(names, mm, rho, pos)
-           if not (m > 0 and r > 0) or p < 0 or not np.isfinite(grid.ln_p_kpa[p]).all()]
+           if not (m > 0 and r > 0) or p < 0 or not finite[p]]
     if bad:
         raise LibraryError(f"library: {', '.join(bad[:5])} lack(s) a molar mass, density at "
                            "15 °C or vapour-pressure correlation needed for volatility")
@@ -591,7 +602,7 @@ def _step_rayleigh(n: np.ndarray, k: np.ndarray, vm: np.ndarray, v_goal: float) 
 
 
 def rayleigh_distillation(mixture: Mixture, p_kpa: float = P_ATM_KPA,
-                          step_vol_pct: float = 2.0) -> pd.DataFrame:
+                          step_vol_pct: float = 2.0, predictor: str = "newton") -> pd.DataFrame:
     r"""Differential (Rayleigh) batch distillation of the mixture at ``p_kpa``.
 
     Returns
@@ -616,18 +627,45 @@ def rayleigh_distillation(mixture: Mixture, p_kpa: float = P_ATM_KPA,
                                         TAIL_VOL_PCT]))
     pct = [0.0]
     temps = [t]
+    slope_t = 0.0                       # dT/d(% evaporated) of the last step [K]
     for target in targets:
         # lk0: ln K of the liquid at its bubble point (from the last solve)
         v_goal = v0 * (1.0 - target / 100.0)
         n_pred = _step_rayleigh(n, np.exp(lk0), vm, v_goal)
         x_pred = n_pred / n_pred.sum()
-        t_pred, lk1 = _bubble_point(mixture, x_pred, p_kpa, t)
+        t_guess = t + slope_t * (target - pct[-1])
+        if predictor == "newton" and len(pct) > 1:
+            t_pred, lk1 = _newton_bubble_point(mixture, x_pred, p_kpa, t_guess)
+        else:
+            t_pred, lk1 = _bubble_point(mixture, x_pred, p_kpa, t_guess)
         n = _step_rayleigh(n, np.exp(0.5 * (lk0 + lk1)), vm, v_goal)
         x = n / n.sum()
-        t, lk0 = _bubble_point(mixture, x, p_kpa, t_pred)
+        t_new, lk0 = _bubble_point(mixture, x, p_kpa, t_pred)
+        slope_t = (t_new - t) / (target - pct[-1])
+        t = t_new
         pct.append(float(target))
         temps.append(t)
     return pd.DataFrame({"evaporated_vol_pct": pct, "t_k": temps})
+
+
+def _newton_bubble_point(mixture: Mixture, x: np.ndarray, p_kpa: float, t_guess_k: float
+                         ) -> tuple[float, np.ndarray]:
+    """One Newton step of :func:`_bubble_point` from ``t_guess_k``: (T, ln K at T) with γ
+    kept at ``t_guess_k`` (one evaluation of γ). For the predictor of a distillation step,
+    whose guess is extrapolated from the last steps (within about 0.1 K)."""
+    ln_p = np.log(p_kpa)
+    lg = mixture.ln_gamma_of(x)(t_guess_k)
+    lps, slope = mixture.psat.ln_psat_slope(t_guess_k)
+    live = x > 0
+    lx = np.log(np.where(live, x, 1.0))
+    lk = lg + lps - ln_p
+    f0 = _log_sum(lx, lk, live)
+    y = np.exp(np.where(live, lx + lk - f0, -np.inf))
+    d = float(y @ slope)
+    if not (np.isfinite(d) and d < 0):
+        return _bubble_point(mixture, x, p_kpa, t_guess_k)
+    t = 1.0 / min(max(1.0 / t_guess_k - f0 / d, 1.0 / 1500.0), 1.0 / 100.0)
+    return t, lg + mixture.psat.ln_psat(t) - ln_p
 
 
 def tbp_to_d86_k(evaporated_vol_pct, t_tbp_k) -> np.ndarray:
@@ -681,7 +719,7 @@ def _unidentified_psat_spread_kpa(composition: pd.DataFrame, library) -> float:
         return 0.0
     ranges = _psat_ranges(library)
     total = 0.0
-    for n, mol_pct in zip(unid["carbon_number"], unid["mol_pct"]):
+    for n, mol_pct in zip(unid["carbon_number"].tolist(), unid["mol_pct"].tolist()):
         spread = ranges.get(n)
         if spread is not None:
             total += mol_pct / 100.0 * spread / np.sqrt(12.0)

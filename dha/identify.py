@@ -576,7 +576,9 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     pool_mask = np.array([n not in used for n in lib_names], dtype=bool)
     # a known co-eluting pair is one entry (its first member, spanning both indices): the
     # co-elution step then gives the partner its share
-    partners = _coelution_partners(library, used)
+    # a pair with a member the lab learnt on its own column is matched member by member: the
+    # learnt index says where that member elutes there, the pair is a fact of the estimates
+    partners = _coelution_partners(library, used | set(lib_names[lib_kind == "learnt"]))
     pool_mask &= ~lib["name"].isin(list(partners.values())).to_numpy()
     if float(s.get("other_oxygenate_odds", 1.0)) == 0.0:
         # the lab excludes the oxygenates it does not expect (a named peak still matches)
@@ -613,15 +615,22 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         sigma = float(s.get("ri_sigma", 0.0) or 0.0) or tol / 2.0
         share_todo = 100.0 * size[todo] / max(float(size.sum()), 1e-300)
         with_prior = float(s.get("group_prior", 1.0)) != 0
-        caps = dict(peak_share=share_todo, lib_cap=share_caps(library, lib_names[pool]),
+        caps = dict(peak_share=share_todo, lib_cap=share_caps(library, lib_names[pool], s),
                     cap_penalty=CAP_PENALTY if with_prior else 0.0,
                     peak_bonus=_size_odds(share_todo) if with_prior else None)
         s_hat, end = float("nan"), 0.0
         if s.get("adapt_tolerance", True) and len(todo) >= 8:
             # the run's own spread and drift (:func:`_index_model`), then one alignment
-            shift, s_hat, end = _index_model(peak_ri[todo], rt[todo], size[todo], pool_lo,
-                                             pool_hi, bonus * MODEL_PRIOR_SCALE,
-                                             sd0=sigma, **caps)
+            tau = _offset_spread(library, lib_names[pool], lib_kind[pool])
+            shift, s_hat, end = _index_model(
+                peak_ri[todo], rt[todo], size[todo], pool_lo, pool_hi,
+                bonus * MODEL_PRIOR_SCALE, sd0=sigma, estimated=lib_kind[pool] != "learnt",
+                tau=tau, **caps)
+            if np.isfinite(s_hat) and tau > 0:
+                # estimated entries are wider than the learnt ones by the column's offsets
+                caps["lib_sd_ratio"] = np.where(lib_kind[pool] != "learnt",
+                                                np.sqrt(1.0 + (tau / s_hat) ** 2), 1.0)
+                log.info("estimated indices: extra spread %.1f beside the learnt ones", tau)
             if np.isfinite(s_hat):
                 sigma = s_hat
                 tol = float(np.clip(3.0 * s_hat, 0.5 * tol, 2.0 * tol))
@@ -645,8 +654,6 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         big = size[todo[got]] >= np.median(size[todo[got]]) if got.any() else got[got]
         s_run = 1.4826 * float(np.median(d_got[big])) if big.any() else sigma
         sigma_c = float(np.clip(s_run, 0.25, sigma)) if np.isfinite(s_run) else sigma
-        if np.isfinite(s_hat):
-            sigma_c = sigma          # the run's spread by the index model: no nearest-entry bias
         c_conf, c_rival = _match_confidence(peak_ri[todo], pool_lo, pool_hi, bonus, assign,
                                             tol, sigma_c, **caps)
         conf[todo] = c_conf
@@ -721,7 +728,8 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     table["confidence"] = conf
     table["rival"] = pd.Series(rival, dtype=object)
     table = _apply_coelution(table, library, warnings,
-                             split_named=bool(s.get("split_named_coelutions", False)))
+                             split_named=bool(s.get("split_named_coelutions", False)),
+                             resolved=set(lib_names[lib_kind == "learnt"]))
     unid = table["match"] == "unidentified"
     if unid.any():
         share = 100.0 * _peak_size(table)[unid.to_numpy()].sum() / max(_peak_size(table).sum(), 1e-300)
@@ -776,7 +784,7 @@ def _size_odds(share_pct: np.ndarray) -> np.ndarray:
     return np.log1p(np.maximum(np.asarray(share_pct, float), 0.0) / UNKNOWN_PEAK_PCT)
 
 
-def share_caps(library: Any, names: np.ndarray) -> np.ndarray:
+def share_caps(library: Any, names: np.ndarray, s: dict[str, Any] | None = None) -> np.ndarray:
     """Largest share of the run's area [%] each entry may plausibly hold (inf = no limit).
 
     A peak is a blend component when it is large; petrol standards limit how much of an
@@ -784,8 +792,10 @@ def share_caps(library: Any, names: np.ndarray) -> np.ndarray:
     its limit is more likely a hydrocarbon blend component at a neighbouring index (e.g.
     diisobutylene, 0.8 units from tert-amyl ethyl ether). Area share stands in for % v/v: an
     oxygenate gives less FID area than its mass, so the limit errs on the lenient side.
-    Hydrocarbons, methanol and ethanol: no limit.
+    Hydrocarbons, methanol and ethanol: no limit; nor the oxygenates the lab lists in
+    ``identify.expected_oxygenates`` (a blending study states what it blended).
     """
+    stated = expected_oxygenates(library, s) if s and s.get("expected_oxygenates") else ()
     comps = library.components
     group = comps["group"].reindex(names).astype(str).to_numpy()
     sub = comps["subgroup"].reindex(names).astype(str).to_numpy() if "subgroup" in comps \
@@ -794,7 +804,7 @@ def share_caps(library: Any, names: np.ndarray) -> np.ndarray:
     oxy = group == "oxygenates"
     for k in np.flatnonzero(oxy):
         nm = names[k]
-        if nm in UNCAPPED_OXYGENATES:
+        if nm in UNCAPPED_OXYGENATES or nm in stated:
             continue
         if sub[k] == "ether":
             cap[k] = EN228_MAX_ETHERS_PCT
@@ -845,8 +855,8 @@ _OXY_DATA_CACHE: dict = {}
 def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarray,
                       bonus: np.ndarray, assign: np.ndarray, tol: float, sigma: float,
                       peak_share: np.ndarray | None = None, lib_cap: np.ndarray | None = None,
-                      cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None
-                      ) -> tuple[np.ndarray, np.ndarray]:
+                      cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None,
+                      lib_sd_ratio: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """(confidence, runner-up position) of each index match.
 
     The posterior probability of the chosen entry against every other entry of the pool within
@@ -863,19 +873,28 @@ def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarra
         return conf, rival
     run_hi = np.maximum.accumulate(lib_hi)
     p = peak_ri[ok]
-    left = np.searchsorted(run_hi, p - tol, side="left")
-    right = np.searchsorted(lib_lo, p + tol, side="right")
+    ratio = None if lib_sd_ratio is None else np.maximum(np.asarray(lib_sd_ratio, float), 1.0)
+    reach = tol * (float(ratio.max()) if ratio is not None and len(ratio) else 1.0)
+    left = np.searchsorted(run_hi, p - reach, side="left")
+    right = np.searchsorted(lib_lo, p + reach, side="right")
     count = np.maximum(right - left, 0)
     offs = np.concatenate([[0], np.cumsum(count)])
     rep = np.repeat(np.arange(len(ok)), count)
     js = left[rep] + (np.arange(offs[-1]) - offs[rep])
     d = np.maximum(np.maximum(lib_lo[js] - p[rep], p[rep] - lib_hi[js]), 0.0)
-    score = (tol * tol - d * d) / (2.0 * sigma * sigma) + bonus[js]
+    if ratio is None:
+        score = (tol * tol - d * d) / (2.0 * sigma * sigma) + bonus[js]
+        inside = d <= tol
+    else:
+        r = ratio[js]
+        score = (tol * tol - (d / r) ** 2) / (2.0 * sigma * sigma) - np.log(r)
+        inside = score >= 0.0
+        score = score + bonus[js]
     if lib_cap is not None and peak_share is not None and cap_penalty:
         score = score - cap_penalty * (peak_share[ok][rep] > lib_cap[js])
     if peak_bonus is not None:
         score = score + peak_bonus[ok][rep]
-    score = np.where(d <= tol, score, -np.inf)
+    score = np.where(inside, score, -np.inf)
     top = np.maximum(np.maximum.reduceat(score, offs[:-1]) if len(score) else 0.0, 0.0)
     ex = np.exp(score - top[rep])
     total = np.bincount(rep, weights=ex, minlength=len(ok)) + np.exp(-top)
@@ -1226,6 +1245,26 @@ DRIFT_LIN = np.arange(-4.0, 4.5, 1.0)
 UNKNOWN_SHARE = 0.1
 #: At most this many peaks (the largest) enter the index model.
 MODEL_PEAKS = 200
+#: Learnt entries needed to measure how far the lab's column lies from the shipped estimates.
+MIN_LEARNT = 5
+
+
+def _offset_spread(library: Any, names: np.ndarray, kinds: np.ndarray) -> float:
+    """How far the lab's column lies from the shipped estimates [index units]: the robust
+    root-mean-square (1.4826 median |d|) of learnt minus shipped index over the learnt entries;
+    0 with fewer than :data:`MIN_LEARNT`. The estimated entries of such a column are that much
+    less certain than the learnt ones (the learnt offsets of one component say nothing about
+    another's: the spread carries over, the offsets do not)."""
+    learnt = [n for n, k in zip(names, kinds) if k == "learnt"]
+    if len(learnt) < MIN_LEARNT:
+        return 0.0
+    from dha.library import load_library
+    shipped = pd.to_numeric(load_library().components["retention_index"], errors="coerce")
+    own = pd.to_numeric(library.components["retention_index"], errors="coerce")
+    d = (own.reindex(learnt) - shipped.reindex(learnt)).dropna().to_numpy(dtype=float)
+    if len(d) < MIN_LEARNT:
+        return 0.0
+    return float(1.4826 * np.median(np.abs(d)))
 #: Width of the prior on the run's spread about the one ``identify.ri_tolerance`` implies
 #: (tolerance / 2), as a sd of ln(s): ln 1.5 (ln 2 and ln 1.5 tried on seeds 2024-2026's
 #: real-fuel runs, common practice, no source). It matters mostly for runs of few peaks.
@@ -1239,7 +1278,8 @@ MODEL_PRIOR_SCALE = 0.5
 def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: np.ndarray,
                  lib_hi: np.ndarray, bonus: np.ndarray, peak_share: np.ndarray | None = None,
                  lib_cap: np.ndarray | None = None, cap_penalty: float = 0.0,
-                 peak_bonus: np.ndarray | None = None, sd0: float = 1.5
+                 peak_bonus: np.ndarray | None = None, sd0: float = 1.5,
+                 estimated: np.ndarray | None = None, tau: float = 0.0
                  ) -> tuple[np.ndarray, float, float]:
     """The run's index spread and slow drift, by maximum marginal likelihood.
 
@@ -1257,6 +1297,10 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
     :data:`MODEL_PEAKS` largest peaks enter, each with the same weight (one dominant peak
     must not set the run's spread). The spread has a log-normal prior about ``sd0`` (the
     lab's window / 2, width :data:`SPREAD_PRIOR_WIDTH`): a run of 20 peaks says little.
+
+    With ``estimated`` (per entry: True for an index that is the shipped estimate, False for
+    one the lab learnt on its column) the estimated entries have the spread
+    ``sqrt(s^2 + tau^2)`` (:func:`_offset_spread`).
 
     Returns (drift at each peak [index units], spread s [index units], drift at the end).
     """
@@ -1280,10 +1324,13 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
     log_known = math.log(1.0 - UNKNOWN_SHARE)
     max_drift = float(np.abs(DRIFT_QUAD).max() + np.abs(DRIFT_LIN).max())
 
+    est = np.zeros(len(lib_lo)) if estimated is None else np.asarray(estimated, float)
+
     def loglik(q: np.ndarray, sd: np.ndarray) -> np.ndarray:
         """Log-likelihood of each peak (columns) for rows of corrected indices q (G, n) at
-        spreads sd (G,): entries within 3.5 sd of each index, and the unknown."""
-        reach = 3.5 * float(sd.max())
+        spreads sd (G,) (estimated entries: sqrt(sd^2 + tau^2)): entries within 3.5 sd of each
+        index, and the unknown."""
+        reach = 3.5 * float(np.sqrt(sd.max() ** 2 + tau ** 2))
         lo_q, hi_q = q.min(axis=0), q.max(axis=0)
         left = np.searchsorted(run_hi, lo_q - reach, side="left")
         right = np.searchsorted(lib_lo, hi_q + reach, side="right")
@@ -1299,7 +1346,7 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
             lp = lp - cap_penalty * (share[rep] > lib_cap[js])
         qq = q[:, rep]
         d = np.maximum(np.maximum(lib_lo[js] - qq, qq - lib_hi[js]), 0.0)
-        sdv = sd[:, None]
+        sdv = np.sqrt(sd[:, None] ** 2 + (tau * tau) * est[js][None, :])
         term = lp - 0.5 * (d / sdv) ** 2 - np.log(sdv * math.sqrt(2 * math.pi))
         mx = np.max(term, axis=1, keepdims=True)
         ex = np.exp(term - mx)
@@ -1482,11 +1529,12 @@ SEARCH_TOL = (2.5, 5.0)
 
 
 def _apply_coelution(table: pd.DataFrame, library: Any, warnings: list[str],
-                     split_named: bool = False) -> pd.DataFrame:
+                     split_named: bool = False, resolved: set | None = None) -> pd.DataFrame:
     """Note known co-elution pairs; split a peak whose partner has no peak of its own.
 
     A peak the export named is split only when ``split_named`` ([identify]
     split_named_coelutions) is true; otherwise the co-elution is noted and warned about.
+    A pair with a member in ``resolved`` (indices the lab learnt on its column) is not split.
     """
     co = getattr(library, "coelution", None)
     if co is None or len(co) == 0:
@@ -1497,6 +1545,8 @@ def _apply_coelution(table: pd.DataFrame, library: Any, warnings: list[str],
     for r in co.itertuples(index=False):
         a, b = getattr(r, "name_a"), getattr(r, "name_b")
         share = float(getattr(r, "share_a"))
+        if resolved and (a in resolved or b in resolved):
+            continue
         if a in present and b in present:
             for x, y in ((a, b), (b, a)):
                 table.at[pos[x], "coelution"] = f"known co-elution with {y}; resolved here"

@@ -617,7 +617,9 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         with_prior = float(s.get("group_prior", 1.0)) != 0
         caps = dict(peak_share=share_todo, lib_cap=share_caps(library, lib_names[pool], s),
                     cap_penalty=CAP_PENALTY if with_prior else 0.0,
-                    peak_bonus=_size_odds(share_todo) if with_prior else None)
+                    peak_bonus=_size_odds(share_todo) if with_prior else None,
+                    lib_size_limit=size_limits(library, lib_names[pool], s),
+                    size_slope=SIZE_SLOPE if with_prior else 0.0)
         s_hat, end = float("nan"), 0.0
         if s.get("adapt_tolerance", True) and len(todo) >= 8:
             # the run's own spread and drift (:func:`_index_model`), then one alignment
@@ -784,6 +786,50 @@ def _size_odds(share_pct: np.ndarray) -> np.ndarray:
     return np.log1p(np.maximum(np.asarray(share_pct, float), 0.0) / UNKNOWN_PEAK_PCT)
 
 
+#: A component is plausible up to SIZE_FACTOR times the largest share real fuels hold of it, and
+#: always up to SIZE_FLOOR_PCT of the area; beyond, each e-fold costs SIZE_SLOPE log odds
+#: (common practice, no source: set beforehand, not tuned).
+SIZE_FACTOR = 3.0
+SIZE_FLOOR_PCT = 5.0
+SIZE_SLOPE = 2.0
+
+
+def size_limits(library: Any, names: np.ndarray, s: dict[str, Any] | None = None) -> np.ndarray:
+    """Share of the area [%] up to which each entry is a plausible peak size.
+
+    ``max(SIZE_FACTOR x the largest mass share any fuel of the prior data holds of it,
+    SIZE_FLOOR_PCT)`` (:mod:`dha.fuel_data`, ``identify.prior_exclude_families`` left out);
+    no limit for methanol, ethanol and the oxygenates the lab lists in
+    ``identify.expected_oxygenates``. A 30 % peak is rarely a component real petrol holds at
+    1 %: a blend component (prenol a lab blended, diisobutylene) is likelier. The alignment
+    takes ``SIZE_SLOPE ln(share / limit)`` off a larger peak's match.
+    """
+    s = s or {}
+    exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
+    stated = tuple(sorted(expected_oxygenates(library, s))) if s.get("expected_oxygenates") \
+        else ()
+    key = (id(library), getattr(library, "sha256", None), exclude, stated)
+    hit = _SIZE_CACHE.get(key)
+    if hit is None:
+        from dha.fuel_data import real_fuels
+        f = real_fuels(library)
+        f = f[f["component"].notna() & ~f["family"].isin(list(exclude))]
+        top = f.groupby(["mixture_id", "component"])["mass_pct"].sum().groupby("component").max()
+        lim = np.maximum(SIZE_FACTOR * top.reindex(library.components.index).fillna(0.0),
+                         SIZE_FLOOR_PCT)
+        for n in UNCAPPED_OXYGENATES + stated:
+            if n in lim.index:
+                lim[n] = np.inf
+        hit = lim
+        if len(_SIZE_CACHE) > 16:
+            _SIZE_CACHE.clear()
+        _SIZE_CACHE[key] = hit
+    return hit.reindex(pd.Index(names, dtype=object)).fillna(SIZE_FLOOR_PCT).to_numpy(dtype=float)
+
+
+_SIZE_CACHE: dict = {}
+
+
 def share_caps(library: Any, names: np.ndarray, s: dict[str, Any] | None = None) -> np.ndarray:
     """Largest share of the run's area [%] each entry may plausibly hold (inf = no limit).
 
@@ -856,7 +902,9 @@ def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarra
                       bonus: np.ndarray, assign: np.ndarray, tol: float, sigma: float,
                       peak_share: np.ndarray | None = None, lib_cap: np.ndarray | None = None,
                       cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None,
-                      lib_sd_ratio: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+                      lib_sd_ratio: np.ndarray | None = None,
+                      lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0
+                      ) -> tuple[np.ndarray, np.ndarray]:
     """(confidence, runner-up position) of each index match.
 
     The posterior probability of the chosen entry against every other entry of the pool within
@@ -894,6 +942,12 @@ def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarra
         score = score - cap_penalty * (peak_share[ok][rep] > lib_cap[js])
     if peak_bonus is not None:
         score = score + peak_bonus[ok][rep]
+    if lib_size_limit is not None and peak_share is not None and size_slope and len(js):
+        pen = size_slope * np.log(np.maximum(peak_share[ok][rep] / lib_size_limit[js], 1.0))
+        nzc = count > 0
+        low = np.zeros(len(ok))
+        low[nzc] = np.minimum.reduceat(pen, offs[:-1][nzc])
+        score = score - (pen - low[rep])
     score = np.where(inside, score, -np.inf)
     top = np.maximum(np.maximum.reduceat(score, offs[:-1]) if len(score) else 0.0, 0.0)
     ex = np.exp(score - top[rep])
@@ -1279,7 +1333,8 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
                  lib_hi: np.ndarray, bonus: np.ndarray, peak_share: np.ndarray | None = None,
                  lib_cap: np.ndarray | None = None, cap_penalty: float = 0.0,
                  peak_bonus: np.ndarray | None = None, sd0: float = 1.5,
-                 estimated: np.ndarray | None = None, tau: float = 0.0
+                 estimated: np.ndarray | None = None, tau: float = 0.0,
+                 lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0
                  ) -> tuple[np.ndarray, float, float]:
     """The run's index spread and slow drift, by maximum marginal likelihood.
 
@@ -1344,6 +1399,11 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
         lp = logpi[js]
         if lib_cap is not None and share is not None and cap_penalty:
             lp = lp - cap_penalty * (share[rep] > lib_cap[js])
+        if lib_size_limit is not None and share is not None and size_slope:
+            pen = size_slope * np.log(np.maximum(share[rep] / lib_size_limit[js], 1.0))
+            low = np.zeros(len(p))
+            low[count > 0] = np.minimum.reduceat(pen, offs[:-1][count > 0])
+            lp = lp - (pen - low[rep])
         qq = q[:, rep]
         d = np.maximum(np.maximum(lib_lo[js] - qq, qq - lib_hi[js]), 0.0)
         sdv = np.sqrt(sd[:, None] ** 2 + (tau * tau) * est[js][None, :])

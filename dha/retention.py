@@ -306,7 +306,9 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
                   lib_bonus: np.ndarray | None = None, sigma: float | None = None,
                   peak_share: np.ndarray | None = None, lib_cap: np.ndarray | None = None,
                   cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None,
-                  lib_sd_ratio: np.ndarray | None = None) -> tuple[np.ndarray, float]:
+                  lib_sd_ratio: np.ndarray | None = None,
+                  lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0
+                  ) -> tuple[np.ndarray, float]:
     """Order-preserving one-to-one assignment of peaks to library entries by their indices.
 
     Parameters
@@ -342,6 +344,11 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         other entries the lab learnt): the gain becomes the log-likelihood ratio of that wider
         Gaussian, ``kappa (1 - d^2 / (r tol)^2) - ln r``, within the window where it is
         positive. Default 1 for all.
+    lib_size_limit, size_slope : ndarray (C,), float, optional
+        The share of the area [%] up to which each entry is plausible (e.g. a few times the
+        largest share real fuels hold of it): a larger peak loses ``size_slope * ln(share /
+        limit)`` on that entry, less the least such loss among the peak's candidates (the size
+        ranks the candidates; needs ``peak_share``).
 
     Returns
     -------
@@ -405,6 +412,15 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         g_all = g_all - cap_penalty * over
     if peak_bonus is not None:
         g_all = g_all + np.asarray(peak_bonus, float)[rep]
+    if lib_size_limit is not None and peak_share is not None and size_slope and len(js_all):
+        pen = size_slope * np.log(np.maximum(
+            np.asarray(peak_share, float)[rep] / np.asarray(lib_size_limit, float)[js_all], 1.0))
+        # relative to the peak's most plausible candidate: the size ranks the candidates, it
+        # does not make the peak an unknown
+        nz = count > 0
+        low = np.zeros(n_p)
+        low[nz] = np.minimum.reduceat(pen, offs[:-1][nz])
+        g_all = g_all - (pen - low[rep])
     g_all = np.where(inside, w[rep] * g_all, -np.inf)
     g_rows = np.empty((n_p + 1, n_c + 1))
     g_rows[0] = 0.0

@@ -639,3 +639,23 @@ def test_learnt_overlay_carries_its_spread_to_a_different_fuel(lib, tmp_path):
     # measured: learnt 0.867 (0.767-0.989), plain 0.827 (0.682-0.943) over the 12 runs; issue
     # 13's >= 0.95 is NOT met: an offset of one component says nothing of another's
     assert np.mean(learnt) >= np.mean(plain) + 0.02, (learnt, plain)
+
+
+def test_a_stated_blend_component_is_found_and_an_unstated_one_is_flagged(lib):
+    # Issue 13 on the data's blending study: RBOB5 + 40 % v/v prenol (3-methyl-2-buten-1-ol,
+    # index 767.1, beside 4-methylheptane at 768.0, which real petrol holds at about 1 %).
+    # Held out, the prior cannot know prenol. A lab that states it (expected_oxygenates) gets
+    # it: stated oxygenates have no share limit, and a 40 % peak is implausible for a component
+    # real fuels hold at <= 1/3 of that (identify.size_limits). Unstated, the run is not passed.
+    from dha.synthetic import lab_standard, real_fuel_run
+    peaks, truth = real_fuel_run(lib, "KUZ-0497", seed=4242, index_noise_sd=0.5)
+    base = dict(markers=lab_standard(), prior_exclude_families=["RBOB5"])
+    stated = identify(peaks, lib, _settings(expected_oxygenates=["prenol"], **base))
+    main = truth.loc[truth["mass_pct"].idxmax()]
+    assert main["component"] == "3-methyl-2-buten-1-ol"
+    got = stated.loc[stated["row"] == main["row"], "component"].tolist()
+    assert got == ["3-methyl-2-buten-1-ol"], got
+    assert identification_accuracy(stated, truth) >= 0.9
+    plain = identify(peaks, lib, _settings(**base))
+    if identification_accuracy(plain, truth) < 0.9:
+        assert plain.attrs["quality"]["verdict"] != "pass"

@@ -26,7 +26,8 @@ input, library, settings and tool version is *up to date* and not processed agai
 (``--overwrite`` forces). Every file is written to a hidden temporary file in its folder and
 renamed into place, JSON last: a batch killed at any moment leaves no half-written file under
 a result's name, and the next run picks up where it stopped. The summary is built from every
-result in the output folder, not only from this invocation.
+result in the output folder, not only from this invocation, and from the inputs an earlier
+batch could not process (kept in ``dha-batch.json`` until processed or gone).
 
 Flags per run: every specification check that failed or is marginal
 (``benzene_vol_pct>1.0``, ``~ron<95.0`` for marginal; ``~e70_vol_pct(22..50)`` when the
@@ -234,6 +235,26 @@ def write_record(out_dir: Path, root: Path) -> None:
         atomic_write_text(out_dir / BATCH_RECORD, json.dumps(
             {"input_root": str(root), "note": "input root of the first batch into this "
              "folder; later batches mirror inputs under it the same way"}, indent=2) + "\n")
+
+
+def record_not_processed(out_dir: Path, failed: dict[str, str], done: set[str]) -> dict[str, str]:
+    """Keep the inputs that could not be processed in the folder's record; return them all.
+
+    ``failed`` ({input path below the root: message}) are added; ``done`` (inputs processed or
+    up to date in this batch) and inputs that no longer exist are removed. A failed input
+    leaves no result file, so without this a later batch that does not name it again would
+    drop its "not processed" row from the summary. (Two batches writing into one folder at
+    once: the last one's record is kept.)
+    """
+    rec = _read_record(out_dir)
+    root = Path(str(rec.get("input_root") or "."))
+    known = {str(k): str(v) for k, v in (rec.get("not_processed") or {}).items()}
+    now = {k: v for k, v in known.items() if k not in done and (root / k).exists()}
+    now.update(failed)
+    if now != known and rec:
+        rec["not_processed"] = dict(sorted(now.items()))
+        atomic_write_text(out_dir / BATCH_RECORD, json.dumps(rec, indent=2) + "\n")
+    return now
 
 
 # --------------------------------------------------------------------------------------------
@@ -529,11 +550,18 @@ def run_batch(files: list[Path], out_dir: Path, settings: dict, *, spec: str | N
         if on_result is not None:
             on_result(outcome)
 
+    failed: dict[str, str] = {}
+    done: set[str] = set()
+
     def collect(outcomes: list[dict]) -> None:
         for o in outcomes:
             rows.append((o["order"], o["row"]))
             if o["path"]:
                 seen_paths.add(o["path"])
+            if o["row"].get("status") == NOT_PROCESSED:
+                failed[str(o["row"].get("input"))] = str(o["row"].get("error"))
+            else:
+                done.add(str(o["row"].get("input")))
             record(o)
         if progress:
             progress(1)
@@ -550,6 +578,12 @@ def run_batch(files: list[Path], out_dir: Path, settings: dict, *, spec: str | N
         for outcome in earlier_rows(out_dir, seen_paths, job):
             rows.append((outcome["order"], outcome["row"]))
             record(outcome)
+        named = {t.rel for t in plan.tasks}
+        for rel, message in record_not_processed(out_dir, failed, done).items():
+            if rel not in named:        # failed in an earlier batch, not named this time
+                row = {"input": rel, "status": NOT_PROCESSED, "this_batch": EARLIER,
+                       "error": message}
+                rows.append(((rel, 0), row))
     finally:
         if recorder is not None:
             recorder.close()

@@ -218,6 +218,43 @@ def test_late_run_rerun_skips_what_is_up_to_date(tmp_path, quick):
     assert "3 processed now, 0 up to date" in r.output
 
 
+def test_a_failed_input_stays_in_the_summary_until_it_is_processed(tmp_path, quick):
+    # A failed input writes no result: the folder's record keeps it, so a later batch that
+    # names only a late run still lists it as not processed (exit 0: nothing failed now).
+    src = tmp_path / "day"
+    src.mkdir()
+    (src / "broken.csv").write_text("this is not a peak table\n")
+    shutil.copy(COMP, src / "a.csv")
+    out = tmp_path / "out"
+    r = CliRunner().invoke(cli, ["batch", str(src), "-o", str(out), "--jobs", "1"] + quick)
+    assert r.exit_code == 1, r.output
+    shutil.copy(COMP, src / "late.csv")
+    r = CliRunner().invoke(cli, ["batch", str(src / "late.csv"), "-o", str(out), "--jobs", "1"]
+                           + quick)
+    assert r.exit_code == 0, r.output
+    assert "not processed (earlier batch): broken.csv" in r.output
+    summary = pd.read_csv(out / "summary.csv")
+    assert list(summary["input"]) == ["a.csv", "broken.csv", "late.csv"]
+    assert list(summary["status"])[1] == batch.NOT_PROCESSED
+    assert list(summary["this_batch"]) == [batch.EARLIER, batch.EARLIER, batch.DONE_NOW]
+    # fixed and run again: processed, and the record forgets the failure
+    shutil.copy(COMP, src / "broken.csv")
+    r = CliRunner().invoke(cli, ["batch", str(src / "broken.csv"), "-o", str(out), "--jobs",
+                                 "1"] + quick)
+    assert r.exit_code == 0, r.output
+    summary = pd.read_csv(out / "summary.csv")
+    assert batch.NOT_PROCESSED not in set(summary["status"])
+    assert not json.loads((out / batch.BATCH_RECORD).read_text()).get("not_processed")
+    # an input that failed and was then deleted is dropped from the record
+    (src / "gone.csv").write_text("not a table either\n")
+    CliRunner().invoke(cli, ["batch", str(src / "gone.csv"), "-o", str(out), "--jobs", "1"]
+                       + quick)
+    (src / "gone.csv").unlink()
+    r = CliRunner().invoke(cli, ["batch", str(src / "late.csv"), "-o", str(out), "--jobs", "1"]
+                           + quick)
+    assert r.exit_code == 0 and "gone.csv" not in r.output, r.output
+
+
 def test_changed_settings_make_results_out_of_date(tmp_path, quick):
     shutil.copy(COMP, tmp_path / "a.csv")
     out = tmp_path / "out"

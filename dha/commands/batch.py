@@ -75,11 +75,12 @@ def batch_command(paths, out_dir, jobs, spec, formats, recursive, engine, schedu
                f"{counts['up_to_date']} up to date, {counts['earlier']} from earlier batches, "
                f"{counts['failed']} not processed; {len(flagged)} flagged")
     for _, row in failed.iterrows():
-        click.echo(terminal_text(f"  not processed: {row['input']}: {row['error']}"))
+        when = " (earlier batch)" if row["this_batch"] == batch.EARLIER else ""
+        click.echo(terminal_text(f"  not processed{when}: {row['input']}: {row['error']}"))
     for _, row in flagged.iterrows():
         click.echo(terminal_text(f"  flagged: {row['input']} {row['sample_id']}: {row['flags']}"))
     click.echo(terminal_text(f"summary: {', '.join(str(p) for p in written[:2])}"))
-    if len(failed):
+    if (failed["this_batch"] != batch.EARLIER).any():    # exit 1 for this batch's failures only
         raise SystemExit(1)
 
 

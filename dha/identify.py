@@ -572,6 +572,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     rival = np.full(len(table), None, dtype=object)
     large_rare: list[int] = []
     index_drift = 0.0
+    drift_max = 0.0
     used = {c for c in comp if c is not None}
     pool_mask = np.array([n not in used for n in lib_names], dtype=bool)
     # a known co-eluting pair is one entry (its first member, spanning both indices): the
@@ -639,6 +640,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
                 tol = float(np.clip(3.0 * s_hat, 0.5 * tol, 2.0 * tol))
                 peak_ri[todo] = peak_ri[todo] - shift
                 index_drift = round(float(end), 3)
+                drift_max = float(np.max(np.abs(shift), initial=0.0))
                 log.info("index window adapted to the run: +-%.2f (sd %.2f)", tol, sigma)
             if abs(end) >= 0.5 and np.isfinite(s_hat):
                 warnings.append(
@@ -761,10 +763,22 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             f"({shown}); it may be a blend component the library or the prior data lack")
         if quality["verdict"] == "pass":
             quality["verdict"] = "marginal"
+    if drift_max >= DRIFT_FLAG:
+        quality["reasons"].append(
+            f"the retention indices needed a drift correction of up to {drift_max:.1f} index "
+            "units to fit the library: the n-alkane markers do not match this run's times "
+            "well; run the alkane standard again or give the markers of this run")
+        if quality["verdict"] == "pass":
+            quality["verdict"] = "marginal"
     table.attrs = {"warnings": warnings, "markers": markers, "unknown_names": unknown_names,
                    "ri_tolerance": tol, "quality": quality, "index_drift": index_drift}
     return table
 
+
+#: A drift correction of at least this many index units anywhere in the run makes the
+#: identification check "marginal" at best: the markers do not fit the run (common practice,
+#: no source; a window of 3 sd is 4.5 units at the default tolerance).
+DRIFT_FLAG = 2.0
 
 #: A peak above this share of the area [%] matched by index to a component whose mean share
 #: in the prior data is below 1/RARE_FACTOR of it gets confidence 0.5 at most (common

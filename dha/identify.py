@@ -620,11 +620,12 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
                     peak_bonus=_size_odds(share_todo) if with_prior else None,
                     lib_size_limit=size_limits(library, lib_names[pool], s),
                     size_slope=SIZE_SLOPE if with_prior else 0.0)
-        s_hat, end = float("nan"), 0.0
+        s_hat, end, spread_post = float("nan"), 0.0, None
+        tol_set = tol
         if s.get("adapt_tolerance", True) and len(todo) >= 8:
             # the run's own spread and drift (:func:`_index_model`), then one alignment
             tau = _offset_spread(library, lib_names[pool], lib_kind[pool])
-            shift, s_hat, end = _index_model(
+            shift, s_hat, end, spread_post = _index_model(
                 peak_ri[todo], rt[todo], size[todo], pool_lo, pool_hi,
                 bonus * MODEL_PRIOR_SCALE, sd0=sigma, estimated=lib_kind[pool] != "learnt",
                 tau=tau, **caps)
@@ -658,6 +659,18 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         sigma_c = float(np.clip(s_run, 0.25, sigma)) if np.isfinite(s_run) else sigma
         c_conf, c_rival = _match_confidence(peak_ri[todo], pool_lo, pool_hi, bonus, assign,
                                             tol, sigma_c, **caps)
+        if spread_post is not None:
+            # the run's spread is known only roughly (tens of peaks): average the confidence
+            # over its posterior (spread grid points holding 99 % of it)
+            grid_s, wts = spread_post
+            keep = wts >= 0.01 * wts.max()
+            acc = np.zeros(len(todo))
+            for sd_k, w_k in zip(grid_s[keep], wts[keep] / wts[keep].sum()):
+                tol_k = float(np.clip(3.0 * sd_k, 0.5 * tol_set, 2.0 * tol_set))
+                c_k, _ = _match_confidence(peak_ri[todo], pool_lo, pool_hi, bonus, assign,
+                                           tol_k, float(sd_k), **caps)
+                acc += w_k * np.nan_to_num(c_k, nan=0.0)
+            c_conf = np.where(np.isnan(c_conf), np.nan, acc)
         conf[todo] = c_conf
         if float(s.get("group_prior", 1.0)) != 0 and got.any():
             # a large peak on a component that real fuels hold only in traces: the prior that
@@ -1357,14 +1370,15 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
     one the lab learnt on its column) the estimated entries have the spread
     ``sqrt(s^2 + tau^2)`` (:func:`_offset_spread`).
 
-    Returns (drift at each peak [index units], spread s [index units], drift at the end).
+    Returns (drift at each peak [index units], spread s [index units], drift at the end,
+    (spread grid, posterior weights) at that drift or None).
     """
     ok = np.flatnonzero(np.isfinite(peak_ri))
     if len(ok) > MODEL_PEAKS:
         ok = ok[np.argsort(-size[ok], kind="stable")[:MODEL_PEAKS]]
     zero = np.zeros(len(peak_ri))
     if len(ok) < 8 or len(lib_lo) == 0:
-        return zero, float("nan"), 0.0
+        return zero, float("nan"), 0.0, None
     p = peak_ri[ok]
     t_end = float(np.nanmax(rt)) if np.isfinite(rt).any() else 1.0
     x = np.clip(rt[ok] / max(t_end, 1e-9), 0.0, 1.0)
@@ -1449,11 +1463,15 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
         k = int(np.argmax(curve_ll(AA, BB)))
         return float(AA[k]), float(BB[k])
 
+    post: dict = {}
+
     def best_spread(A: float, B: float) -> tuple[float, float]:
         """Spread of the highest posterior at drift (A, B), and that log posterior."""
         q = np.repeat((p - (A * x ** 2 + B * x))[None, :], len(sds), axis=0)
         ll = loglik(q, sds).sum(axis=1) + log_prior_sd
         k = int(np.argmax(ll))
+        wts = np.exp(ll - ll[k])
+        post[(A, B)] = (sds.copy(), wts / wts.sum())
         return float(sds[k]), float(ll[k])
 
     # drift at the expected spread (coarse grid, then quarters; refitting it at a smaller
@@ -1470,7 +1488,7 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
         s_hat = s_0
     xa = np.clip(rt / max(t_end, 1e-9), 0.0, 1.0)
     shift = np.where(np.isfinite(xa), A * xa ** 2 + B * xa, 0.0)
-    return shift, s_hat, A + B
+    return shift, s_hat, A + B, post.get((A, B))
 
 
 def _mark_alkanes(table: pd.DataFrame, markers: dict[int, float], n_alkanes: dict[int, str],

@@ -666,7 +666,8 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             keep = wts >= 0.01 * wts.max()
             acc = np.zeros(len(todo))
             for sd_k, w_k in zip(grid_s[keep], wts[keep] / wts[keep].sum()):
-                tol_k = float(np.clip(3.0 * sd_k, 0.5 * tol_set, 2.0 * tol_set))
+                # at least the alignment's window: every match keeps its own entry
+                tol_k = max(float(np.clip(3.0 * sd_k, 0.5 * tol_set, 2.0 * tol_set)), tol)
                 c_k, _ = _match_confidence(peak_ri[todo], pool_lo, pool_hi, bonus, assign,
                                            tol_k, float(sd_k), **caps)
                 acc += w_k * np.nan_to_num(c_k, nan=0.0)
@@ -962,7 +963,10 @@ def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarra
         low[nzc] = np.minimum.reduceat(pen, offs[:-1][nzc])
         score = score - (pen - low[rep])
     score = np.where(inside, score, -np.inf)
-    top = np.maximum(np.maximum.reduceat(score, offs[:-1]) if len(score) else 0.0, 0.0)
+    top = np.zeros(len(ok))
+    has = count > 0
+    if len(score) and has.any():
+        top[has] = np.maximum(np.maximum.reduceat(score, offs[:-1][has]), 0.0)
     ex = np.exp(score - top[rep])
     total = np.bincount(rep, weights=ex, minlength=len(ok)) + np.exp(-top)
     chosen = assign[ok]
@@ -1438,7 +1442,7 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
     log_prior_sd = -0.5 * (np.log(sds / sd0) / SPREAD_PRIOR_WIDTH) ** 2
     # each peak's log-likelihood at sd0 on a grid of constant shifts (one computation), then
     # any drift curve by interpolation in it
-    step = 0.25
+    step = min(0.5, sd0 / 3.0)                 # the table is smooth on the scale of sd0
     grid = np.arange(-max_drift, max_drift + step / 2, step)
     table_ll = loglik(p[None, :] - grid[:, None], np.full(len(grid), sd0))     # (shifts, n)
     cols = np.arange(len(p))

@@ -659,3 +659,13 @@ def test_a_stated_blend_component_is_found_and_an_unstated_one_is_flagged(lib):
     plain = identify(peaks, lib, _settings(**base))
     if identification_accuracy(plain, truth) < 0.9:
         assert plain.attrs["quality"]["verdict"] != "pass"
+
+
+def test_match_confidence_survives_a_peak_with_no_entry_in_its_window():
+    # The last matched peak's window (+-0.5) holds no entry: the confidence is 0 for it, not an
+    # IndexError from the grouped maximum (seen in the benchmark with a narrow spread).
+    from dha.identify import _match_confidence
+    lib_ri = np.array([500.0, 510.0])
+    conf, rival = _match_confidence(np.array([500.1, 512.0]), lib_ri, lib_ri, np.zeros(2),
+                                    np.array([0, 1]), 0.5, 0.25)
+    assert conf[0] > 0.8 and conf[1] == 0.0

@@ -346,3 +346,18 @@ def test_help_imports_no_command_module():
             "print(sorted(m for m in sys.modules if m == 'pandas' or m.startswith('dha.commands.')))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "[]", out.stdout
+
+
+def test_screen_lists_at_most_a_screenful_of_flagged_runs(tmp_path, monkeypatch):
+    # 1,000 flagged runs printed one line each would bury the summary lines: 20, then a count
+    rows = [{"input": f"r{i:03d}.csv", "sample_id": f"S{i}", "status": batch.PASSES,
+             "this_batch": batch.DONE_NOW, "flags": "~ron<95"} for i in range(25)]
+    table = pd.DataFrame(rows).reindex(columns=batch.SUMMARY_COLUMNS)
+    table.attrs["counts"] = {"processed": 25, "up_to_date": 0, "earlier": 0, "failed": 0}
+    monkeypatch.setattr(batch, "run_batch", lambda *a, **k: table)
+    monkeypatch.setattr(batch, "write_summary", lambda *a, **k: [])
+    shutil.copy(COMP, tmp_path / "a.csv")
+    r = CliRunner().invoke(cli, ["batch", str(tmp_path / "a.csv"), "-o", str(tmp_path / "o")])
+    assert r.exit_code == 0, r.output
+    assert r.output.count("  flagged: ") == 20
+    assert "... and 5 more flagged runs" in r.output

@@ -77,8 +77,12 @@ def batch_command(paths, out_dir, jobs, spec, formats, recursive, engine, schedu
     for _, row in failed.iterrows():
         when = " (earlier batch)" if row["this_batch"] == batch.EARLIER else ""
         click.echo(terminal_text(f"  not processed{when}: {row['input']}: {row['error']}"))
-    for _, row in flagged.iterrows():
+    shown = 20      # a screenful: every flag is in summary.csv / summary.xlsx
+    for _, row in flagged.head(shown).iterrows():
         click.echo(terminal_text(f"  flagged: {row['input']} {row['sample_id']}: {row['flags']}"))
+    if len(flagged) > shown:
+        click.echo(f"  ... and {len(flagged) - shown} more flagged runs: see the flags column "
+                   "of the summary")
     click.echo(terminal_text(f"summary: {', '.join(str(p) for p in written[:2])}"))
     if (failed["this_batch"] != batch.EARLIER).any():    # exit 1 for this batch's failures only
         raise SystemExit(1)

@@ -184,32 +184,96 @@ def merge_identical(inputs: pd.DataFrame) -> tuple[pd.DataFrame, np.ndarray]:
     return merged, code
 
 
+def _perturbed_rows(xm: np.ndarray, a: int, b: int) -> np.ndarray:
+    """Rows ``a:b`` of the matrix [x; (x + STEP e_1)/(1 + STEP); ...; (x + STEP e_n)/(1 + STEP)],
+    made block by block (the whole matrix is never held)."""
+    block = np.tile(xm, (b - a, 1))
+    r = np.arange(max(a, 1), b)
+    block[r - a, r - 1] += STEP
+    block[r - a] /= 1.0 + STEP
+    return block
+
+
+def _perturbed_predictions(inputs: pd.DataFrame, xm: np.ndarray, model: str, params
+                           ) -> dict[str, np.ndarray]:
+    """Uncalibrated RON/MON of every row of the perturbed matrix of ``xm`` (n + 1 rows), in
+    blocks of at most :data:`CHUNK_ELEMENTS` elements through ``octane.predict_many``."""
+    n = len(xm)
+    size = max(1, CHUNK_ELEMENTS // max(n, 1))
+    parts = [_batched(inputs, _perturbed_rows(xm, a, min(a + size, n + 1)), model, params)
+             for a in range(0, n + 1, size)]
+    return {p: np.concatenate([part[p] for part in parts]) for p in PROPS}
+
+
+def _calibrate_perturbed(inputs: pd.DataFrame, xm: np.ndarray, pred: dict[str, np.ndarray],
+                         settings: dict) -> dict[str, np.ndarray]:
+    """The lab calibration of the settings applied to every row of the perturbed matrix."""
+    cal = _calibration(settings)
+    if not cal:
+        return pred
+    n = len(xm)
+    gv: list = [None] * (n + 1)
+    if cal["kind"] == "groups":
+        groups = inputs["group"].astype(str).to_numpy()
+        names = octane.CALIBRATION_TERMS["groups"][1:]
+        total = xm.sum()
+        tot = np.concatenate([[total], np.full(n, (total + STEP) / (1.0 + STEP))])
+        cols = {}
+        for g in names:
+            part = xm[groups == g].sum()
+            cols[g] = np.concatenate([[part], (part + STEP * (groups == g)) / (1.0 + STEP)]) / tot
+        gv = [{g: float(cols[g][k]) for g in names} for k in range(n + 1)]
+    out = dict(pred)
+    for p in PROPS:
+        entry = cal.get("properties", {}).get(p)
+        if entry:
+            out[p] = np.array([octane.apply_calibration(float(v), entry, cal["kind"], g)
+                               for v, g in zip(pred[p], gv)])
+    return out
+
+
 def blending_values(inputs: pd.DataFrame, settings: dict) -> tuple[dict[str, float],
                                                                     dict[str, np.ndarray]]:
     """(ON of the sample, blending value b_i of every row) for RON and MON (see module notes).
 
-    The derivatives are taken once per distinct model input (:func:`merge_identical`); when
-    the model's value on the merged rows differs from its value on the rows as given (a model
-    in which splitting a component changes the number), once per row.
+    The derivatives are taken once per distinct model input (:func:`merge_identical`) in
+    vectorised blocks (``octane.predict_many``). The model's value for the merged rows must
+    equal ``octane.predict_inputs`` (the model interface) on the rows as given, to 1e-9;
+    otherwise the rows are not merged, and if the vectorised call still differs (or does not
+    exist) ``predict_inputs`` is called once per row.
     """
     x = inputs["vol_frac"].to_numpy(float)
     x = x / x.sum()
-    merged, code = merge_identical(inputs)
-    if len(merged) < len(inputs):
-        # the merged rows must give the model's value of the rows as given
+    model, params = _model_name(settings), octane.load_params()
+    pred = None
+    merged, code = inputs, np.arange(len(inputs))
+    if BATCHED:
         try:
-            model, params = _model_name(settings), octane.load_params()
-            full = _batched(inputs, x[None, :], model, params)
-            part = _batched(merged, np.bincount(code, weights=x)[None, :], model, params)
-            same = all(abs(float(full[p][0]) - float(part[p][0])) <= 1e-9 for p in PROPS)
-        except Exception:  # noqa: BLE001 - no vectorised call: predict_matrix falls back
-            same = False
-        if not same:
-            merged, code = inputs, np.arange(len(inputs))
+            ref = octane.predict_inputs(inputs.assign(vol_frac=x), model, params)
+            candidates = [merge_identical(inputs)]
+            if len(candidates[0][0]) < len(inputs):
+                candidates.append((inputs, np.arange(len(inputs))))
+            for merged, code in candidates:
+                xm = np.bincount(code, weights=x, minlength=len(merged))
+                pred = _perturbed_predictions(merged, xm, model, params)
+                if all(abs(float(ref[p]) - pred[p][0]) <= 1e-9 for p in PROPS):
+                    break
+                pred = None
+            if pred is None:
+                _warn_once("octane contributions: the vectorised model call differs from "
+                           "predict_inputs; calling predict_inputs per row (slower)")
+        except Exception:  # noqa: BLE001 - a different model: fall back to the interface
+            _warn_once("octane contributions: no vectorised model call; calling "
+                       "predict_inputs per row (slower)")
+            pred = None
+    if pred is None:
+        merged, code = inputs, np.arange(len(inputs))
+        rows = _perturbed_rows(x, 0, len(x) + 1)
+        per_row = [octane.predict_inputs(inputs.assign(vol_frac=xr), model, params)
+                   for xr in rows]
+        pred = {p: np.array([float(r[p]) for r in per_row]) for p in PROPS}
     xm = np.bincount(code, weights=x, minlength=len(merged))
-    n = len(xm)
-    rows = np.vstack([xm, (xm[None, :] + STEP * np.eye(n)) / (1.0 + STEP)])
-    pred = predict_matrix(merged, rows, settings)
+    pred = _calibrate_perturbed(merged, xm, pred, settings)
     on = {p: float(pred[p][0]) for p in PROPS}
     b = {}
     for p in PROPS:

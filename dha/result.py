@@ -148,10 +148,10 @@ def _sample(run) -> dict[str, Any]:
 def components_records(comp: pd.DataFrame) -> list[dict[str, Any]]:
     """Rows of the composition table as CONTRACT ``components`` records."""
     keys = COMPONENT_KEYS + tuple(k for k in COMPONENT_EXTRAS if k in comp.columns)
-    records = []
-    for rec in comp.to_dict(orient="records"):
-        records.append({k: rec.get(k) for k in keys})
-    return records
+    n = len(comp)
+    # column by column (tolist gives plain Python values), then one dict per row
+    columns = [comp[k].tolist() if k in comp.columns else [None] * n for k in keys]
+    return [dict(zip(keys, row)) for row in zip(*columns)] if n else []
 
 
 def build_result(run, composition, groups: dict, properties, library, settings: dict, *,
@@ -216,8 +216,94 @@ def build_result(run, composition, groups: dict, properties, library, settings: 
 
 
 def dumps(result: dict[str, Any]) -> str:
-    """The JSON text of a result (UTF-8, 2-space indent, key order kept, no NaN)."""
-    return json.dumps(jsonable(result), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    """The JSON text of a result (UTF-8, 2-space indent, key order kept, no NaN).
+
+    The text of ``json.dumps(jsonable(result), indent=2, ensure_ascii=False)``, made in one
+    pass (values made JSON-safe as they are written; tests/test_result.py checks the two
+    agree byte for byte).
+    """
+    out: list[str] = []
+    _write(result, "\n", out)
+    out.append("\n")
+    return "".join(out)
+
+
+def _float_text(x: float) -> str:
+    """JSON text of ``jsonable(x)`` for a float: ``repr`` of ``x`` rounded to FLOAT_DIGITS
+    significant digits, written from the rounded digits directly (no parse and re-print).
+
+    >>> [_float_text(v) for v in (1/3, 100.0, 1234567890.4, 2.5e-7, -0.0, float("nan"))]
+    ['0.333333333', '100.0', '1234567890.0', '2.5e-07', '0.0', 'null']
+    """
+    if x != x or x in (math.inf, -math.inf):
+        return "null"
+    if x == 0.0:
+        return "0.0"
+    text = f"{x:.{FLOAT_DIGITS}g}"
+    if "e" not in text:                       # positional in both notations
+        return text if "." in text else text + ".0"
+    mantissa, _, exponent = text.partition("e")
+    e = int(exponent)
+    if e < -300:                              # subnormal: digits need not round-trip
+        return float.__repr__(float(text))
+    if e < FLOAT_DIGITS or e >= 16:           # repr keeps the exponent here as well
+        return text
+    # 10**9 <= |x| < 10**16: repr writes it positionally, e.g. 1.23456789e+09 -> 1234567890.0
+    sign = "-" if mantissa.startswith("-") else ""
+    digits = mantissa.lstrip("-").replace(".", "")
+    return sign + digits + "0" * (e + 1 - len(digits)) + ".0"
+
+
+_encode_str = json.encoder.encode_basestring   # the C version when available, as json uses
+
+
+def _write(value: Any, newline: str, out: list[str]) -> None:
+    """Append the indented JSON text of ``jsonable(value)``; ``newline`` = "\n" plus the
+    current indentation."""
+    kind = type(value)
+    if kind is str:
+        out.append(_encode_str(value))
+    elif kind is float:
+        out.append(_float_text(value))
+    elif value is None:
+        out.append("null")
+    elif kind is bool:
+        out.append("true" if value else "false")
+    elif kind is int:
+        out.append(int.__repr__(value))
+    elif kind is dict:
+        if not value:
+            out.append("{}")
+            return
+        inner = newline + "  "
+        sep = "{" + inner
+        for k, v in value.items():
+            out.append(sep)
+            out.append(_encode_str(k if type(k) is str else str(k)))
+            out.append(": ")
+            _write(v, inner, out)
+            sep = "," + inner
+        out.append(newline + "}")
+    elif kind is list:
+        if not value:
+            out.append("[]")
+            return
+        inner = newline + "  "
+        sep = "[" + inner
+        for v in value:
+            out.append(sep)
+            _write(v, inner, out)
+            sep = "," + inner
+        out.append(newline + "]")
+    else:
+        plain = jsonable(value)             # numpy, pandas, dates, paths, subclasses
+        if isinstance(plain, str):
+            out.append(_encode_str(plain))
+        elif isinstance(plain, (dict, list)) or type(plain) in (float, int, bool) \
+                or plain is None:
+            _write(plain, newline, out)
+        else:
+            raise TypeError(f"cannot write {type(value).__name__} as JSON")
 
 
 def write_json(result: dict[str, Any], path: str | Path) -> Path:

@@ -163,3 +163,35 @@ def test_rows_of_one_model_input_share_one_derivative(library, monkeypatch):
         a = np.array([c[key] for c in merged["octane_explained"]["classes"]])
         b = np.array([c[key] for c in per_row["octane_explained"]["classes"]])
         assert np.allclose(a, b, atol=1e-6)
+
+
+def test_group_calibration_of_the_perturbed_rows(library, tmp_path):
+    # Definition (octane.apply_calibration, kind "groups"): the correction uses each row's
+    # group volume fractions. The blocks' fractions, written from the unperturbed sample,
+    # must equal those of the explicit perturbed matrix, and the contributions must add up to
+    # the calibrated RON/MON (issue 17).
+    settings = load_settings()
+    coef = {"bias": 1.0, "aromatics": 2.0, "olefins": -3.0, "naphthenes": 1.5, "oxygenates": 4.0}
+    cal = {"format": "dha-octane-calibration/1", "model": settings["octane"]["model"],
+           "kind": "groups", "date": "2026-12-01",
+           "properties": {p: {"coefficients": coef, "n": 12, "rmse_fit": 0.3, "loo_rmse": 0.4,
+                              "loo_residuals": []} for p in ("ron", "mon")}}
+    path = tmp_path / "cal.json"
+    path.write_text(json.dumps(cal), encoding="utf-8")
+    settings["octane"]["calibration"] = str(path)
+    table = _table({"2,2,4-trimethylpentane": 40.0, "n-heptane": 10.0, "toluene": 25.0,
+                    "ethanol": 10.0, "1-hexene": 5.0, "cyclohexane": 10.0}, library)
+    inputs = explain.octane.model_inputs(table, library.components)
+    xm = inputs["vol_frac"].to_numpy(float) / inputs["vol_frac"].sum()
+    raw = {p: np.zeros(len(xm) + 1) for p in ("ron", "mon")}
+    fast = explain._calibrate_perturbed(inputs, xm, raw, settings)
+    rows = explain._perturbed_rows(xm, 0, len(xm) + 1)
+    by_hand = np.array([explain.octane.apply_calibration(0.0, cal["properties"]["ron"], "groups", g)
+                        for g in explain._group_fracs(inputs, rows)])
+    assert np.allclose(fast["ron"], by_hand, atol=1e-12)
+    from dha.properties import octane
+    ron = octane.compute(table, library, settings).values["ron"]
+    mon = octane.compute(table, library, settings).values["mon"]
+    out = explain.explain(table, library, settings, {"ron": ron, "mon": mon})
+    assert sum(c["ron"] for c in out["octane_contributions"]) == pytest.approx(ron, abs=0.01)
+    assert abs(out["octane_explained"]["residual"]["ron"]) < 1e-6

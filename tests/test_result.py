@@ -267,3 +267,33 @@ def test_property_models_run_in_order_and_failures_become_warnings(monkeypatch):
     m = lib.components["molar_mass_g_mol"]
     assert r["properties"]["mean_molar_mass_g_mol"] == pytest.approx((m["toluene"] + m["n-heptane"]) / 2)
     assert any("fake_broken failed" in w for w in r["warnings"])
+
+
+def test_dumps_is_the_standard_json_text_of_the_jsonable_result():
+    # Reference: Python's json module (json.dumps(jsonable(r), indent=2, ensure_ascii=False)),
+    # the text dha wrote before its one-pass writer; byte for byte, on a real result, on odd
+    # values and on floats of every magnitude (repr of the value rounded to 9 digits).
+    import datetime
+    from pathlib import Path
+
+    def standard(value):
+        return json.dumps(jsonable(value), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+    res = _result(generated_at="2026-01-01T00:00:00+00:00")
+    assert dumps(res) == standard(res)
+
+    class Text(str):
+        pass
+
+    odd = {"a": [np.float64(1 / 3), np.int64(3), np.bool_(True), float("nan"), -0.0, math.inf,
+                 (1, 2.5), [], {}], 1: {}, None: [{}], 2.5: "é\u2028\"\\\n",
+           "t": pd.Timestamp("2026-01-01"), "p": Path("x/y"), "s": Text("sub"),
+           "df": pd.DataFrame({"x": [1.0, np.nan], "y": ["a", None]}),
+           "ser": pd.Series([1.5], index=["k"]), "np": np.array([[1.0, 2.0]]), "na": pd.NA,
+           "d": datetime.date(2026, 1, 2), "big": 12345678901234567890}
+    assert dumps(odd) == standard(odd)
+    rng = np.random.default_rng(5)
+    floats = (rng.standard_normal(20000) * 10.0 ** rng.integers(-25, 25, 20000)).tolist()
+    floats += [1e9, 999999999.6, 1e16, 1e15 + 0.3, 1e-5, 9.999999999e-5, 5e-324, 1.5e308,
+               123456789012.0, -0.000123456789123, 100.0]
+    assert dumps(floats) == standard(floats)

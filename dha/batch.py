@@ -26,7 +26,8 @@ input, library, settings and tool version is *up to date* and not processed agai
 (``--overwrite`` forces). Every file is written to a hidden temporary file in its folder and
 renamed into place, JSON last: a batch killed at any moment leaves no half-written file under
 a result's name, and the next run picks up where it stopped. The summary is built from every
-result in the output folder, not only from this invocation.
+result in the output folder, not only from this invocation, and from the inputs an earlier
+batch could not process (kept in ``dha-batch.json`` until processed or gone).
 
 Flags per run: every specification check that failed or is marginal
 (``benzene_vol_pct>1.0``, ``~ron<95.0`` for marginal; ``~e70_vol_pct(22..50)`` when the
@@ -36,7 +37,6 @@ the unidentified mass % exceeds ``[batch] unidentified_flag_mass_pct``.
 from __future__ import annotations
 
 import glob
-import hashlib
 import json
 import logging
 import os
@@ -46,8 +46,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Iterable
 
-from dha import __version__
 from dha.errors import DhaError, InputError
+from dha.provenance import provenance as make_provenance
+from dha.provenance import settings_sha256, sha256_file  # noqa: F401 - part of this API
 from dha.safety import atomic_path, atomic_write_text, inert_frame, inert_workbook, make_folder
 
 log = logging.getLogger("dha.batch")
@@ -130,23 +131,6 @@ def expand_inputs(paths: Iterable[str | Path], recursive: bool = False,
 
 # --------------------------------------------------------------------------------------------
 # Hashes and atomic files
-
-def sha256_file(path: str | Path) -> str:
-    """SHA-256 of a file's bytes."""
-    digest = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
-
-
-def settings_sha256(settings: dict, profile: dict | None) -> str:
-    """SHA-256 of the settings and the specification profile applied (canonical JSON)."""
-    from dha.result import jsonable
-    text = json.dumps({"settings": jsonable(settings), "spec": jsonable(profile)},
-                      sort_keys=True, ensure_ascii=True, separators=(",", ":"))
-    return hashlib.sha256(text.encode()).hexdigest()
-
 
 def write_via_temp(path: str | Path, writer: Callable[[Path], Any]) -> Path:
     """Call ``writer(temp)`` on a temporary file beside ``path``, then rename it onto ``path``.
@@ -251,6 +235,26 @@ def write_record(out_dir: Path, root: Path) -> None:
         atomic_write_text(out_dir / BATCH_RECORD, json.dumps(
             {"input_root": str(root), "note": "input root of the first batch into this "
              "folder; later batches mirror inputs under it the same way"}, indent=2) + "\n")
+
+
+def record_not_processed(out_dir: Path, failed: dict[str, str], done: set[str]) -> dict[str, str]:
+    """Keep the inputs that could not be processed in the folder's record; return them all.
+
+    ``failed`` ({input path below the root: message}) are added; ``done`` (inputs processed or
+    up to date in this batch) and inputs that no longer exist are removed. A failed input
+    leaves no result file, so without this a later batch that does not name it again would
+    drop its "not processed" row from the summary. (Two batches writing into one folder at
+    once: the last one's record is kept.)
+    """
+    rec = _read_record(out_dir)
+    root = Path(str(rec.get("input_root") or "."))
+    known = {str(k): str(v) for k, v in (rec.get("not_processed") or {}).items()}
+    now = {k: v for k, v in known.items() if k not in done and (root / k).exists()}
+    now.update(failed)
+    if now != known and rec:
+        rec["not_processed"] = dict(sorted(now.items()))
+        atomic_write_text(out_dir / BATCH_RECORD, json.dumps(rec, indent=2) + "\n")
+    return now
 
 
 # --------------------------------------------------------------------------------------------
@@ -398,8 +402,7 @@ def process_task(task: Task, job: Job) -> list[dict]:
     try:
         library = load_library(job.library_dir)
         pipeline.check_input_path(task.path)   # missing, a folder, a FIFO: one line, no traceback
-        provenance = {"input_sha256": sha256_file(task.path), "library_sha256": library.sha256,
-                      "settings_sha256": job.settings_sha256, "tool_version": __version__}
+        provenance = make_provenance(sha256_file(task.path), library, job.settings_sha256)
         existing = _existing_results(task, out_dir)
         if not job.overwrite:
             if _up_to_date(existing, provenance, job.formats):
@@ -547,11 +550,18 @@ def run_batch(files: list[Path], out_dir: Path, settings: dict, *, spec: str | N
         if on_result is not None:
             on_result(outcome)
 
+    failed: dict[str, str] = {}
+    done: set[str] = set()
+
     def collect(outcomes: list[dict]) -> None:
         for o in outcomes:
             rows.append((o["order"], o["row"]))
             if o["path"]:
                 seen_paths.add(o["path"])
+            if o["row"].get("status") == NOT_PROCESSED:
+                failed[str(o["row"].get("input"))] = str(o["row"].get("error"))
+            else:
+                done.add(str(o["row"].get("input")))
             record(o)
         if progress:
             progress(1)
@@ -568,6 +578,12 @@ def run_batch(files: list[Path], out_dir: Path, settings: dict, *, spec: str | N
         for outcome in earlier_rows(out_dir, seen_paths, job):
             rows.append((outcome["order"], outcome["row"]))
             record(outcome)
+        named = {t.rel for t in plan.tasks}
+        for rel, message in record_not_processed(out_dir, failed, done).items():
+            if rel not in named:        # failed in an earlier batch, not named this time
+                row = {"input": rel, "status": NOT_PROCESSED, "this_batch": EARLIER,
+                       "error": message}
+                rows.append(((rel, 0), row))
     finally:
         if recorder is not None:
             recorder.close()
@@ -844,8 +860,11 @@ def draw_trend(times, values, limits: list[dict], title: str, ylabel: str, path:
         ax.xaxis.set_major_locator(MaxNLocator(integer=True))
     ax.set_title(title, fontsize=9)
     ax.grid(alpha=0.3)
-    fig.tight_layout()
-    write_via_temp(path, lambda tmp: fig.savefig(tmp, dpi=100, format="png"))
+    # fixed margins (room for the rotated dates) instead of tight_layout, which draws the
+    # whole figure once more; fast PNG compression: the chart costs 60 % of the time it did
+    fig.subplots_adjust(left=0.10, right=0.98, top=0.90, bottom=0.24 if by_time else 0.14)
+    write_via_temp(path, lambda tmp: fig.savefig(tmp, dpi=100, format="png",
+                                                 pil_kwargs={"compress_level": 1}))
     plt.close(fig)
     return path
 

@@ -300,9 +300,17 @@ def _stereo_named(table: pd.DataFrame, library: Any) -> dict[int, str]:
     out: dict[int, str] = {}
     if getattr(library, "stereo", None) is None or library.stereo.empty:
         return out
+    cas = table["cas"].tolist()
+    names = table["name"].tolist()
+
+    def given(v: Any) -> bool:
+        return v is not None and not (isinstance(v, float) and math.isnan(v)) \
+            and bool(str(v).strip())
+
     for i in np.flatnonzero(table["component"].isna().to_numpy()):
-        entry = match_stereo(table.at[i, "cas"], library) or match_stereo(table.at[i, "name"],
-                                                                          library)
+        if not (given(cas[i]) or given(names[i])):
+            continue
+        entry = match_stereo(cas[i], library) or match_stereo(names[i], library)
         if entry is not None:
             out[int(i)] = entry
     return out
@@ -564,11 +572,14 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     rival = np.full(len(table), None, dtype=object)
     large_rare: list[int] = []
     index_drift = 0.0
+    drift_max = 0.0
     used = {c for c in comp if c is not None}
     pool_mask = np.array([n not in used for n in lib_names], dtype=bool)
     # a known co-eluting pair is one entry (its first member, spanning both indices): the
     # co-elution step then gives the partner its share
-    partners = _coelution_partners(library, used)
+    # a pair with a member the lab learnt on its own column is matched member by member: the
+    # learnt index says where that member elutes there, the pair is a fact of the estimates
+    partners = _coelution_partners(library, used | set(lib_names[lib_kind == "learnt"]))
     pool_mask &= ~lib["name"].isin(list(partners.values())).to_numpy()
     if float(s.get("other_oxygenate_odds", 1.0)) == 0.0:
         # the lab excludes the oxygenates it does not expect (a named peak still matches)
@@ -605,19 +616,31 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         sigma = float(s.get("ri_sigma", 0.0) or 0.0) or tol / 2.0
         share_todo = 100.0 * size[todo] / max(float(size.sum()), 1e-300)
         with_prior = float(s.get("group_prior", 1.0)) != 0
-        caps = dict(peak_share=share_todo, lib_cap=share_caps(library, lib_names[pool]),
+        caps = dict(peak_share=share_todo, lib_cap=share_caps(library, lib_names[pool], s),
                     cap_penalty=CAP_PENALTY if with_prior else 0.0,
-                    peak_bonus=_size_odds(share_todo) if with_prior else None)
-        s_hat, end = float("nan"), 0.0
+                    peak_bonus=_size_odds(share_todo) if with_prior else None,
+                    lib_size_limit=size_limits(library, lib_names[pool], s),
+                    size_slope=SIZE_SLOPE if with_prior else 0.0)
+        s_hat, end, spread_post = float("nan"), 0.0, None
+        tol_set = tol
         if s.get("adapt_tolerance", True) and len(todo) >= 8:
             # the run's own spread and drift (:func:`_index_model`), then one alignment
-            shift, s_hat, end = _index_model(peak_ri[todo], rt[todo], size[todo], pool_lo,
-                                             pool_hi, bonus * MODEL_PRIOR_SCALE, **caps)
+            tau = _offset_spread(library, lib_names[pool], lib_kind[pool])
+            shift, s_hat, end, spread_post = _index_model(
+                peak_ri[todo], rt[todo], size[todo], pool_lo, pool_hi,
+                bonus * MODEL_PRIOR_SCALE, sd0=sigma, estimated=lib_kind[pool] != "learnt",
+                tau=tau, **caps)
+            if np.isfinite(s_hat) and tau > 0:
+                # estimated entries are wider than the learnt ones by the column's offsets
+                caps["lib_sd_ratio"] = np.where(lib_kind[pool] != "learnt",
+                                                np.sqrt(1.0 + (tau / s_hat) ** 2), 1.0)
+                log.info("estimated indices: extra spread %.1f beside the learnt ones", tau)
             if np.isfinite(s_hat):
                 sigma = s_hat
                 tol = float(np.clip(3.0 * s_hat, 0.5 * tol, 2.0 * tol))
                 peak_ri[todo] = peak_ri[todo] - shift
                 index_drift = round(float(end), 3)
+                drift_max = float(np.max(np.abs(shift), initial=0.0))
                 log.info("index window adapted to the run: +-%.2f (sd %.2f)", tol, sigma)
             if abs(end) >= 0.5 and np.isfinite(s_hat):
                 warnings.append(
@@ -638,17 +661,39 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         sigma_c = float(np.clip(s_run, 0.25, sigma)) if np.isfinite(s_run) else sigma
         c_conf, c_rival = _match_confidence(peak_ri[todo], pool_lo, pool_hi, bonus, assign,
                                             tol, sigma_c, **caps)
+        if spread_post is not None:
+            # the run's spread is known only roughly (tens of peaks): average the confidence
+            # over its posterior (spread grid points holding 99 % of it)
+            grid_s, wts = spread_post
+            keep = wts >= 0.01 * wts.max()
+            acc = np.zeros(len(todo))
+            for sd_k, w_k in zip(grid_s[keep], wts[keep] / wts[keep].sum()):
+                # at least the alignment's window: every match keeps its own entry
+                tol_k = max(float(np.clip(3.0 * sd_k, 0.5 * tol_set, 2.0 * tol_set)), tol)
+                c_k, _ = _match_confidence(peak_ri[todo], pool_lo, pool_hi, bonus, assign,
+                                           tol_k, float(sd_k), **caps)
+                acc += w_k * np.nan_to_num(c_k, nan=0.0)
+            c_conf = np.where(np.isnan(c_conf), np.nan, acc)
         conf[todo] = c_conf
         if float(s.get("group_prior", 1.0)) != 0 and got.any():
             # a large peak on a component that real fuels hold only in traces: the prior that
             # chose it says little about this sample (a blend component the data lack)
             share = 100.0 * size[todo[got]] / max(size.sum(), 1e-300)
-            expect = _prior_mass_pct(library, s, lib_names[pool[assign[got]]])
             chosen_names = lib_names[pool[assign[got]]]
-            # an expected oxygenate may be large (blended in), an ether at most EN 228's
-            # 22 % v/v (E10 grade; taken on the area share here)
-            blended = np.isin(chosen_names, list(expected_oxygenates(library, s)))
+            expect = _prior_mass_pct(library, s, chosen_names)
+            # an oxygenate is there because it was blended in: large is expected of one the lab
+            # stated, or one the prior data hold (their mean share), not of any EN 228 name;
+            # an ether at most EN 228's 22 % v/v (E10 grade; taken on the area share here)
             sub = library.components["subgroup"].reindex(chosen_names).astype(str).to_numpy()
+            is_oxy = library.components["group"].reindex(chosen_names).astype(str).to_numpy() \
+                == "oxygenates"
+            if s.get("expected_oxygenates"):
+                blended = np.isin(chosen_names, list(expected_oxygenates(library, s)))
+            else:
+                seen = _oxygenates_in_data(library, s)
+                blended = np.isin(chosen_names, list(seen))
+                expect = np.where(is_oxy, [seen.get(n, PRIOR_FLOOR_PCT) for n in chosen_names],
+                                  expect)
             blended &= (sub != "ether") | (share <= EN228_MAX_ETHERS_PCT)
             odd = (share > LARGE_PEAK_PCT) & (share > RARE_FACTOR * expect) & ~blended
             if odd.any():
@@ -701,7 +746,8 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
     table["confidence"] = conf
     table["rival"] = pd.Series(rival, dtype=object)
     table = _apply_coelution(table, library, warnings,
-                             split_named=bool(s.get("split_named_coelutions", False)))
+                             split_named=bool(s.get("split_named_coelutions", False)),
+                             resolved=set(lib_names[lib_kind == "learnt"]))
     unid = table["match"] == "unidentified"
     if unid.any():
         share = 100.0 * _peak_size(table)[unid.to_numpy()].sum() / max(_peak_size(table).sum(), 1e-300)
@@ -717,10 +763,22 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             f"({shown}); it may be a blend component the library or the prior data lack")
         if quality["verdict"] == "pass":
             quality["verdict"] = "marginal"
+    if drift_max >= DRIFT_FLAG:
+        quality["reasons"].append(
+            f"the retention indices needed a drift correction of up to {drift_max:.1f} index "
+            "units to fit the library: the n-alkane markers do not match this run's times "
+            "well; run the alkane standard again or give the markers of this run")
+        if quality["verdict"] == "pass":
+            quality["verdict"] = "marginal"
     table.attrs = {"warnings": warnings, "markers": markers, "unknown_names": unknown_names,
                    "ri_tolerance": tol, "quality": quality, "index_drift": index_drift}
     return table
 
+
+#: A drift correction of at least this many index units anywhere in the run makes the
+#: identification check "marginal" at best: the markers do not fit the run (common practice,
+#: no source; a window of 3 sd is 4.5 units at the default tolerance).
+DRIFT_FLAG = 2.0
 
 #: A peak above this share of the area [%] matched by index to a component whose mean share
 #: in the prior data is below 1/RARE_FACTOR of it gets confidence 0.5 at most (common
@@ -756,7 +814,51 @@ def _size_odds(share_pct: np.ndarray) -> np.ndarray:
     return np.log1p(np.maximum(np.asarray(share_pct, float), 0.0) / UNKNOWN_PEAK_PCT)
 
 
-def share_caps(library: Any, names: np.ndarray) -> np.ndarray:
+#: A component is plausible up to SIZE_FACTOR times the largest share real fuels hold of it, and
+#: always up to SIZE_FLOOR_PCT of the area; beyond, each e-fold costs SIZE_SLOPE log odds
+#: (common practice, no source: set beforehand, not tuned).
+SIZE_FACTOR = 3.0
+SIZE_FLOOR_PCT = 5.0
+SIZE_SLOPE = 2.0
+
+
+def size_limits(library: Any, names: np.ndarray, s: dict[str, Any] | None = None) -> np.ndarray:
+    """Share of the area [%] up to which each entry is a plausible peak size.
+
+    ``max(SIZE_FACTOR x the largest mass share any fuel of the prior data holds of it,
+    SIZE_FLOOR_PCT)`` (:mod:`dha.fuel_data`, ``identify.prior_exclude_families`` left out);
+    no limit for methanol, ethanol and the oxygenates the lab lists in
+    ``identify.expected_oxygenates``. A 30 % peak is rarely a component real petrol holds at
+    1 %: a blend component (prenol a lab blended, diisobutylene) is likelier. The alignment
+    takes ``SIZE_SLOPE ln(share / limit)`` off a larger peak's match.
+    """
+    s = s or {}
+    exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
+    stated = tuple(sorted(expected_oxygenates(library, s))) if s.get("expected_oxygenates") \
+        else ()
+    key = (id(library), getattr(library, "sha256", None), exclude, stated)
+    hit = _SIZE_CACHE.get(key)
+    if hit is None:
+        from dha.fuel_data import real_fuels
+        f = real_fuels(library)
+        f = f[f["component"].notna() & ~f["family"].isin(list(exclude))]
+        top = f.groupby(["mixture_id", "component"])["mass_pct"].sum().groupby("component").max()
+        lim = np.maximum(SIZE_FACTOR * top.reindex(library.components.index).fillna(0.0),
+                         SIZE_FLOOR_PCT)
+        for n in UNCAPPED_OXYGENATES + stated:
+            if n in lim.index:
+                lim[n] = np.inf
+        hit = lim
+        if len(_SIZE_CACHE) > 16:
+            _SIZE_CACHE.clear()
+        _SIZE_CACHE[key] = hit
+    return hit.reindex(pd.Index(names, dtype=object)).fillna(SIZE_FLOOR_PCT).to_numpy(dtype=float)
+
+
+_SIZE_CACHE: dict = {}
+
+
+def share_caps(library: Any, names: np.ndarray, s: dict[str, Any] | None = None) -> np.ndarray:
     """Largest share of the run's area [%] each entry may plausibly hold (inf = no limit).
 
     A peak is a blend component when it is large; petrol standards limit how much of an
@@ -764,8 +866,10 @@ def share_caps(library: Any, names: np.ndarray) -> np.ndarray:
     its limit is more likely a hydrocarbon blend component at a neighbouring index (e.g.
     diisobutylene, 0.8 units from tert-amyl ethyl ether). Area share stands in for % v/v: an
     oxygenate gives less FID area than its mass, so the limit errs on the lenient side.
-    Hydrocarbons, methanol and ethanol: no limit.
+    Hydrocarbons, methanol and ethanol: no limit; nor the oxygenates the lab lists in
+    ``identify.expected_oxygenates`` (a blending study states what it blended).
     """
+    stated = expected_oxygenates(library, s) if s and s.get("expected_oxygenates") else ()
     comps = library.components
     group = comps["group"].reindex(names).astype(str).to_numpy()
     sub = comps["subgroup"].reindex(names).astype(str).to_numpy() if "subgroup" in comps \
@@ -774,7 +878,7 @@ def share_caps(library: Any, names: np.ndarray) -> np.ndarray:
     oxy = group == "oxygenates"
     for k in np.flatnonzero(oxy):
         nm = names[k]
-        if nm in UNCAPPED_OXYGENATES:
+        if nm in UNCAPPED_OXYGENATES or nm in stated:
             continue
         if sub[k] == "ether":
             cap[k] = EN228_MAX_ETHERS_PCT
@@ -794,10 +898,40 @@ def _prior_mass_pct(library: Any, s: dict[str, Any], names: np.ndarray) -> np.nd
     return 100.0 * np.exp(vals) / len(library.components)
 
 
+def _oxygenates_in_data(library: Any, s: dict[str, Any]) -> dict[str, float]:
+    """Oxygenates the prior data hold -> their mean mass share [%] over the families (each
+    family once; ``identify.prior_exclude_families`` left out)."""
+    from dha.fuel_data import real_fuels
+
+    exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
+    key = (id(library), getattr(library, "sha256", None), exclude)
+    hit = _OXY_DATA_CACHE.get(key)
+    if hit is not None:
+        return hit
+    f = real_fuels(library)
+    f = f[f["component"].notna() & ~f["family"].isin(list(exclude))]
+    grp = f["component"].map(library.components["group"])
+    oxy = f[grp == "oxygenates"]
+    fuels = f[["mixture_id", "family"]].drop_duplicates("mixture_id").set_index("mixture_id")
+    tab = oxy.pivot_table(index="mixture_id", columns="component", values="mass_pct",
+                          aggfunc="sum").reindex(fuels.index).fillna(0.0)
+    out = {str(k): float(v) for k, v in
+           tab.groupby(fuels["family"]).mean().mean().items() if v > 0}
+    if len(_OXY_DATA_CACHE) > 16:
+        _OXY_DATA_CACHE.clear()
+    _OXY_DATA_CACHE[key] = out
+    return out
+
+
+_OXY_DATA_CACHE: dict = {}
+
+
 def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarray,
                       bonus: np.ndarray, assign: np.ndarray, tol: float, sigma: float,
                       peak_share: np.ndarray | None = None, lib_cap: np.ndarray | None = None,
-                      cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None
+                      cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None,
+                      lib_sd_ratio: np.ndarray | None = None,
+                      lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0
                       ) -> tuple[np.ndarray, np.ndarray]:
     """(confidence, runner-up position) of each index match.
 
@@ -815,20 +949,38 @@ def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarra
         return conf, rival
     run_hi = np.maximum.accumulate(lib_hi)
     p = peak_ri[ok]
-    left = np.searchsorted(run_hi, p - tol, side="left")
-    right = np.searchsorted(lib_lo, p + tol, side="right")
+    ratio = None if lib_sd_ratio is None else np.maximum(np.asarray(lib_sd_ratio, float), 1.0)
+    reach = tol * (float(ratio.max()) if ratio is not None and len(ratio) else 1.0)
+    left = np.searchsorted(run_hi, p - reach, side="left")
+    right = np.searchsorted(lib_lo, p + reach, side="right")
     count = np.maximum(right - left, 0)
     offs = np.concatenate([[0], np.cumsum(count)])
     rep = np.repeat(np.arange(len(ok)), count)
     js = left[rep] + (np.arange(offs[-1]) - offs[rep])
     d = np.maximum(np.maximum(lib_lo[js] - p[rep], p[rep] - lib_hi[js]), 0.0)
-    score = (tol * tol - d * d) / (2.0 * sigma * sigma) + bonus[js]
+    if ratio is None:
+        score = (tol * tol - d * d) / (2.0 * sigma * sigma) + bonus[js]
+        inside = d <= tol
+    else:
+        r = ratio[js]
+        score = (tol * tol - (d / r) ** 2) / (2.0 * sigma * sigma) - np.log(r)
+        inside = score >= 0.0
+        score = score + bonus[js]
     if lib_cap is not None and peak_share is not None and cap_penalty:
         score = score - cap_penalty * (peak_share[ok][rep] > lib_cap[js])
     if peak_bonus is not None:
         score = score + peak_bonus[ok][rep]
-    score = np.where(d <= tol, score, -np.inf)
-    top = np.maximum(np.maximum.reduceat(score, offs[:-1]) if len(score) else 0.0, 0.0)
+    if lib_size_limit is not None and peak_share is not None and size_slope and len(js):
+        pen = size_slope * np.log(np.maximum(peak_share[ok][rep] / lib_size_limit[js], 1.0))
+        nzc = count > 0
+        low = np.zeros(len(ok))
+        low[nzc] = np.minimum.reduceat(pen, offs[:-1][nzc])
+        score = score - (pen - low[rep])
+    score = np.where(inside, score, -np.inf)
+    top = np.zeros(len(ok))
+    has = count > 0
+    if len(score) and has.any():
+        top[has] = np.maximum(np.maximum.reduceat(score, offs[:-1][has]), 0.0)
     ex = np.exp(score - top[rep])
     total = np.bincount(rep, weights=ex, minlength=len(ok)) + np.exp(-top)
     chosen = assign[ok]
@@ -1178,16 +1330,43 @@ DRIFT_LIN = np.arange(-4.0, 4.5, 1.0)
 UNKNOWN_SHARE = 0.1
 #: At most this many peaks (the largest) enter the index model.
 MODEL_PEAKS = 200
+#: Learnt entries needed to measure how far the lab's column lies from the shipped estimates.
+MIN_LEARNT = 5
+
+
+def _offset_spread(library: Any, names: np.ndarray, kinds: np.ndarray) -> float:
+    """How far the lab's column lies from the shipped estimates [index units]: the robust
+    root-mean-square (1.4826 median |d|) of learnt minus shipped index over the learnt entries;
+    0 with fewer than :data:`MIN_LEARNT`. The estimated entries of such a column are that much
+    less certain than the learnt ones (the learnt offsets of one component say nothing about
+    another's: the spread carries over, the offsets do not)."""
+    learnt = [n for n, k in zip(names, kinds) if k == "learnt"]
+    if len(learnt) < MIN_LEARNT:
+        return 0.0
+    from dha.library import load_library
+    shipped = pd.to_numeric(load_library().components["retention_index"], errors="coerce")
+    own = pd.to_numeric(library.components["retention_index"], errors="coerce")
+    d = (own.reindex(learnt) - shipped.reindex(learnt)).dropna().to_numpy(dtype=float)
+    if len(d) < MIN_LEARNT:
+        return 0.0
+    return float(1.4826 * np.median(np.abs(d)))
+#: Width of the prior on the run's spread about the one ``identify.ri_tolerance`` implies
+#: (tolerance / 2), as a sd of ln(s): ln 1.5 (ln 2 and ln 1.5 tried on seeds 2024-2026's
+#: real-fuel runs, common practice, no source). It matters mostly for runs of few peaks.
+SPREAD_PRIOR_WIDTH = math.log(1.5)
 #: The index model weighs the alignment's prior at this power (a tempered prior: the spread
 #: and drift are the column's, and a strong prior alone must not pull a large peak onto a
-#: favoured neighbour; 0.5 chosen between 0 and 1 on seed 2024's real-fuel runs).
+#: favoured neighbour; 0.5 chosen between 0 and 1 on seeds 2024-2026's real-fuel runs).
 MODEL_PRIOR_SCALE = 0.5
 
 
 def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: np.ndarray,
                  lib_hi: np.ndarray, bonus: np.ndarray, peak_share: np.ndarray | None = None,
                  lib_cap: np.ndarray | None = None, cap_penalty: float = 0.0,
-                 peak_bonus: np.ndarray | None = None) -> tuple[np.ndarray, float, float]:
+                 peak_bonus: np.ndarray | None = None, sd0: float = 1.5,
+                 estimated: np.ndarray | None = None, tau: float = 0.0,
+                 lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0
+                 ) -> tuple[np.ndarray, float, float]:
     """The run's index spread and slow drift, by maximum marginal likelihood.
 
     Each peak is either a library entry (prior probabilities ``softmax(bonus)``, the
@@ -1196,89 +1375,138 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
     / the last peak's time: the marker run and this one drifting apart), or an unknown (share
     :data:`UNKNOWN_SHARE`, uniform over the run's index range, less likely by ``peak_bonus``
     for a large peak). A peak above an entry's share limit (:func:`share_caps`) loses
-    ``cap_penalty`` on that entry, as in the alignment. ``A, B`` and ``s`` maximise the
-    log-likelihood of the peaks' indices, summed over the entries (no one-to-one assignment
-    needed), on the grids :data:`DRIFT_QUAD`, :data:`DRIFT_LIN` (then refined by quarters)
-    and :data:`SPREAD_GRID`. A drift is kept only when it raises the log-likelihood by more
+    ``cap_penalty`` on that entry, as in the alignment. The log-likelihood of the peaks'
+    indices is summed over the entries (no one-to-one assignment needed). ``A, B`` maximise
+    it at ``s = sd0`` on the grids :data:`DRIFT_QUAD` x :data:`DRIFT_LIN`, then refined by
+    quarters; ``s`` then maximises it on :data:`SPREAD_GRID` (sd0 / 4 to 2.5 sd0). A drift is kept only when it raises the log-likelihood by more
     than its two parameters cost (Bayesian information criterion, ``ln n``). Only the
     :data:`MODEL_PEAKS` largest peaks enter, each with the same weight (one dominant peak
-    must not set the run's spread).
+    must not set the run's spread). The spread has a log-normal prior about ``sd0`` (the
+    lab's window / 2, width :data:`SPREAD_PRIOR_WIDTH`): a run of 20 peaks says little.
 
-    Returns (drift at each peak [index units], spread s [index units], drift at the end).
+    With ``estimated`` (per entry: True for an index that is the shipped estimate, False for
+    one the lab learnt on its column) the estimated entries have the spread
+    ``sqrt(s^2 + tau^2)`` (:func:`_offset_spread`).
+
+    Returns (drift at each peak [index units], spread s [index units], drift at the end,
+    (spread grid, posterior weights) at that drift or None).
     """
     ok = np.flatnonzero(np.isfinite(peak_ri))
     if len(ok) > MODEL_PEAKS:
         ok = ok[np.argsort(-size[ok], kind="stable")[:MODEL_PEAKS]]
     zero = np.zeros(len(peak_ri))
     if len(ok) < 8 or len(lib_lo) == 0:
-        return zero, float("nan"), 0.0
+        return zero, float("nan"), 0.0, None
     p = peak_ri[ok]
     t_end = float(np.nanmax(rt)) if np.isfinite(rt).any() else 1.0
     x = np.clip(rt[ok] / max(t_end, 1e-9), 0.0, 1.0)
     # every peak counts alike: the spread and drift are the column's and the run's, and one
     # dominant peak must not set them
-    w = np.ones(len(p))
-    reach = 4.0 * SPREAD_GRID[-1] + np.abs(DRIFT_QUAD).max() + np.abs(DRIFT_LIN).max()
     run_hi = np.maximum.accumulate(lib_hi)
-    left = np.searchsorted(run_hi, p - reach, side="left")
-    right = np.searchsorted(lib_lo, p + reach, side="right")
-    count = np.maximum(right - left, 0)
-    offs = np.concatenate([[0], np.cumsum(count)])
-    rep = np.repeat(np.arange(len(p)), count)
-    js = left[rep] + (np.arange(offs[-1]) - offs[rep])
-    nz = count > 0
     logpi = bonus - (np.max(bonus) + np.log(np.sum(np.exp(bonus - np.max(bonus)))))
-    lp = logpi[js]
-    if lib_cap is not None and peak_share is not None and cap_penalty:
-        lp = lp - cap_penalty * (peak_share[ok][rep] > lib_cap[js])
     pb = np.zeros(len(p)) if peak_bonus is None else np.asarray(peak_bonus, float)[ok]
+    share = None if peak_share is None else np.asarray(peak_share, float)[ok]
     span = max(float(np.ptp(p)), 100.0)
-    log_unknown = math.log(UNKNOWN_SHARE / span)
+    log_unknown = math.log(UNKNOWN_SHARE / span) - pb
     log_known = math.log(1.0 - UNKNOWN_SHARE)
+    max_drift = float(np.abs(DRIFT_QUAD).max() + np.abs(DRIFT_LIN).max())
 
-    def loglik(shift: np.ndarray, sd: np.ndarray) -> np.ndarray:
-        """Weighted log-likelihood for each (shift row, sd) pair: shift (G, n), sd (G,)."""
-        q = p[None, :] - shift                                  # corrected indices (G, n)
-        d = np.maximum(np.maximum(lib_lo[js][None, :] - q[:, rep], q[:, rep] - lib_hi[js][None, :]), 0.0)
-        sdv = sd[:, None]
-        term = lp[None, :] - 0.5 * (d / sdv) ** 2 - np.log(sdv * math.sqrt(2 * math.pi))
-        # per-peak log-sum-exp over its entries
+    est = np.zeros(len(lib_lo)) if estimated is None else np.asarray(estimated, float)
+
+    def loglik(q: np.ndarray, sd: np.ndarray) -> np.ndarray:
+        """Log-likelihood of each peak (columns) for rows of corrected indices q (G, n) at
+        spreads sd (G,) (estimated entries: sqrt(sd^2 + tau^2)): entries within 3.5 sd of each
+        index, and the unknown."""
+        reach = 3.5 * float(np.sqrt(sd.max() ** 2 + tau ** 2))
+        lo_q, hi_q = q.min(axis=0), q.max(axis=0)
+        left = np.searchsorted(run_hi, lo_q - reach, side="left")
+        right = np.searchsorted(lib_lo, hi_q + reach, side="right")
+        count = np.maximum(right - left, 0)
+        offs = np.concatenate([[0], np.cumsum(count)])
+        rep = np.repeat(np.arange(len(p)), count)
+        js = left[rep] + (np.arange(offs[-1]) - offs[rep])
+        out = np.broadcast_to(log_unknown, q.shape).copy()
+        if len(js) == 0:
+            return out
+        lp = logpi[js]
+        if lib_cap is not None and share is not None and cap_penalty:
+            lp = lp - cap_penalty * (share[rep] > lib_cap[js])
+        if lib_size_limit is not None and share is not None and size_slope:
+            pen = size_slope * np.log(np.maximum(share[rep] / lib_size_limit[js], 1.0))
+            low = np.zeros(len(p))
+            low[count > 0] = np.minimum.reduceat(pen, offs[:-1][count > 0])
+            lp = lp - (pen - low[rep])
+        qq = q[:, rep]
+        d = np.maximum(np.maximum(lib_lo[js] - qq, qq - lib_hi[js]), 0.0)
+        sdv = np.sqrt(sd[:, None] ** 2 + (tau * tau) * est[js][None, :])
+        term = lp - 0.5 * (d / sdv) ** 2 - np.log(sdv * math.sqrt(2 * math.pi))
         mx = np.max(term, axis=1, keepdims=True)
         ex = np.exp(term - mx)
-        tot = np.zeros((len(sd), len(p)))
+        nz = count > 0
+        tot = np.zeros(q.shape)
         tot[:, nz] = np.add.reduceat(ex, offs[:-1][nz], axis=1)
         with np.errstate(divide="ignore"):
             known = np.log(tot) + mx + log_known
-        ll = np.logaddexp(known, log_unknown - pb)
-        return ll @ w
+        return np.logaddexp(known, log_unknown)
 
-    if len(js) == 0:
-        return zero, float("nan"), 0.0
-    # 1. drift at a middle spread, coarse grid then quarters around the best
-    AA, BB = np.meshgrid(DRIFT_QUAD, DRIFT_LIN, indexing="ij")
-    AA, BB = AA.ravel(), BB.ravel()
-    mid = np.full(len(AA), 1.0)
-    ll = loglik(AA[:, None] * x ** 2 + BB[:, None] * x, mid)
-    k = int(np.argmax(ll))
-    fa, fb = np.meshgrid(AA[k] + np.arange(-0.75, 0.76, 0.25), BB[k] + np.arange(-0.75, 0.76, 0.25),
-                         indexing="ij")
-    fa, fb = fa.ravel(), fb.ravel()
-    ll2 = loglik(fa[:, None] * x ** 2 + fb[:, None] * x, np.full(len(fa), 1.0))
-    k2 = int(np.argmax(ll2))
-    A, B = float(fa[k2]), float(fb[k2])
-    # 2. spread at that drift and at none; the drift only if it pays for its parameters
-    sds = SPREAD_GRID
-    drift = A * x ** 2 + B * x
-    ll_d = loglik(np.repeat(drift[None, :], len(sds), axis=0), sds)
-    ll_0 = loglik(np.zeros((len(sds), len(p))), sds)
-    if float(ll_d.max() - ll_0.max()) > math.log(len(p)):
-        s_hat = float(sds[int(np.argmax(ll_d))])
+    sds = SPREAD_GRID[(SPREAD_GRID >= sd0 / 4.0) & (SPREAD_GRID <= sd0 * 2.5)]
+    if len(sds) == 0:
+        sds = np.array([sd0])
+    # the lab's window says what spread to expect: a log-normal prior on s about sd0
+    log_prior_sd = -0.5 * (np.log(sds / sd0) / SPREAD_PRIOR_WIDTH) ** 2
+    # each peak's log-likelihood at sd0 on a grid of constant shifts (one computation), then
+    # any drift curve by interpolation in it
+    step = min(0.5, sd0 / 3.0)                 # the table is smooth on the scale of sd0
+    grid = np.arange(-max_drift, max_drift + step / 2, step)
+    table_ll = loglik(p[None, :] - grid[:, None], np.full(len(grid), sd0))     # (shifts, n)
+    cols = np.arange(len(p))
+
+    def curve_ll(AA: np.ndarray, BB: np.ndarray) -> np.ndarray:
+        sh = AA[:, None] * x ** 2 + BB[:, None] * x                            # (G, n)
+        f = np.clip((sh - grid[0]) / step, 0.0, len(grid) - 1.000001)
+        i0 = f.astype(int)
+        t = f - i0
+        return ((1.0 - t) * table_ll[i0, cols] + t * table_ll[i0 + 1, cols]).sum(axis=1)
+
+    def best_drift(A0: float, B0: float, coarse: bool) -> tuple[float, float]:
+        """Drift (A, B) of the highest likelihood at sd0, on the grid or around A0, B0."""
+        if coarse:
+            AA, BB = np.meshgrid(DRIFT_QUAD, DRIFT_LIN, indexing="ij")
+        else:
+            fine = np.arange(-0.75, 0.76, 0.25)
+            AA, BB = np.meshgrid(A0 + fine, B0 + fine, indexing="ij")
+        AA, BB = AA.ravel(), BB.ravel()
+        keep = np.abs(AA) + np.abs(BB) <= max_drift + 1e-9
+        AA, BB = AA[keep], BB[keep]
+        k = int(np.argmax(curve_ll(AA, BB)))
+        return float(AA[k]), float(BB[k])
+
+    post: dict = {}
+
+    def best_spread(A: float, B: float) -> tuple[float, float]:
+        """Spread of the highest posterior at drift (A, B), and that log posterior."""
+        q = np.repeat((p - (A * x ** 2 + B * x))[None, :], len(sds), axis=0)
+        ll = loglik(q, sds).sum(axis=1) + log_prior_sd
+        k = int(np.argmax(ll))
+        wts = np.exp(ll - ll[k])
+        post[(A, B)] = (sds.copy(), wts / wts.sum())
+        return float(sds[k]), float(ll[k])
+
+    # drift at the expected spread (coarse grid, then quarters; refitting it at a smaller
+    # fitted spread overfits runs of few peaks), the spread at that drift; the drift is kept
+    # only if it pays for its two parameters
+    A, B = best_drift(0.0, 0.0, True)
+    A, B = best_drift(A, B, False)
+    s_d, ll_d = best_spread(A, B)
+    s_0, ll_0 = best_spread(0.0, 0.0)
+    if ll_d - ll_0 > math.log(len(p)):
+        s_hat = s_d
     else:
         A = B = 0.0
-        s_hat = float(sds[int(np.argmax(ll_0))])
+        s_hat = s_0
     xa = np.clip(rt / max(t_end, 1e-9), 0.0, 1.0)
     shift = np.where(np.isfinite(xa), A * xa ** 2 + B * xa, 0.0)
-    return shift, s_hat, A + B
+    return shift, s_hat, A + B, post.get((A, B))
 
 
 def _mark_alkanes(table: pd.DataFrame, markers: dict[int, float], n_alkanes: dict[int, str],
@@ -1397,11 +1625,12 @@ SEARCH_TOL = (2.5, 5.0)
 
 
 def _apply_coelution(table: pd.DataFrame, library: Any, warnings: list[str],
-                     split_named: bool = False) -> pd.DataFrame:
+                     split_named: bool = False, resolved: set | None = None) -> pd.DataFrame:
     """Note known co-elution pairs; split a peak whose partner has no peak of its own.
 
     A peak the export named is split only when ``split_named`` ([identify]
     split_named_coelutions) is true; otherwise the co-elution is noted and warned about.
+    A pair with a member in ``resolved`` (indices the lab learnt on its column) is not split.
     """
     co = getattr(library, "coelution", None)
     if co is None or len(co) == 0:
@@ -1412,6 +1641,8 @@ def _apply_coelution(table: pd.DataFrame, library: Any, warnings: list[str],
     for r in co.itertuples(index=False):
         a, b = getattr(r, "name_a"), getattr(r, "name_b")
         share = float(getattr(r, "share_a"))
+        if resolved and (a in resolved or b in resolved):
+            continue
         if a in present and b in present:
             for x, y in ((a, b), (b, a)):
                 table.at[pos[x], "coelution"] = f"known co-elution with {y}; resolved here"

@@ -174,6 +174,13 @@ def _iso(value) -> str | None:
 
 def store(con: sqlite3.Connection, run_key: str, result: dict[str, Any], row: dict[str, Any]) -> None:
     """Insert or replace one run (runs, checks, components) in one transaction."""
+    with transaction(con):
+        write_run(con, run_key, result, row)
+
+
+def write_run(con: sqlite3.Connection, run_key: str, result: dict[str, Any],
+              row: dict[str, Any]) -> None:
+    """Insert or replace one run (runs, checks, components) inside the caller's transaction."""
     rec = run_record(run_key, result, row)
     cols = ["run_key"] + [c for c, _ in RUN_COLUMNS]
     values = [run_key] + [rec.get(c) for c, _ in RUN_COLUMNS]
@@ -184,13 +191,12 @@ def store(con: sqlite3.Connection, run_key: str, result: dict[str, Any], row: di
               c.get("rt_min"), c.get("retention_index"), c.get("area"), c.get("mass_pct"),
               c.get("vol_pct"), c.get("mol_pct"), c.get("match"), c.get("confidence"))
              for i, c in enumerate(result.get("components") or [])]
-    with transaction(con):
-        con.execute("DELETE FROM checks WHERE run_key = ?", (run_key,))
-        con.execute("DELETE FROM components WHERE run_key = ?", (run_key,))
-        con.execute(f"INSERT OR REPLACE INTO runs ({', '.join(cols)}) "
-                    f"VALUES ({', '.join('?' * len(cols))})", values)
-        con.executemany(f"INSERT INTO checks VALUES ({', '.join('?' * 8)})", checks)
-        con.executemany(f"INSERT INTO components VALUES ({', '.join('?' * 14)})", comps)
+    con.execute("DELETE FROM checks WHERE run_key = ?", (run_key,))
+    con.execute("DELETE FROM components WHERE run_key = ?", (run_key,))
+    con.execute(f"INSERT OR REPLACE INTO runs ({', '.join(cols)}) "
+                f"VALUES ({', '.join('?' * len(cols))})", values)
+    con.executemany(f"INSERT INTO checks VALUES ({', '.join('?' * 8)})", checks)
+    con.executemany(f"INSERT INTO components VALUES ({', '.join('?' * 14)})", comps)
 
 
 def _num(value):
@@ -213,11 +219,25 @@ def is_current(con: sqlite3.Connection, run_key: str, provenance: dict[str, Any]
 
 
 class Recorder:
-    """The batch driver's hook: stores every finished run (``on_result`` of ``run_batch``)."""
+    """The batch driver's hook: stores every finished run (``on_result`` of ``run_batch``).
 
-    def __init__(self, out_dir: str | Path):
+    Runs are written in groups, one transaction per ``group_runs`` runs or per ``group_s``
+    seconds, whichever comes first (and at ``close``): a transaction per run cost about as much
+    as writing its rows. A run is still in the database completely or not at all; a batch
+    killed between two groups leaves the runs of the last group out, and the next batch stores
+    them from their JSON files (they are missing, so not current).
+    """
+
+    def __init__(self, out_dir: str | Path, group_runs: int = 50, group_s: float = 2.0):
+        import time
+
         self.con = connect(Path(out_dir) / DB_NAME)
         self.out_dir = Path(out_dir)
+        self.group_runs = group_runs
+        self.group_s = group_s
+        self._pending: list[tuple[str, Any, Any]] = []      # ("store", key, (result, row)) ...
+        self._clock = time.monotonic
+        self._since = self._clock()
 
     def __call__(self, outcome: dict[str, Any]) -> None:
         import json
@@ -236,12 +256,30 @@ class Recorder:
                     result = json.loads((self.out_dir / path).read_text(encoding="utf-8"))
                 except (OSError, ValueError):
                     return
-        store(self.con, path, result, outcome["row"])
+        self._pending.append(("store", path, (result, outcome["row"])))
         if outcome.get("removed"):
-            remove(self.con, outcome["removed"])
+            self._pending.append(("remove", outcome["removed"], None))
+        if len(self._pending) >= self.group_runs or self._clock() - self._since >= self.group_s:
+            self.flush()
+
+    def flush(self) -> None:
+        """Write the runs held back, in one transaction."""
+        if self._pending:
+            with transaction(self.con):
+                for op, key, data in self._pending:
+                    if op == "store":
+                        write_run(self.con, key, *data)
+                    else:
+                        self.con.executemany("DELETE FROM runs WHERE run_key = ?",
+                                             [(k,) for k in key])
+            self._pending.clear()
+        self._since = self._clock()
 
     def close(self) -> None:
-        self.con.close()
+        try:
+            self.flush()
+        finally:
+            self.con.close()
 
 
 # --------------------------------------------------------------------------------------------

@@ -305,7 +305,9 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
                   hi: np.ndarray | None = None, lib_index_hi: np.ndarray | None = None,
                   lib_bonus: np.ndarray | None = None, sigma: float | None = None,
                   peak_share: np.ndarray | None = None, lib_cap: np.ndarray | None = None,
-                  cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None
+                  cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None,
+                  lib_sd_ratio: np.ndarray | None = None,
+                  lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0
                   ) -> tuple[np.ndarray, float]:
     """Order-preserving one-to-one assignment of peaks to library entries by their indices.
 
@@ -337,6 +339,16 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
     peak_bonus : ndarray, shape (P,), optional
         Log odds added to every match of a peak (against leaving it unknown), e.g. for a
         large peak, which is rarely an unknown.
+    lib_sd_ratio : ndarray, shape (C,), optional
+        Each entry's index sd over ``sigma`` (>= 1; e.g. an estimated index on a column whose
+        other entries the lab learnt): the gain becomes the log-likelihood ratio of that wider
+        Gaussian, ``kappa (1 - d^2 / (r tol)^2) - ln r``, within the window where it is
+        positive. Default 1 for all.
+    lib_size_limit, size_slope : ndarray (C,), float, optional
+        The share of the area [%] up to which each entry is plausible (e.g. a few times the
+        largest share real fuels hold of it): a larger peak loses ``size_slope * ln(share /
+        limit)`` on that entry, less the least such loss among the peak's candidates (the size
+        ranks the candidates; needs ``peak_share``).
 
     Returns
     -------
@@ -374,8 +386,10 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
     bonus = None if lib_bonus is None else np.asarray(lib_bonus, dtype=float)
     sig = tolerance / 2.0 if sigma is None else float(sigma)
     kappa = tolerance ** 2 / (2.0 * sig ** 2)
-    left = np.maximum(np.searchsorted(run_hi, p_idx - tolerance, side="left"), lo)
-    right = np.minimum(np.searchsorted(c_idx, p_idx + tolerance, side="right"), hi)
+    ratio = None if lib_sd_ratio is None else np.maximum(np.asarray(lib_sd_ratio, float), 1.0)
+    reach = tolerance * (float(ratio.max()) if ratio is not None and len(ratio) else 1.0)
+    left = np.maximum(np.searchsorted(run_hi, p_idx - reach, side="left"), lo)
+    right = np.minimum(np.searchsorted(c_idx, p_idx + reach, side="right"), hi)
     finite = np.isfinite(p_idx)
     # every (peak, window entry) gain at once; the row loop then only adds and propagates
     count = np.where(finite, np.maximum(right - left, 0), 0)
@@ -384,7 +398,13 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
     js_all = left[rep] + (np.arange(offs[-1]) - offs[rep])
     d_all = np.maximum(np.maximum(c_idx[js_all] - p_idx[rep], p_idx[rep] - c_hi[js_all]),
                        0.0) / tolerance
-    g_all = kappa * (1.0 - d_all * d_all)
+    if ratio is None:
+        g_all = kappa * (1.0 - d_all * d_all)
+        inside = d_all <= 1.0
+    else:
+        r = ratio[js_all]
+        g_all = kappa * (1.0 - (d_all / r) ** 2) - np.log(r)
+        inside = g_all >= 0.0
     if bonus is not None:
         g_all = g_all + bonus[js_all]
     if lib_cap is not None and peak_share is not None and cap_penalty:
@@ -392,7 +412,16 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         g_all = g_all - cap_penalty * over
     if peak_bonus is not None:
         g_all = g_all + np.asarray(peak_bonus, float)[rep]
-    g_all = np.where(d_all <= 1.0, w[rep] * g_all, -np.inf)
+    if lib_size_limit is not None and peak_share is not None and size_slope and len(js_all):
+        pen = size_slope * np.log(np.maximum(
+            np.asarray(peak_share, float)[rep] / np.asarray(lib_size_limit, float)[js_all], 1.0))
+        # relative to the peak's most plausible candidate: the size ranks the candidates, it
+        # does not make the peak an unknown
+        nz = count > 0
+        low = np.zeros(n_p)
+        low[nz] = np.minimum.reduceat(pen, offs[:-1][nz])
+        g_all = g_all - (pen - low[rep])
+    g_all = np.where(inside, w[rep] * g_all, -np.inf)
     g_rows = np.empty((n_p + 1, n_c + 1))
     g_rows[0] = 0.0
     for p in range(n_p):

@@ -218,6 +218,43 @@ def test_late_run_rerun_skips_what_is_up_to_date(tmp_path, quick):
     assert "3 processed now, 0 up to date" in r.output
 
 
+def test_a_failed_input_stays_in_the_summary_until_it_is_processed(tmp_path, quick):
+    # A failed input writes no result: the folder's record keeps it, so a later batch that
+    # names only a late run still lists it as not processed (exit 0: nothing failed now).
+    src = tmp_path / "day"
+    src.mkdir()
+    (src / "broken.csv").write_text("this is not a peak table\n")
+    shutil.copy(COMP, src / "a.csv")
+    out = tmp_path / "out"
+    r = CliRunner().invoke(cli, ["batch", str(src), "-o", str(out), "--jobs", "1"] + quick)
+    assert r.exit_code == 1, r.output
+    shutil.copy(COMP, src / "late.csv")
+    r = CliRunner().invoke(cli, ["batch", str(src / "late.csv"), "-o", str(out), "--jobs", "1"]
+                           + quick)
+    assert r.exit_code == 0, r.output
+    assert "not processed (earlier batch): broken.csv" in r.output
+    summary = pd.read_csv(out / "summary.csv")
+    assert list(summary["input"]) == ["a.csv", "broken.csv", "late.csv"]
+    assert list(summary["status"])[1] == batch.NOT_PROCESSED
+    assert list(summary["this_batch"]) == [batch.EARLIER, batch.EARLIER, batch.DONE_NOW]
+    # fixed and run again: processed, and the record forgets the failure
+    shutil.copy(COMP, src / "broken.csv")
+    r = CliRunner().invoke(cli, ["batch", str(src / "broken.csv"), "-o", str(out), "--jobs",
+                                 "1"] + quick)
+    assert r.exit_code == 0, r.output
+    summary = pd.read_csv(out / "summary.csv")
+    assert batch.NOT_PROCESSED not in set(summary["status"])
+    assert not json.loads((out / batch.BATCH_RECORD).read_text()).get("not_processed")
+    # an input that failed and was then deleted is dropped from the record
+    (src / "gone.csv").write_text("not a table either\n")
+    CliRunner().invoke(cli, ["batch", str(src / "gone.csv"), "-o", str(out), "--jobs", "1"]
+                       + quick)
+    (src / "gone.csv").unlink()
+    r = CliRunner().invoke(cli, ["batch", str(src / "late.csv"), "-o", str(out), "--jobs", "1"]
+                           + quick)
+    assert r.exit_code == 0 and "gone.csv" not in r.output, r.output
+
+
 def test_changed_settings_make_results_out_of_date(tmp_path, quick):
     shutil.copy(COMP, tmp_path / "a.csv")
     out = tmp_path / "out"
@@ -309,3 +346,18 @@ def test_help_imports_no_command_module():
             "print(sorted(m for m in sys.modules if m == 'pandas' or m.startswith('dha.commands.')))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "[]", out.stdout
+
+
+def test_screen_lists_at_most_a_screenful_of_flagged_runs(tmp_path, monkeypatch):
+    # 1,000 flagged runs printed one line each would bury the summary lines: 20, then a count
+    rows = [{"input": f"r{i:03d}.csv", "sample_id": f"S{i}", "status": batch.PASSES,
+             "this_batch": batch.DONE_NOW, "flags": "~ron<95"} for i in range(25)]
+    table = pd.DataFrame(rows).reindex(columns=batch.SUMMARY_COLUMNS)
+    table.attrs["counts"] = {"processed": 25, "up_to_date": 0, "earlier": 0, "failed": 0}
+    monkeypatch.setattr(batch, "run_batch", lambda *a, **k: table)
+    monkeypatch.setattr(batch, "write_summary", lambda *a, **k: [])
+    shutil.copy(COMP, tmp_path / "a.csv")
+    r = CliRunner().invoke(cli, ["batch", str(tmp_path / "a.csv"), "-o", str(tmp_path / "o")])
+    assert r.exit_code == 0, r.output
+    assert r.output.count("  flagged: ") == 20
+    assert "... and 5 more flagged runs" in r.output

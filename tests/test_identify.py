@@ -608,3 +608,66 @@ def test_every_peak_result_has_the_identification_check_and_confidences(lib, tmp
     r = CliRunner().invoke(cli, ["report", str(path), "-o", str(tmp_path / "out2"), "--spec", "",
                                  "--format", "json"])
     assert r.exit_code == 0, r.output
+
+
+def test_learnt_overlay_carries_its_spread_to_a_different_fuel(lib, tmp_path):
+    # Issue 13, learning that carries over: a lab column whose indices lie off the shipped
+    # estimates by N(0, 3) per component (fixed per column). Learnt from one named real fuel,
+    # an unnamed DIFFERENT real fuel with the alkane standard: the learnt entries are sharp,
+    # the others get the column's measured offset spread (identify._offset_spread), so the
+    # learnt table helps on average instead of pulling the other fuel's peaks onto its own
+    # components. Columns 10-13 were not used while choosing the method; the figures measured
+    # are beside the asserts (held out by family).
+    from dha.identify import _library_indices, _offset_spread
+    from dha.retention import learn_indices, write_index_overlay
+    from dha.synthetic import lab_standard, real_fuel_run
+    pairs = (("KUZ-0668", "KUZ-0689", "RBOB5"), ("KUZ-0589", "KUZ-0668", "TG aromatics"),
+             ("KUZ-0697", "KUZ-0589", "FACE_C"))       # reference -> other fuel (family)
+    learnt, plain, taus = [], [], []
+    for col in (10, 11, 12, 13):
+        kw = dict(column_sd=3.0, column_seed=col, index_noise_sd=0.1)
+        for k, (ref_id, other, fam) in enumerate(pairs):
+            ref, _ = real_fuel_run(lib, ref_id, seed=1, names=True, **kw)
+            table = learn_indices([("REF", ref)], lib, _settings(markers=lab_standard()))
+            write_index_overlay(table, tmp_path / f"lab{col}{k}", runs=["REF"])
+            lab = load_library(tmp_path / f"lab{col}{k}")
+            li = _library_indices(lab)
+            taus.append(_offset_spread(lab, li["name"].to_numpy(), li["ri_kind"].to_numpy()))
+            run, truth = real_fuel_run(lib, other, seed=2, **kw)
+            s = _settings(markers=lab_standard(), prior_exclude_families=[fam])
+            learnt.append(identification_accuracy(identify(run, lab, s), truth))
+            plain.append(identification_accuracy(identify(run, lib, s), truth))
+    assert 2.0 < np.median(taus) < 4.0, taus       # the column's sd 3 (measured 1.8-3.1)
+    # measured: learnt 0.867 (0.767-0.989), plain 0.827 (0.682-0.943) over the 12 runs; issue
+    # 13's >= 0.95 is NOT met: an offset of one component says nothing of another's
+    assert np.mean(learnt) >= np.mean(plain) + 0.02, (learnt, plain)
+
+
+def test_a_stated_blend_component_is_found_and_an_unstated_one_is_flagged(lib):
+    # Issue 13 on the data's blending study: RBOB5 + 40 % v/v prenol (3-methyl-2-buten-1-ol,
+    # index 767.1, beside 4-methylheptane at 768.0, which real petrol holds at about 1 %).
+    # Held out, the prior cannot know prenol. A lab that states it (expected_oxygenates) gets
+    # it: stated oxygenates have no share limit, and a 40 % peak is implausible for a component
+    # real fuels hold at <= 1/3 of that (identify.size_limits). Unstated, the run is not passed.
+    from dha.synthetic import lab_standard, real_fuel_run
+    peaks, truth = real_fuel_run(lib, "KUZ-0497", seed=4242, index_noise_sd=0.5)
+    base = dict(markers=lab_standard(), prior_exclude_families=["RBOB5"])
+    stated = identify(peaks, lib, _settings(expected_oxygenates=["prenol"], **base))
+    main = truth.loc[truth["mass_pct"].idxmax()]
+    assert main["component"] == "3-methyl-2-buten-1-ol"
+    got = stated.loc[stated["row"] == main["row"], "component"].tolist()
+    assert got == ["3-methyl-2-buten-1-ol"], got
+    assert identification_accuracy(stated, truth) >= 0.9
+    plain = identify(peaks, lib, _settings(**base))
+    if identification_accuracy(plain, truth) < 0.9:
+        assert plain.attrs["quality"]["verdict"] != "pass"
+
+
+def test_match_confidence_survives_a_peak_with_no_entry_in_its_window():
+    # The last matched peak's window (+-0.5) holds no entry: the confidence is 0 for it, not an
+    # IndexError from the grouped maximum (seen in the benchmark with a narrow spread).
+    from dha.identify import _match_confidence
+    lib_ri = np.array([500.0, 510.0])
+    conf, rival = _match_confidence(np.array([500.1, 512.0]), lib_ri, lib_ri, np.zeros(2),
+                                    np.array([0, 1]), 0.5, 0.25)
+    assert conf[0] > 0.8 and conf[1] == 0.0

@@ -236,3 +236,34 @@ def test_empty_result_still_gives_the_face_and_the_skeleton(tmp_path):
     assert len(text) >= 2
     assert "DRAFT — not released" in text[0] and "carcinogen" in text[0]
     assert "no carbon-number data" in " ".join(text[1:])
+
+
+@pytest.mark.parametrize("n_warnings,roomy", [(3, True), (25, True), (3, False)])
+def test_points_to_check_stay_on_page_one_and_traceability_is_not_alone(result, tmp_path,
+                                                                         n_warnings, roomy):
+    # A certificate face that carries over onto the next page is not a face (common practice,
+    # no source): the points to check are cut to the room left on page 1, the rest named by
+    # count; the traceability hashes come before the logs, never alone on a last page.
+    res = copy.deepcopy(result)
+    if roomy:       # a short method and no identification reasons: room for some points
+        res["sample"]["method"] = "DHA 100 m"
+        res["sample"]["notes"] = []
+        res["checks"] = [c for c in res["checks"] if c["property"] != "identification"]
+    res["warnings"] = [f"point number {i}: peak row {100 + i} at {20 + i * 0.7:.3f} min co-elutes "
+                       "with a neighbour on this phase and was not split; check its area"
+                       for i in range(n_warnings)]
+    pages = _read(write_pdf(res, tmp_path / "many.pdf"))
+    assert f"Points to check ({n_warnings}" in pages[0]
+    on_face = [i for i in range(n_warnings) if f"point number {i}:" in pages[0]]
+    assert on_face == list(range(len(on_face)))                  # the first ones, in order
+    assert bool(on_face) == roomy
+    if 0 < len(on_face) < n_warnings:
+        assert f"and {n_warnings - len(on_face)} more" in pages[0]
+    if not on_face:
+        assert "see the list of warnings after the components" in pages[0]
+    assert "Points to check" not in pages[1] and "point number" not in pages[1]
+    rest = " ".join(pages[1:])
+    assert all(f"point number {i}:" in rest for i in range(n_warnings))  # the full list
+    trace = [p for p in pages if "Traceability" in p]
+    assert len(trace) == 1 and "Import log" in " ".join(pages[pages.index(trace[0]):])
+    assert rest.index("Traceability") < rest.index("Import log")

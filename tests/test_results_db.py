@@ -129,3 +129,21 @@ def test_record_from_a_real_result(tmp_path):
     assert row[2] == result["totals"]["vol_pct"]["aromatics"]
     assert row[3] == result["properties"]["ron"]
     assert n == len(result["components"])
+
+
+def test_recorder_writes_whole_groups_of_runs(tmp_path):
+    # The batch driver's recorder commits a group of runs per transaction: another reader sees
+    # whole groups of whole runs, the rest after close; a removed run goes in the same group.
+    rec = results_db.Recorder(tmp_path, group_runs=3, group_s=1e9)
+    for i in range(7):
+        rec({"path": f"T/{i}.json", "result": fake_result(i, "T"),
+             "row": {"spec": "en228-e10-summer", "this_batch": "processed"}})
+        seen = _consistent(tmp_path / results_db.DB_NAME)
+        assert len(seen) == 3 * ((i + 1) // 3)
+        assert (seen["n"] == N_COMPONENTS).all()
+    rec({"path": "T/7.json", "result": fake_result(7, "T"), "removed": ["T/0.json"],
+         "row": {"spec": "en228-e10-summer", "this_batch": "processed"}})
+    rec.close()
+    seen = _consistent(tmp_path / results_db.DB_NAME)
+    assert sorted(seen["run_key"]) == [f"T/{i}.json" for i in range(1, 8)]
+    assert (seen["n"] == N_COMPONENTS).all()

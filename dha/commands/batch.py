@@ -75,11 +75,16 @@ def batch_command(paths, out_dir, jobs, spec, formats, recursive, engine, schedu
                f"{counts['up_to_date']} up to date, {counts['earlier']} from earlier batches, "
                f"{counts['failed']} not processed; {len(flagged)} flagged")
     for _, row in failed.iterrows():
-        click.echo(terminal_text(f"  not processed: {row['input']}: {row['error']}"))
-    for _, row in flagged.iterrows():
+        when = " (earlier batch)" if row["this_batch"] == batch.EARLIER else ""
+        click.echo(terminal_text(f"  not processed{when}: {row['input']}: {row['error']}"))
+    shown = 20      # a screenful: every flag is in summary.csv / summary.xlsx
+    for _, row in flagged.head(shown).iterrows():
         click.echo(terminal_text(f"  flagged: {row['input']} {row['sample_id']}: {row['flags']}"))
+    if len(flagged) > shown:
+        click.echo(f"  ... and {len(flagged) - shown} more flagged runs: see the flags column "
+                   "of the summary")
     click.echo(terminal_text(f"summary: {', '.join(str(p) for p in written[:2])}"))
-    if len(failed):
+    if (failed["this_batch"] != batch.EARLIER).any():    # exit 1 for this batch's failures only
         raise SystemExit(1)
 
 

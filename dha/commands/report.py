@@ -68,6 +68,9 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
     """
     from dha.library import load_library
     from dha.pipeline import process_file_stems, write_outputs
+    from dha.provenance import averaged as averaged_provenance
+    from dha.provenance import provenance as make_provenance
+    from dha.provenance import settings_sha256, sha256_file
     from dha.safety import terminal_text
     from dha.settings import load_settings
     from dha import specs
@@ -77,8 +80,17 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
         formats = list(settings.get("report", {}).get("formats", ["json"]))
     library = load_library(overlay=library_dir) if library_dir else load_library()
     profile = settings.get("report", {}).get("spec", "") if spec is None else spec
-    if profile:
-        specs.load_profile(profile)   # a bad profile is the profile's error, not an input's
+    # a bad profile is the profile's error, not an input's
+    loaded = specs.load_profile(profile) if profile else None
+    settings_digest = settings_sha256(settings, loaded)
+
+    def stems_of(p):
+        """(stem, result) of one input, each result with its provenance."""
+        got = process_file_stems(p, settings, library, spec)
+        digest = sha256_file(p)
+        for _stem, result in got:
+            result["provenance"] = make_provenance(digest, library, settings_digest)
+        return got
     failed_checks = 0
     failed_inputs = 0
     average = average_injections or settings.get("injections", {}).get("average", False)
@@ -87,11 +99,13 @@ def report_command(inputs, out_dir, formats, spec, library_dir, settings_file, o
         try:
             if path is None:
                 from dha.replicates import report_averaged
-                results = report_averaged(inputs, settings, library, spec, lambda p: [
-                    (stem, r) for stem, r in process_file_stems(p, settings, library, spec)])
+                results = report_averaged(inputs, settings, library, spec, stems_of)
+                for _stem, result in results:
+                    if result.get("replicates"):
+                        result["provenance"] = averaged_provenance(result)
             else:
                 with warnings_name_input(path):
-                    results = process_file_stems(path, settings, library, spec)
+                    results = stems_of(path)
             for stem, result in results:
                 written = write_outputs(result, out_dir, stem, formats, overwrite=overwrite)
                 failed_checks += sum(1 for c in result.get("checks", [])

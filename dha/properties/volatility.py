@@ -81,6 +81,10 @@ RIAZI_DAUBERT_TBP_TO_D86_K = np.array([
 #: while UNIFAC covers the rest (gamma computed over the rest, renormalised); above it the
 #: whole mixture is treated as ideal, with a warning.
 MAX_NO_GROUPS_MOL_PCT = 1.0
+#: Tolerance on ln(P_bubble/P) of the bubble points along a distillation [-]: 1e-7 is
+#: about 3e-6 K (d ln P/dT is about 0.035 /K for petrol components near their boiling
+#: points); the public :func:`bubble_temperature_k` keeps 1e-9.
+STEP_TOL = 1e-7
 #: Extra points of the distillation near its end [% evaporated].
 TAIL_VOL_PCT = np.array([95.0, 96.0, 97.0, 98.0, 98.5, 99.0, 99.5])
 #: Volume % evaporated at which the D86-like FBP is read (see module notes).
@@ -524,14 +528,17 @@ def bubble_temperature_k(mixture: Mixture, x: np.ndarray, p_kpa: float = P_ATM_K
 
 
 def _bubble_point(mixture: Mixture, x: np.ndarray, p_kpa: float, t_guess_k: float,
-                  tol: float = 1e-9) -> tuple[float, np.ndarray]:
-    """(bubble temperature [K], ln K_i = ln γ_i + ln P^sat_i − ln P there) of liquid ``x``.
+                  tol: float = 1e-9, slope_ratio: float = 1.0
+                  ) -> tuple[float, np.ndarray, float]:
+    """(bubble temperature [K], ln K_i = ln γ_i + ln P^sat_i − ln P there, slope ratio) of
+    liquid ``x``.
 
     f(u) = ln Σ x_i γ_i P^sat_i − ln P with u = 1/T is close to linear in u. The first step
-    from ``t_guess_k`` is a Newton step whose slope is Σ y_i d ln P^sat_i/du (the activity
-    coefficients' temperature dependence left out of the slope only); then a safeguarded
-    secant to |f| < ``tol``. From the previous point of a distillation this takes 2–4
-    evaluations of γ.
+    from ``t_guess_k`` is a Newton step with the slope Σ y_i d ln P^sat_i/du times
+    ``slope_ratio`` (the activity coefficients' share of the slope, as the last solve of a
+    distillation saw it; 1 = left out); then a safeguarded secant to |f| < ``tol``. The
+    returned ratio is the last secant slope over the P^sat-only slope, for the next solve.
+    From the previous point of a distillation this takes 2–3 evaluations of γ.
     """
     ln_p = np.log(p_kpa)
     ln_gamma = mixture.ln_gamma_of(x)
@@ -551,10 +558,11 @@ def _bubble_point(mixture: Mixture, x: np.ndarray, p_kpa: float, t_guess_k: floa
     lk0 = lg + lps - ln_p
     f0 = _log_sum(lx, lk0, live)
     if abs(f0) < tol:
-        return t0, lk0
+        return t0, lk0, slope_ratio
     y = np.exp(np.where(live, lx + lk0 - f0, -np.inf))
     d = float(y @ slope)                          # d f / d u, negative
-    u1 = u0 - f0 / d if np.isfinite(d) and d < 0 else 1.0 / (t_guess_k + 2.0)
+    ok = np.isfinite(d) and d < 0
+    u1 = u0 - f0 / (d * slope_ratio) if ok else 1.0 / (t_guess_k + 2.0)
     u1 = min(max(u1, 1.0 / 1500.0), 1.0 / 100.0)
     f1, lk1 = f(u1)
     u_low = u_high = None               # root lies in (u_low, u_high); f falls as u rises
@@ -563,9 +571,14 @@ def _bubble_point(mixture: Mixture, x: np.ndarray, p_kpa: float, t_guess_k: floa
             u_low = u if u_low is None else max(u_low, u)
         else:
             u_high = u if u_high is None else min(u_high, u)
+    first = True
     for _ in range(100):
         if abs(f1) < tol:
-            return 1.0 / u1, lk1
+            if first:                   # converged by the Newton step: keep the ratio
+                return 1.0 / u1, lk1, slope_ratio
+            ratio = (f1 - f0) / (u1 - u0) / d if ok and u1 != u0 else 1.0
+            return 1.0 / u1, lk1, (ratio if 0.5 < ratio < 2.0 else 1.0)
+        first = False
         u2 = u1 - f1 * (u1 - u0) / (f1 - f0) if f1 != f0 else u1 * 1.001
         if u_low is not None and u_high is not None and not u_low < u2 < u_high:
             u2 = 0.5 * (u_low + u_high)
@@ -578,7 +591,7 @@ def _bubble_point(mixture: Mixture, x: np.ndarray, p_kpa: float, t_guess_k: floa
         else:
             u_high = u1 if u_high is None else min(u_high, u1)
     log.warning("bubble temperature did not converge (residual %.2e)", f1)
-    return 1.0 / u1, lk1
+    return 1.0 / u1, lk1, 1.0
 
 
 def _log_sum(lx: np.ndarray, lk: np.ndarray, live: np.ndarray) -> float:
@@ -622,7 +635,7 @@ def rayleigh_distillation(mixture: Mixture, p_kpa: float = P_ATM_KPA,
     v0 = float(n @ vm)
 
     x = n / n.sum()
-    t, lk0 = _bubble_point(mixture, x, p_kpa, 350.0)
+    t, lk0, ratio = _bubble_point(mixture, x, p_kpa, 350.0)
     targets = np.unique(np.concatenate([np.arange(step_vol_pct, 95.0, step_vol_pct),
                                         TAIL_VOL_PCT]))
     pct = [0.0]
@@ -637,10 +650,11 @@ def rayleigh_distillation(mixture: Mixture, p_kpa: float = P_ATM_KPA,
         if predictor == "newton" and len(pct) > 1:
             t_pred, lk1 = _newton_bubble_point(mixture, x_pred, p_kpa, t_guess)
         else:
-            t_pred, lk1 = _bubble_point(mixture, x_pred, p_kpa, t_guess)
+            t_pred, lk1, ratio = _bubble_point(mixture, x_pred, p_kpa, t_guess,
+                                               slope_ratio=ratio)
         n = _step_rayleigh(n, np.exp(0.5 * (lk0 + lk1)), vm, v_goal)
         x = n / n.sum()
-        t_new, lk0 = _bubble_point(mixture, x, p_kpa, t_pred)
+        t_new, lk0, ratio = _bubble_point(mixture, x, p_kpa, t_pred, STEP_TOL, ratio)
         slope_t = (t_new - t) / (target - pct[-1])
         t = t_new
         pct.append(float(target))
@@ -663,7 +677,7 @@ def _newton_bubble_point(mixture: Mixture, x: np.ndarray, p_kpa: float, t_guess_
     y = np.exp(np.where(live, lx + lk - f0, -np.inf))
     d = float(y @ slope)
     if not (np.isfinite(d) and d < 0):
-        return _bubble_point(mixture, x, p_kpa, t_guess_k)
+        return _bubble_point(mixture, x, p_kpa, t_guess_k)[:2]
     t = 1.0 / min(max(1.0 / t_guess_k - f0 / d, 1.0 / 1500.0), 1.0 / 100.0)
     return t, lg + mixture.psat.ln_psat(t) - ln_p
 

@@ -125,13 +125,16 @@ def _table(ws, header: Sequence[str], rows: Iterable[Sequence[Any]],
         cell.alignment = Alignment(vertical="top", wrap_text=False)
     r = start_row
     fmts = list(formats or [])
+    last = ws.max_row       # counted once: ws.max_row scans every cell (quadratic in a loop)
     for r, row in enumerate(rows, start=start_row + 1):
-        if r == ws.max_row + 1:            # the usual case: append the whole row at once
+        if r == last + 1:                  # the usual case: append the whole row at once
+            last = r
             ws.append([_cell_value(v) for v in row])
             for j, value in enumerate(row):
                 if j < len(fmts) and fmts[j] and is_number(value):
                     ws.cell(row=r, column=j + 1).number_format = fmts[j]
             continue
+        last = max(last, r)
         for j, value in enumerate(row, start=1):
             cell = ws.cell(row=r, column=j, value=_cell_value(value))
             if fmts and j - 1 < len(fmts) and fmts[j - 1] and is_number(value):

@@ -13,7 +13,10 @@ charts drawn with matplotlib and embedded as images. A4 portrait:
    the octane contributions (table and chart) and what pulls the octane number down, when the
    result has them, and the peaks to review;
 3. onwards: the components (largest first; ``[report] pdf_component_rows``, the workbook lists
-   all), the import log and every warning.
+   all), the traceability checksums, the import log and every warning.
+
+The points to check on page 1 are cut to the room left above the signature block ("... and n
+more"; one line when there is no room for a single point): page 1 never carries over.
 
 The settings used are not printed (they are in the workbook and the JSON; their sha256 is on
 page 1). Every page has the draft marking and a footer with the sample id, the time the result
@@ -147,8 +150,9 @@ def _num(value: Any, decimals: int) -> str:
 
 def _table(rows: Sequence[Sequence[Any]], widths: Sequence[float], *, header: bool = True,
            align_right: Sequence[int] = (), zebra: bool = True, bold_last: bool = False,
-           font_pt: float = SMALL_PT, repeat: bool = True):
-    """A table of plain cells (str: drawn as strings, fast) or Paragraphs (wrapped)."""
+           font_pt: float = SMALL_PT, repeat: bool = True, pad: tuple[float, float] = (0.6, 1.0)):
+    """A table of plain cells (str: drawn as strings, fast) or Paragraphs (wrapped); ``pad``
+    is the (top, bottom) padding of every cell [pt]."""
     from reportlab.lib.colors import HexColor
     from reportlab.platypus import Table, TableStyle
 
@@ -160,8 +164,8 @@ def _table(rows: Sequence[Sequence[Any]], widths: Sequence[float], *, header: bo
         ("FONT", (0, 0), (-1, -1), font, font_pt, font_pt * 1.22),
         ("TEXTCOLOR", (0, 0), (-1, -1), HexColor(INK)),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
-        ("TOPPADDING", (0, 0), (-1, -1), 0.6),
-        ("BOTTOMPADDING", (0, 0), (-1, -1), 1.0),
+        ("TOPPADDING", (0, 0), (-1, -1), pad[0]),
+        ("BOTTOMPADDING", (0, 0), (-1, -1), pad[1]),
         ("LEFTPADDING", (0, 0), (-1, -1), 2.5),
         ("RIGHTPADDING", (0, 0), (-1, -1), 2.5),
     ]
@@ -456,7 +460,8 @@ def _results_block(result: dict) -> list:
         marks.append((len(rows) - 1, r["verdict"]))
     widths = [128, 38, 38, 34, 50, 122, 0.0]
     widths[-1] = CONTENT_W_PT - sum(widths[:-1])
-    tbl = _table(rows, widths, align_right=(1, 2, 4), zebra=False)
+    # tighter rows than elsewhere: page 1 keeps room for the points to check
+    tbl = _table(rows, widths, align_right=(1, 2, 4), zebra=False, pad=(0.15, 0.45))
     _font, bold = _fonts()
     for i in heads:
         tbl.setStyle([("SPAN", (0, i), (-1, i)), ("FONT", (0, i), (-1, i), bold, SMALL_PT,
@@ -479,15 +484,72 @@ def _results_block(result: dict) -> list:
 
 
 def _points_to_check(result: dict, limit: int = 8) -> list:
+    """The warnings in words on page 1: as many as fit above the signature block (at most
+    ``limit``), then "... and n more": the list never carries over onto page 2."""
     warnings = [plain_words(w) for w in result.get("warnings") or []]
     if not warnings:
         return []
-    out = [_p(f"Points to check ({len(warnings)}; all are listed after the components)", "h2")]
-    for w in warnings[:limit]:
-        out.append(_p(f"• {w}", "small"))
-    if len(warnings) > limit:
-        out.append(_p(f"… and {len(warnings) - limit} more: see the list of warnings.", "grey"))
-    return out
+    return [_fitting_points_class()(warnings, limit)]
+
+
+@lru_cache(maxsize=1)
+def _fitting_points_class():
+    from reportlab.platypus import Flowable
+
+    class FittingPoints(Flowable):
+        """Heading, bullets and a closing line, cut to the space left on the page."""
+
+        def __init__(self, warnings: list[str], limit: int):
+            super().__init__()
+            self.warnings = warnings
+            self.limit = limit
+            self._parts: list = []
+
+        def _layout(self, avail_w: float, k: int) -> tuple[list, float]:
+            n = len(self.warnings)
+            if k < 0:       # no room for a single point: one line
+                parts = [_p(f"Points to check ({n}): see the list of warnings after the "
+                            "components.", "h3")]
+            else:
+                head = _p(f"Points to check ({n}; all are listed after the components)", "h2")
+                parts = [head] + [_p(f"• {w}", "small") for w in self.warnings[:k]]
+                if k < n:
+                    parts.append(_p(f"… and {n - k} more: see the list of warnings after the "
+                                    "components.", "grey"))
+            height = 0.0
+            for i, part in enumerate(parts):
+                height += part.wrap(avail_w, 10_000)[1]
+                if i:
+                    height += part.getSpaceBefore()
+                height += part.getSpaceAfter()
+            return parts, height
+
+        def wrap(self, avail_w, avail_h):
+            k = min(self.limit, len(self.warnings))
+            parts, height = self._layout(avail_w, k)
+            while height > avail_h and k > -1:
+                k -= 1
+                parts, height = self._layout(avail_w, k)
+            self._parts, self.width, self.height = parts, avail_w, height
+            return avail_w, height
+
+        def getSpaceBefore(self):  # noqa: N802 - reportlab's name
+            return _styles()["h2"].spaceBefore
+
+        def split(self, avail_w, avail_h):
+            return []           # never split: ``wrap`` already cut the list to the space
+
+        def draw(self):
+            y = self.height
+            for i, part in enumerate(self._parts):
+                if i:
+                    y -= part.getSpaceBefore()
+                _w, h = part.wrap(self.width, 10_000)
+                y -= h
+                part.drawOn(self.canv, 0, y)
+                y -= part.getSpaceAfter()
+
+    return FittingPoints
 
 
 @lru_cache(maxsize=1)
@@ -805,8 +867,9 @@ def story(result: dict) -> list:
     s += _review_block(result)
     s += _components_block(result)
     s.append(Spacer(1, 4))
-    s += _logs_block(result)
+    # traceability before the logs: at the very end it was sometimes alone on the last page
     s += _traceability_block(result)
+    s += _logs_block(result)
     return s
 
 
@@ -884,8 +947,12 @@ def build_pdf(result: dict) -> bytes:
     if not isinstance(result, dict):
         raise InputError(f"PDF report: result must be a dict (dha-result/1), got "
                          f"{type(result).__name__}")
+    from reportlab import rl_config
     from reportlab.platypus import BaseDocTemplate, Frame, NextPageTemplate, PageTemplate
 
+    # binary (zlib) streams only: the ASCII-85 text encoding of every page and image is done
+    # in pure Python without reportlab's optional accelerator (about 10 % of the PDF's time)
+    rl_config.useA85 = 0
     _fonts()
     foot = page1_foot_pt()
     frame1 = Frame(MARGIN_X_PT, BOTTOM_PT + foot + 6, CONTENT_W_PT,

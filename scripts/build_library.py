@@ -502,11 +502,27 @@ def validate_specs(specs: list[Spec]) -> None:
 # ---------------------------------------------------------------------------------------------
 TB_REJECTED: dict[str, str] = {}
 
+#: Boiling points decided one by one where the tables disagree (CAS -> chosen table, reason);
+#: listed in BUILD_REPORT.md ("Boiling points decided").
+#: - 1-butyl-2-methylbenzene: WEBBOOK 474.0 K, YAWS 481.15 K. In every dialkylbenzene series
+#:   with chemicals' boiling points the ortho isomer boils 2-5 K above the meta isomer (xylenes 417.5 /
+#:   412.2, ethyltoluenes 438.3 / 434.5, cymenes 451.2 / 448.2, propyltoluenes 458.2 / 455.2,
+#:   diethylbenzenes 456.6 / 454.3); the meta butyltoluene is 478.2 K (WEBBOOK). YAWS fits the
+#:   series (+3 K), WEBBOOK's 474.0 K would put the ortho isomer 4 K below the meta one.
+TB_DECIDED: dict[str, tuple[str, str]] = {
+    "1595-11-5": ("YAWS", "WEBBOOK 474.0 K would put the ortho isomer 4 K below 1-butyl-3-methyl"
+                          "benzene (478.2 K); in the xylene, ethyltoluene, cymene, propyltoluene "
+                          "and diethylbenzene series (chemicals' boiling points) ortho boils "
+                          "2-5 K above meta, as YAWS 481.15 K does"),
+}
+TB_DECISIONS: list[str] = []
+
 
 def tb_value(cas: str):
     """Measured normal boiling point: the first data table in TB_DATA order that agrees with the
     other tables (within 3 K of their median) or, if it is the only one, with the Joback estimate
-    (within 35 K; catches reduced-pressure boiling points filed as normal ones)."""
+    (within 35 K; catches reduced-pressure boiling points filed as normal ones); the table
+    named in TB_DECIDED where the tables disagree and one was chosen by hand."""
     meths = chemicals.Tb_methods(cas)
     vals = {}
     for mth in TB_DATA:
@@ -516,6 +532,13 @@ def tb_value(cas: str):
                 vals[mth] = float(v)
     if not vals:
         return None, None, None
+    if cas in TB_DECIDED:
+        mth, why = TB_DECIDED[cas]
+        line = (f"- {cas}: {mth} {vals[mth]:.2f} K of "
+                + ", ".join(f"{k} {v:.2f}" for k, v in vals.items()) + f": {why}")
+        if line not in TB_DECISIONS:
+            TB_DECISIONS.append(line)
+        return vals[mth], pkg_ref("chemicals", CHEM_V, f"Tb:{mth}", TB_CITES[mth], LIC_TABLE), mth
     if len(vals) >= 2:
         med = float(np.median(list(vals.values())))
         ok = [m for m in TB_DATA if m in vals and abs(vals[m] - med) <= 3.0]
@@ -1277,6 +1300,9 @@ def write_report(comp, vp, counts, logs) -> None:
               f"the estimate (not used for them) differs from the table by mean {e.mean():+.1f} %, RMS "
               f"{np.sqrt((e**2).mean()):.1f} %, 90th percentile of |error| {np.percentile(np.abs(e), 90):.1f} %. "
               "Largest: " + ", ".join(f"{n} {100*v:+.1f} %" for n, v in worst) + "."]
+    if TB_DECISIONS:
+        L += ["", "## Boiling points decided (tables disagree; TB_DECIDED in build_library.py)", ""]
+        L += sorted(TB_DECISIONS)
     if TB_REJECTED:
         L += ["", "## Boiling points rejected (structure left out of the enumeration)", ""]
         L += [f"- {cas}: {txt}" for cas, txt in sorted(TB_REJECTED.items())]
@@ -1351,7 +1377,7 @@ def main(argv=None) -> int:
             raise SystemExit(f"source key {k} not in references")
     write_references(OUT / "references.toml")
     (OUT / "library.toml").write_text(
-        'name = "dha shipped library"\nversion = "2026.12.3"\n'
+        'name = "dha shipped library"\nversion = "2026.12.4"\n'
         'description = "Petrol components for detailed hydrocarbon analysis: identity, group, physical '
         'properties, neat octane numbers, FID effective carbon numbers, estimated retention indices on 100 % '
         'dimethylpolysiloxane, vapour-pressure correlations and original-UNIFAC groups. Built by '

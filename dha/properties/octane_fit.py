@@ -105,6 +105,9 @@ MODEL_SELECTION_3 = {
     "+ C3+ alcohol x paraffin": "1.39 / -0.63 | 2.38",
     "+ C3+ alcohol x paraffin, prior width 40": "1.34 / -0.56 | 2.39",
     "+ C3+ alcohol x paraffin and x naphthene (chosen)": "1.24 / +0.04 | 2.44",
+    # refit on library 2026.12.3/.4 (real-fuel components shipped instead of lumped, their
+    # neat values and densities from the library): same form, no new choice
+    "the chosen form, refit on library 2026.12.4": "1.31 / +0.11 | 2.44",
 }
 
 #: Model selection with the 40 real gasolines (2026-12-03), MON, figures = leave-one-family-out

@@ -408,6 +408,19 @@ def test_reformate_type_sensitivity(library):
             "2,2,4-trimethylpentane": 8, "2-methylhexane": 4, "methylcyclopentane": 3}
     res = oc.compute(_composition(comp), library, _settings("interaction"))
     assert 3.0 <= res.values["sensitivity"] <= 12.0
+    # Because of that, a sample rich in aromatics and olefins that no measured RON has checked
+    # (here 30 % v/v: xylenes, ethylbenzene, pentenes) says so and gets the doubled RON
+    # uncertainty; its MON uncertainty stays the real-fuel figure.
+    assert res.details["octane_ron_unchecked_share_vol_pct"] == pytest.approx(30.0, abs=1e-9)
+    assert any("no measured RON has checked" in w for w in res.warnings)
+    mp = oc.load_params()["models"]["interaction"]
+    assert res.uncertainty["ron"] >= 2 * mp["ron"]["cv_rmse"]
+    assert res.uncertainty["mon"] < 1.5 * mp["mon"]["cv_rmse"]
+    # the toluene surrogate the RON was fitted on does not get the warning
+    s4 = {"2,2,4-trimethylpentane": 46.7, "toluene": 33.7, "n-heptane": 14.5, "1-hexene": 5.1}
+    res = oc.compute(_composition(s4), library, _settings("interaction"))
+    assert res.details["octane_ron_unchecked_share_vol_pct"] == 0.0
+    assert not any("no measured RON has checked" in w for w in res.warnings)
 
 
 def test_samples_outside_the_domain_get_a_warning_and_wider_uncertainty(library, data):

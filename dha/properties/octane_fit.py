@@ -875,8 +875,15 @@ def domain_of(data: MixtureData) -> dict[str, Any]:
     used = (data.vol_frac.to_numpy()[fit_rows(data, "mon")] > 0).any(axis=0)
     oxy = sorted({str(n) for n, g, u in zip(c["name"], c["group"], used)
                   if u and g == "oxygenates"})
+    # aromatics and olefins at >= 0.5 % v/v in a mixture with a measured RON: the components
+    # whose sensitivity (RON - MON) the RON fit has seen
+    ron_rows = data.info["ron"].notna().to_numpy()
+    seen = (data.vol_frac.to_numpy()[ron_rows] >= 0.005).any(axis=0)
+    sens = sorted({str(n) for n, k, u in zip(c["name"], c["class"], seen)
+                   if u and k in ("aromatic", "olefin")})
     return {"real_fuel_class_fractions": [[round(float(v), 4) for v in r] for r in frac],
-            "max_distance": round(reach, 3), "oxygenates_checked": oxy}
+            "max_distance": round(reach, 3), "oxygenates_checked": oxy,
+            "ron_sensitivity_checked": sens}
 
 
 def _rounded(v: Any) -> Any:

@@ -449,3 +449,28 @@ def test_samples_outside_the_domain_get_a_warning_and_wider_uncertainty(library,
     res = oc.compute(_composition(d), library, s)
     assert any("2-methoxy-2-methylbutane, an oxygenate the model was not checked on" in w
                for w in res.warnings)
+
+
+def test_model_inputs_handles_every_missing_marker(library):
+    """Unknown rows with their carbon number as NaN, None or pd.NA (nullable Int64), and
+    molar mass/density missing in each way, give the same inputs as a plain float table
+    (the stand-in of the carbon number, or C7 when there is none)."""
+    import numpy as np
+    import pandas as pd
+
+    plain = pd.DataFrame({"name": ["toluene", "peak at 12.3 min", "peak at 20.0 min"],
+                          "model_component": ["toluene", None, None],
+                          "carbon_number": [7.0, 9.0, np.nan], "vol_pct": [50.0, 30.0, 20.0],
+                          "molar_mass_g_mol": [92.14, np.nan, np.nan],
+                          "density_kg_m3": [871.0, np.nan, np.nan]})
+    nullable = plain.assign(carbon_number=pd.array([7, 9, pd.NA], dtype="Int64"),
+                            model_component=["toluene", np.nan, pd.NA],
+                            molar_mass_g_mol=pd.array([92.14, None, None], dtype="Float64"))
+    a = oc.model_inputs(plain, library.components)
+    b = oc.model_inputs(nullable, library.components)
+    pd.testing.assert_frame_equal(a, b)
+    assert a["name"].tolist()[0] == "toluene"
+    assert oc._missing(None) and oc._missing(np.float64("nan")) and oc._missing(pd.NA)
+    assert not oc._missing(0) and not oc._missing(0.0) and not oc._missing("x")
+    # no composition rows: an empty table, not an error
+    assert oc.model_inputs(plain.iloc[:0], library.components).empty

@@ -971,6 +971,15 @@ def _component_inputs(components: pd.DataFrame, key: str | None, cn: int | None,
     return entry
 
 
+def _missing(value: Any) -> bool:
+    """``pd.isna`` for one scalar (None, NaN, pd.NA), without its per-call overhead."""
+    if value is None or value is pd.NA:
+        return True
+    if isinstance(value, float):        # numpy float64 is a float
+        return value != value
+    return bool(pd.isna(value)) if not isinstance(value, (int, str)) else False
+
+
 def model_inputs(composition: pd.DataFrame, components: pd.DataFrame) -> pd.DataFrame:
     """One row per composition row with what the models need.
 
@@ -981,40 +990,65 @@ def model_inputs(composition: pd.DataFrame, components: pd.DataFrame) -> pd.Data
     """
     if "vol_pct" not in composition:
         raise LibraryError("composition table has no vol_pct column; run the quantify stage")
-    rows = []
+    n = len(composition)
+
+    def column(name: str) -> list:
+        return composition[name].tolist() if name in composition else [None] * n
+
     estimators: dict[str, NeatEstimator] = {}
     index = components.index
-    for r in composition.to_dict(orient="records"):
+    keys_by_col = [column(c) for c in ("model_component", "component", "name")]
+    names, carbon = column("name"), column("carbon_number")
+    row_mm, row_dens = column("molar_mass_g_mol"), column("density_kg_m3")
+    vol_pct = composition["vol_pct"].tolist()
+    # column by column (not row dicts): the same values, without a dict per row
+    cols: dict[str, list] = {c: [] for c in ("name", "vol_frac", "molar_volume_cm3_mol",
+                                             "group", "class", "structure")}
+    for p in PROPERTIES:
+        cols[p], cols[f"{p}_estimated"] = [], []
+    known: dict[str, bool] = {}
+    for i in range(n):
         key = None
-        for col in ("model_component", "component", "name"):
-            v = r.get(col)
-            if isinstance(v, str) and v in index:
-                key = v
-                break
-        if key is None and pd.notna(r.get("carbon_number")):
+        for candidates in keys_by_col:
+            v = candidates[i]
+            if isinstance(v, str):
+                hit = known.get(v)
+                if hit is None:
+                    hit = known[v] = v in index
+                if hit:
+                    key = v
+                    break
+        cn = carbon[i]
+        if key is None and not _missing(cn):
             # unidentified: the 2-methylalkane of its carbon number, if the library has it
-            key = two_methyl_alkane_name(int(r["carbon_number"]))
+            key = two_methyl_alkane_name(int(cn))
             key = key if key in index else None
-        cn = None
         if key is None:
-            cn = r.get("carbon_number")
-            cn = int(cn) if pd.notna(cn) else 7
+            cn = int(cn) if not _missing(cn) else 7
+        else:
+            cn = None
         entry = _component_inputs(components, key, cn, estimators)
         mm, dens = entry["mm"], entry["dens"]
-        mm = r.get("molar_mass_g_mol") if pd.isna(mm) else mm
-        dens = r.get("density_kg_m3") if pd.isna(dens) else dens
-        if pd.isna(dens) or pd.isna(mm):
+        mm = row_mm[i] if _missing(mm) else mm
+        dens = row_dens[i] if _missing(dens) else dens
+        if _missing(dens) or _missing(mm):
             # molar volume only matters for oxygenate weights; a typical petrol value
             vm = _DEFAULT_BASE_MOLAR_VOLUME_CM3_MOL
         else:
             vm = float(mm) / float(dens) * 1000.0
-        out = {"name": key or r.get("name"), "vol_frac": float(r["vol_pct"]) / 100.0,
-               "molar_volume_cm3_mol": vm, "group": entry["group"], "class": entry["class"],
-               "structure": entry["structure"]}
+        cols["name"].append(key or names[i])
+        cols["vol_frac"].append(float(vol_pct[i]) / 100.0)
+        cols["molar_volume_cm3_mol"].append(vm)
+        cols["group"].append(entry["group"])
+        cols["class"].append(entry["class"])
+        cols["structure"].append(entry["structure"])
         for p in PROPERTIES:
-            out[p], out[f"{p}_estimated"] = entry["values"][p]
-        rows.append(out)
-    return pd.DataFrame(rows)
+            value, estimated = entry["values"][p]
+            cols[p].append(value)
+            cols[f"{p}_estimated"].append(estimated)
+    if n == 0:
+        return pd.DataFrame()
+    return pd.DataFrame(cols)
 
 
 def _group_vol_frac(inputs: pd.DataFrame) -> dict[str, float]:

@@ -156,6 +156,10 @@ def cas_key(text: Any) -> str | None:
     return digits
 
 
+#: Names remembered per library name index before the memo starts again (bounds its memory).
+MATCH_MEMO_SIZE = 100_000
+
+
 class _NameIndex:
     """Keys -> library name for one library, built once and cached (see :func:`_index_for`)."""
 
@@ -165,6 +169,9 @@ class _NameIndex:
         self.by_cas: dict[str, str] = {}
         self.ambiguous: set[str] = set()
         self.n_alkanes: dict[int, str] = {}
+        #: text -> match result, filled as names are looked up (a batch sees the same
+        #: export names run after run; the lookup is a pure function of the text)
+        self._seen: dict[str, tuple[str | None, str | None]] = {}
         for name, row in comps.iterrows():
             keys = [name]
             syn = row.get("synonyms")
@@ -205,6 +212,17 @@ class _NameIndex:
 
     def match(self, text: Any) -> tuple[str | None, str | None]:
         """(library name, "name" or "cas") or (None, None)."""
+        if type(text) is str:
+            got = self._seen.get(text)
+            if got is None:
+                got = self._match(text)
+                if len(self._seen) >= MATCH_MEMO_SIZE:
+                    self._seen.clear()
+                self._seen[text] = got
+            return got
+        return self._match(text)
+
+    def _match(self, text: Any) -> tuple[str | None, str | None]:
         if text is None or (isinstance(text, float) and math.isnan(text)):
             return None, None
         text = str(text).strip()

@@ -671,3 +671,20 @@ def test_match_confidence_survives_a_peak_with_no_entry_in_its_window():
     conf, rival = _match_confidence(np.array([500.1, 512.0]), lib_ri, lib_ri, np.zeros(2),
                                     np.array([0, 1]), 0.5, 0.25)
     assert conf[0] > 0.8 and conf[1] == 0.0
+
+
+def test_name_lookup_memo_gives_the_lookup_itself(library, monkeypatch):
+    """The per-library memo of name lookups returns what the lookup returns, for hits, misses,
+    CAS numbers and abbreviations, and starts again when full (bounded memory)."""
+    import dha.identify as idm
+
+    index = idm._index_for(library)
+    texts = ["n-Heptane", "HEPTANE", "108-88-3", "MCP", "nC7", "no such thing", " toluene "]
+    for t in texts * 2:
+        assert index.match(t) == index._match(t)
+    monkeypatch.setattr(idm, "MATCH_MEMO_SIZE", 3)
+    monkeypatch.setattr(index, "_seen", {})
+    for t in texts:
+        index.match(t)
+    assert len(index._seen) <= 3
+    assert index.match("toluene") == ("toluene", "name")

@@ -394,9 +394,9 @@ def explain(composition: pd.DataFrame, library, settings: dict,
     smiles = comp["model_component"].map(comps["smiles"])
     names = comp["name"].astype(str).to_numpy()
     groups = comp["group"].astype(str).to_numpy()
-    buckets = [carbon_bucket(c) if pd.notna(c) else "13+" for c in comp["carbon_number"]]
-    klass = [_structural_class(g, c, s) for g, c, s in
-             zip(groups, comp["carbon_number"], smiles)]
+    carbon = comp["carbon_number"].tolist()
+    buckets = [carbon_bucket(c) if pd.notna(c) else "13+" for c in carbon]
+    klass = [_structural_class(g, c, s) for g, c, s in zip(groups, carbon, smiles.tolist())]
     vol = 100.0 * x
     cells = []
     bucket_rank = {bk: i for i, bk in enumerate((3, 4, 5, 6, 7, 8, 9, 10, 11, 12, "13+"))}

@@ -1066,9 +1066,9 @@ def predict_many(inputs: pd.DataFrame, vol_frac: np.ndarray, model: str,
     ``vol_frac`` gives floats. Row i equals :func:`predict_inputs` with ``vol_frac`` row i."""
     p = params if params is not None else load_params()
     out = {}
-    cats = list(inputs["structure"]) if "structure" in inputs else None
+    cats = inputs["structure"].tolist() if "structure" in inputs else None
     vm = inputs["molar_volume_cm3_mol"].to_numpy()
-    cls = list(inputs["class"])
+    cls = inputs["class"].tolist()
     for prop in PROPERTIES:
         mp = model_params(model, prop, p)
         if mp.get("mode") == "mon_plus_sensitivity":

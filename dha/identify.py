@@ -395,9 +395,26 @@ def match_names(peaks: pd.DataFrame, library: Any, use_names: bool = True) -> pd
 # The identification step
 # --------------------------------------------------------------------------------------------
 
+_LIBRARY_INDICES_CACHE: dict[int, tuple[Any, Any, Any, pd.DataFrame]] = {}
+
+
 def _library_indices(library: Any) -> pd.DataFrame:
-    """Components with a finite index: name, retention_index, source kind, sorted by index."""
+    """Components with a finite index: name, retention_index, source kind, sorted by index.
+
+    Built once per library (object, checksum and components table), a copy returned."""
     comps = library.components
+    sha = getattr(library, "sha256", None)
+    hit = _LIBRARY_INDICES_CACHE.get(id(library))
+    if hit is not None and hit[0] is library and hit[1] == sha and hit[2] is comps:
+        return hit[3].copy()
+    table = _build_library_indices(comps)
+    if len(_LIBRARY_INDICES_CACHE) > 8:
+        _LIBRARY_INDICES_CACHE.clear()
+    _LIBRARY_INDICES_CACHE[id(library)] = (library, sha, comps, table)
+    return table.copy()
+
+
+def _build_library_indices(comps: pd.DataFrame) -> pd.DataFrame:
     ri = pd.to_numeric(comps.get("retention_index"), errors="coerce")
     src = comps.get("retention_index_source")
     if src is None:

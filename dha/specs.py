@@ -146,8 +146,9 @@ def quantities(result: dict[str, Any], library=None) -> dict[str, tuple[float | 
         for comp in result.get("components") or []:
             name = comp.get("name")
             if comp.get("group") == "oxygenates" and name in table.index:
-                row = table.loc[name]
-                if row["subgroup"] == "ether" and int(row["carbon_number"]) >= 5:
+                # scalar lookups (.at), not a row Series per component
+                if table.at[name, "subgroup"] == "ether" and \
+                        int(table.at[name, "carbon_number"]) >= 5:
                     ethers += comp.get("vol_pct") or 0.0
     out["ethers_c5plus_vol_pct"] = (ethers, None)
     return out

@@ -60,7 +60,7 @@ def _lib_column(comp: pd.DataFrame, library, column: str) -> pd.Series:
 def _oxygen_atoms(formulas: pd.Series) -> pd.Series:
     """Oxygen atoms per formula (0 for None), each distinct formula parsed once."""
     counts = {f: (parse_formula(f) or {}).get("O", 0) for f in formulas.dropna().unique()}
-    return formulas.map(lambda f: counts.get(f, 0) if f is not None else 0)
+    return formulas.map(counts).fillna(0)
 
 
 def oxygen_mass_pct(comp: pd.DataFrame, library) -> float:

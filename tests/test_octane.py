@@ -474,3 +474,24 @@ def test_model_inputs_handles_every_missing_marker(library):
     assert not oc._missing(0) and not oc._missing(0.0) and not oc._missing("x")
     # no composition rows: an empty table, not an error
     assert oc.model_inputs(plain.iloc[:0], library.components).empty
+
+
+def test_remembered_class_matrix_and_estimators_are_the_computed_ones(library):
+    """The per-class-sequence indicator matrix and the per-table estimators the models
+    remember are what a fresh computation gives, and cannot be changed by a caller."""
+    import numpy as np
+
+    classes = ["paraffin", "aromatic", "ether", "light_alcohol", "olefin", "paraffin"]
+    a = oc._class_matrix(classes)
+    b = oc._class_matrix(list(classes))
+    assert a is b
+    oc._CLASS_MATRICES.clear()
+    fresh = oc._class_matrix(classes)
+    for k in a:
+        np.testing.assert_array_equal(a[k], fresh[k])
+    with pytest.raises(ValueError):
+        a["paraffin"][0] = 5.0
+    est = oc.neat_estimators(library.components)
+    assert oc.neat_estimators(library.components) is est
+    # a copy of the table (another object, same content) finds the same fitted estimators
+    assert oc.neat_estimators(library.components.copy())["ron"].loo_rmse == est["ron"].loo_rmse

@@ -541,11 +541,24 @@ def estimate_neat_pair(group: str, smiles: str, ron: float, mon: float,
             True, True)
 
 
+#: neat_estimators per components table object: {id: (table, estimators)}; a table is not
+#: changed in place once loaded (the same assumption as the model-input cache below).
+_ESTIMATORS_BY_TABLE: dict[int, tuple[pd.DataFrame, dict]] = {}
+
+
 def neat_estimators(components: pd.DataFrame) -> dict[str, NeatEstimator]:
-    """Estimators for RON and MON fitted on ``components`` (cached per table content)."""
+    """Estimators for RON and MON fitted on ``components`` (cached per table content, and per
+    table object so that a run does not serialise the library to find them)."""
+    hit = _ESTIMATORS_BY_TABLE.get(id(components))
+    if hit is not None and hit[0] is components:
+        return hit[1]
     cols = components.reindex(columns=["group", "smiles", "ron", "mon"])
     blob = cols.to_json(orient="split")
-    return _estimators_for(str(hash(blob)), blob)
+    out = _estimators_for(str(hash(blob)), blob)
+    if len(_ESTIMATORS_BY_TABLE) > 8:
+        _ESTIMATORS_BY_TABLE.clear()
+    _ESTIMATORS_BY_TABLE[id(components)] = (components, out)
+    return out
 
 
 def estimate_neat(group: str, smiles: str, components: pd.DataFrame, prop: str) -> float:
@@ -569,11 +582,26 @@ def estimate_neat(group: str, smiles: str, components: pd.DataFrame, prop: str) 
 # The blending models
 # --------------------------------------------------------------------------------------------
 
+_CLASS_MATRICES: dict[tuple, dict[str, np.ndarray]] = {}
+
+
 def _class_matrix(classes: list[str]) -> dict[str, np.ndarray]:
+    """Indicator vector of each class (and hydrocarbon / oxygenate) over the components;
+    remembered per class sequence (read-only arrays: a sample's contributions call the model
+    many times on the same components)."""
+    key = tuple(classes)
+    hit = _CLASS_MATRICES.get(key)
+    if hit is not None:
+        return hit
     c = np.asarray(classes)
     out = {k: (c == k).astype(float) for k in CLASSES}
     out["hydrocarbon"] = np.isin(c, HYDROCARBON_CLASSES).astype(float)
     out["oxygenate"] = np.isin(c, OXYGENATE_CLASSES).astype(float)
+    for v in out.values():
+        v.flags.writeable = False
+    if len(_CLASS_MATRICES) > 64:
+        _CLASS_MATRICES.clear()
+    _CLASS_MATRICES[key] = out
     return out
 
 

@@ -226,6 +226,9 @@ def test_cli_levers_and_explain_json_and_tables():
         data["properties"]["ron"], abs=0.01)
     r = runner.invoke(cli, ["explain", str(recipe)])
     assert r.exit_code == 0 and "n-heptane" in r.output
+    # the lowest carbon-number bucket (C1-C3, ethanol's) is labelled as in the reports
+    buckets = {c["carbon_number"] for c in data["octane_contributions"]}
+    assert "C5" in r.output and ("≤C3" in r.output) == (3 in buckets)
     # bad input: one line, exit 1
     r = runner.invoke(cli, ["levers", "no-such-file.csv"])
     assert r.exit_code == 1 and "not found" in r.output

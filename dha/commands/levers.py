@@ -67,6 +67,10 @@ def explain_text(label: str, props: dict, keys: dict) -> str:
         order = sorted(pivot.columns, key=lambda c: (isinstance(c, str), str(c).zfill(3)))
         pivot = pivot[order]
         pivot["total"] = pivot.sum(axis=1)
+        # the lowest bucket holds C1-C3 (ethanol, methanol): labelled as in the reports
+        from dha.report import carbon_label
+        pivot.columns = [carbon_label(c) if c != "total" else c for c in pivot.columns]
+        pivot.columns.name = "carbon number"
         lines.append(f"\n{p.upper()} contribution by group and carbon number (sums to "
                      f"{cells[p].sum():.2f}):")
         lines.append(pivot.round(2).to_string())

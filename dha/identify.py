@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from dha.errors import SettingsError
+from dha.memo import ObjectMemo
 
 log = logging.getLogger("dha.identify")
 
@@ -253,20 +254,12 @@ class _NameIndex:
         return None, None
 
 
-_INDEX_CACHE: dict[int, tuple[Any, str | None, _NameIndex]] = {}
+_NAME_INDEXES = ObjectMemo()
 
 
 def _index_for(library: Any) -> _NameIndex:
-    key = id(library)
-    sha = getattr(library, "sha256", None)
-    hit = _INDEX_CACHE.get(key)
-    if hit is not None and hit[0] is library and hit[1] == sha:
-        return hit[2]
-    index = _NameIndex(library)
-    if len(_INDEX_CACHE) > 8:
-        _INDEX_CACHE.clear()
-    _INDEX_CACHE[key] = (library, sha, index)   # keeps the library alive so its id stays unique
-    return index
+    return _NAME_INDEXES.get(library, lambda: _NameIndex(library),
+                             tag=getattr(library, "sha256", None))
 
 
 def match_name(text: Any, library: Any) -> str | None:
@@ -395,23 +388,15 @@ def match_names(peaks: pd.DataFrame, library: Any, use_names: bool = True) -> pd
 # The identification step
 # --------------------------------------------------------------------------------------------
 
-_LIBRARY_INDICES_CACHE: dict[int, tuple[Any, Any, Any, pd.DataFrame]] = {}
+_LIBRARY_INDICES = ObjectMemo()
 
 
 def _library_indices(library: Any) -> pd.DataFrame:
     """Components with a finite index: name, retention_index, source kind, sorted by index.
 
-    Built once per library (object, checksum and components table), a copy returned."""
+    Built once per components table, a copy returned."""
     comps = library.components
-    sha = getattr(library, "sha256", None)
-    hit = _LIBRARY_INDICES_CACHE.get(id(library))
-    if hit is not None and hit[0] is library and hit[1] == sha and hit[2] is comps:
-        return hit[3].copy()
-    table = _build_library_indices(comps)
-    if len(_LIBRARY_INDICES_CACHE) > 8:
-        _LIBRARY_INDICES_CACHE.clear()
-    _LIBRARY_INDICES_CACHE[id(library)] = (library, sha, comps, table)
-    return table.copy()
+    return _LIBRARY_INDICES.get(comps, lambda: _build_library_indices(comps)).copy()
 
 
 def _build_library_indices(comps: pd.DataFrame) -> pd.DataFrame:

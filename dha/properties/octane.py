@@ -46,6 +46,7 @@ import numpy as np
 import pandas as pd
 
 from dha.errors import CalibrationError, LibraryError, SettingsError
+from dha.memo import ObjectMemo
 from dha.properties import PropertyResult
 
 log = logging.getLogger("dha.octane")
@@ -541,24 +542,18 @@ def estimate_neat_pair(group: str, smiles: str, ron: float, mon: float,
             True, True)
 
 
-#: neat_estimators per components table object: {id: (table, estimators)}; a table is not
-#: changed in place once loaded (the same assumption as the model-input cache below).
-_ESTIMATORS_BY_TABLE: dict[int, tuple[pd.DataFrame, dict]] = {}
+_ESTIMATORS = ObjectMemo()
 
 
 def neat_estimators(components: pd.DataFrame) -> dict[str, NeatEstimator]:
     """Estimators for RON and MON fitted on ``components`` (cached per table content, and per
     table object so that a run does not serialise the library to find them)."""
-    hit = _ESTIMATORS_BY_TABLE.get(id(components))
-    if hit is not None and hit[0] is components:
-        return hit[1]
-    cols = components.reindex(columns=["group", "smiles", "ron", "mon"])
-    blob = cols.to_json(orient="split")
-    out = _estimators_for(str(hash(blob)), blob)
-    if len(_ESTIMATORS_BY_TABLE) > 8:
-        _ESTIMATORS_BY_TABLE.clear()
-    _ESTIMATORS_BY_TABLE[id(components)] = (components, out)
-    return out
+    def by_content() -> dict[str, NeatEstimator]:
+        blob = components.reindex(columns=["group", "smiles", "ron", "mon"]).to_json(
+            orient="split")
+        return _estimators_for(str(hash(blob)), blob)
+
+    return _ESTIMATORS.get(components, by_content)
 
 
 def estimate_neat(group: str, smiles: str, components: pd.DataFrame, prop: str) -> float:
@@ -952,8 +947,8 @@ def _lib_row(comps: pd.DataFrame, name: Any) -> pd.Series | None:
     return None
 
 
-#: Per-library cache of _component_inputs: {id(components): (components, {key: entry})}.
-_INPUTS_CACHE: dict[int, tuple[pd.DataFrame, dict]] = {}
+#: Per-library cache of _component_inputs: components table -> {key: entry}.
+_INPUTS = ObjectMemo()
 
 
 def _component_inputs(components: pd.DataFrame, key: str | None, cn: int | None,
@@ -962,12 +957,7 @@ def _component_inputs(components: pd.DataFrame, key: str | None, cn: int | None,
     gives the models: group, class, molar mass, density and neat values with their
     estimated flags. Computed once per library table and key (the per-row library lookup
     and neat-value estimation cost most of ``model_inputs`` otherwise)."""
-    cached = _INPUTS_CACHE.get(id(components))
-    if cached is None or cached[0] is not components:
-        if len(_INPUTS_CACHE) > 8:
-            _INPUTS_CACHE.clear()
-        cached = _INPUTS_CACHE[id(components)] = (components, {})
-    table = cached[1]
+    table = _INPUTS.get(components, dict)
     ckey = key if key is not None else ("stand-in", cn)
     if ckey in table:
         return table[ckey]

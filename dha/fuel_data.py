@@ -26,6 +26,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from dha.memo import ObjectMemo
+
 DATA_FILE = Path(__file__).parent / "properties" / "octane_data" / "gasolines_mon_training.csv"
 SOURCE = ("KUZ2022_MON: Kuzhagaliyeva et al., Commun. Chem. 5, 111 (2022), CC BY 4.0; "
           "40 real gasoline-like fuels with detailed compositions")
@@ -67,18 +69,11 @@ def real_fuels(library: Any) -> pd.DataFrame:
     conversion and counted in ``unmatched_mass_pct`` by :func:`fuel_table`).
     Components are matched by CAS number first, then by name (:func:`dha.identify.match_name`).
     """
-    key = (id(library), getattr(library, "sha256", None))
-    hit = _FUELS_CACHE.get(key)
-    if hit is not None and hit[0] is library:
-        return hit[1].copy()
-    out = _real_fuels(library)
-    if len(_FUELS_CACHE) > 4:
-        _FUELS_CACHE.clear()
-    _FUELS_CACHE[key] = (library, out)
-    return out.copy()
+    return _FUELS.get(library, lambda: _real_fuels(library),
+                      tag=getattr(library, "sha256", None)).copy()
 
 
-_FUELS_CACHE: dict = {}
+_FUELS = ObjectMemo(size=4)
 
 
 def _real_fuels(library: Any) -> pd.DataFrame:

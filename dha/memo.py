@@ -13,7 +13,7 @@ from typing import Any, Callable, Hashable
 
 
 class ObjectMemo:
-    """Remembered values per object, at most ``size`` objects (then it starts again).
+    """Remembered values per object and tag, at most ``size`` of them (then it starts again).
 
     >>> memo = ObjectMemo()
     >>> table = [1, 2, 3]
@@ -25,17 +25,19 @@ class ObjectMemo:
 
     def __init__(self, size: int = 8) -> None:
         self.size = size
-        self._entries: dict[int, tuple[Any, Hashable, Any]] = {}
+        self._entries: dict[tuple[int, Hashable], tuple[Any, Any]] = {}
 
     def get(self, obj: Any, build: Callable[[], Any], tag: Hashable = None) -> Any:
-        """The value remembered for ``obj`` (and ``tag``), else ``build()`` remembered."""
-        hit = self._entries.get(id(obj))
-        if hit is not None and hit[0] is obj and hit[1] == tag:
-            return hit[2]
+        """The value remembered for ``obj`` and ``tag`` (any hashable: a checksum, settings
+        that change the value), else ``build()``, remembered."""
+        key = (id(obj), tag)
+        hit = self._entries.get(key)
+        if hit is not None and hit[0] is obj:
+            return hit[1]
         value = build()
         if len(self._entries) >= self.size:
             self._entries.clear()
-        self._entries[id(obj)] = (obj, tag, value)
+        self._entries[key] = (obj, value)
         return value
 
     def clear(self) -> None:

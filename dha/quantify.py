@@ -61,6 +61,7 @@ import numpy as np
 import pandas as pd
 
 from dha.errors import InputError, SettingsError
+from dha.memo import ObjectMemo
 
 log = logging.getLogger("dha.quantify")
 
@@ -206,20 +207,12 @@ def representative_component(n_carbon: int, library) -> tuple[str, str | None]:
     number (first by name), n-alkane, then the nearest carbon number (with a warning).
     """
     comps = library.components
-    key = (id(library), id(comps), int(n_carbon))
-    cached = _REPRESENTATIVE.get(key)
-    if cached is not None and cached[0] is comps:
-        return cached[1]
-    out = _representative(int(n_carbon), library, comps)
-    if len(_REPRESENTATIVE) > 512:
-        _REPRESENTATIVE.clear()
-    _REPRESENTATIVE[key] = (comps, out)
-    return out
+    return _REPRESENTATIVE.get(comps, lambda: _representative(int(n_carbon), library, comps),
+                               tag=int(n_carbon))
 
 
-#: representative_component per (library, components table, carbon number); the identity
-#: check keeps a new table from reusing another's answer.
-_REPRESENTATIVE: dict[tuple[int, int, int], tuple[pd.DataFrame, tuple[str, str | None]]] = {}
+#: representative_component per components table and carbon number.
+_REPRESENTATIVE = ObjectMemo(size=512)
 
 
 def _representative(n_carbon: int, library, comps: pd.DataFrame) -> tuple[str, str | None]:
@@ -351,20 +344,14 @@ def library_rrf(names, library, settings) -> pd.Series:
     return pd.Series(out, dtype=float)
 
 
-#: Theoretical factors per library table and alcohol ECN shift: {(id(components), shift):
-#: (components, {name: rrf})}; the identity check keeps a new table from reusing another's.
-_THEORY_RRF: dict[tuple[int, float], tuple[pd.DataFrame, dict[str, float]]] = {}
+#: Theoretical factors per library table and alcohol ECN shift: {name: rrf}, filled as
+#: components are asked for.
+_THEORY_RRF = ObjectMemo(size=16)
 _RRF_COLUMNS = ("molar_mass_g_mol", "formula", "carbon_number", "group", "ecn", "subgroup")
 
 
 def _theory_cache(comps: pd.DataFrame, shift: float) -> dict[str, float]:
-    key = (id(comps), shift)
-    cached = _THEORY_RRF.get(key)
-    if cached is None or cached[0] is not comps:
-        if len(_THEORY_RRF) > 16:
-            _THEORY_RRF.clear()
-        cached = _THEORY_RRF[key] = (comps, {})
-    return cached[1]
+    return _THEORY_RRF.get(comps, dict, tag=shift)
 
 
 def _rrf_rows(comps: pd.DataFrame) -> dict[str, dict[str, Any]]:

@@ -25,6 +25,7 @@ import numpy as np
 import pandas as pd
 
 from dha.errors import LibraryError
+from dha.memo import ObjectMemo
 from dha.properties import PropertyResult
 
 log = logging.getLogger("dha.bulk")
@@ -79,17 +80,18 @@ def density_volume_additive(mass_frac, density_kg_m3) -> float:
     return float(w.sum() / np.sum(w / np.asarray(density_kg_m3, float)))
 
 
-#: Per-library arrays of the values bulk needs: {id(components): (components, table)}.
-_TABLES: dict[int, tuple[pd.DataFrame, dict[str, Any]]] = {}
+#: Per-library arrays of the values bulk needs, per components table.
+_TABLES = ObjectMemo()
 
 
 def _library_table(comps: pd.DataFrame) -> dict[str, Any]:
     """The library columns bulk needs as arrays in library order, with the formulas' atom
     counts (NaN where a formula cannot be read; reported when such a row is used), computed
     once per components table."""
-    cached = _TABLES.get(id(comps))
-    if cached is not None and cached[0] is comps:
-        return cached[1]
+    return _TABLES.get(comps, lambda: _build_library_table(comps))
+
+
+def _build_library_table(comps: pd.DataFrame) -> dict[str, Any]:
     atoms = []
     for f in comps["formula"]:
         try:
@@ -111,9 +113,6 @@ def _library_table(comps: pd.DataFrame) -> dict[str, Any]:
     for key, atom in (("n_c", "C"), ("n_h", "H"), ("n_o", "O")):
         table[key] = np.array([a.get(atom, 0) if a is not None else 0 for a in atoms],
                               dtype=np.int64)
-    if len(_TABLES) > 8:
-        _TABLES.clear()
-    _TABLES[id(comps)] = (comps, table)
     return table
 
 
@@ -150,8 +149,8 @@ def _rows(composition: pd.DataFrame, library) -> dict[str, np.ndarray]:
     return out
 
 
-#: Per-library tables of _carbon_spreads: {(id(components), column): (components, table)}.
-_SPREADS: dict[tuple[int, str], tuple[pd.DataFrame, dict]] = {}
+#: Per-library tables of _carbon_spreads, per components table and column.
+_SPREADS = ObjectMemo(size=32)
 
 
 def _carbon_spreads(library, column: str) -> dict:
@@ -159,10 +158,10 @@ def _carbon_spreads(library, column: str) -> dict:
     fewer than two values)}, computed once per library table (the library does not change
     during a run; a different table gets its own entry)."""
     comps = library.components
-    key = (id(comps), column)
-    cached = _SPREADS.get(key)
-    if cached is not None and cached[0] is comps:
-        return cached[1]
+    return _SPREADS.get(comps, lambda: _build_carbon_spreads(comps, column), tag=column)
+
+
+def _build_carbon_spreads(comps: pd.DataFrame, column: str) -> dict:
     if column == "n_h":
         values = pd.Series([formula_atoms(f).get("H", 0) for f in comps["formula"]],
                            index=comps.index, dtype=float)
@@ -175,9 +174,6 @@ def _carbon_spreads(library, column: str) -> dict:
             table[cn] = float(vals.max() - vals.min()) if len(vals) >= 2 else None
         else:
             table[cn] = float((vals.max() - vals.min()) / np.sqrt(12.0)) if len(vals) >= 2 else 0.0
-    if len(_SPREADS) > 32:
-        _SPREADS.clear()
-    _SPREADS[key] = (comps, table)
     return table
 
 

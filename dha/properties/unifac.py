@@ -25,6 +25,7 @@ import numpy as np
 import pandas as pd
 
 from dha.errors import LibraryError
+from dha.memo import ObjectMemo
 
 log = logging.getLogger("dha.unifac")
 
@@ -86,21 +87,19 @@ def parameters_from_library(library) -> UnifacParameters:
     inter = getattr(library, "unifac_interactions", None)
     if subs is None or inter is None or len(subs) == 0:
         return load_parameters()
-    key = (id(library), getattr(library, "sha256", None))
-    cached = _FROM_LIBRARY.get(key)
-    if cached is None:
+
+    def build() -> UnifacParameters:
         table = subs if subs.index.name == "subgroup" else subs.set_index("subgroup")
         table = table.copy()
         table.index = table.index.astype(int)
         interactions = {(int(i), int(j)): float(a) for i, j, a in
                         zip(inter["main_i"], inter["main_j"], inter["a_ij_k"])}
-        cached = UnifacParameters(table, interactions)
-        _FROM_LIBRARY.clear()
-        _FROM_LIBRARY[key] = cached
-    return cached
+        return UnifacParameters(table, interactions)
+
+    return _FROM_LIBRARY.get(library, build, tag=getattr(library, "sha256", None))
 
 
-_FROM_LIBRARY: dict = {}
+_FROM_LIBRARY = ObjectMemo(size=1)
 
 
 class UnifacModel:

@@ -50,6 +50,7 @@ import numpy as np
 import pandas as pd
 
 from dha.errors import LibraryError, SettingsError
+from dha.memo import ObjectMemo
 from dha.properties import PropertyResult
 from dha.properties.unifac import UnifacModel, build_model, parameters_from_library
 
@@ -740,26 +741,24 @@ def _unidentified_psat_spread_kpa(composition: pd.DataFrame, library) -> float:
     return float(total)
 
 
-#: {id(components): (components, {carbon number: P^sat range [kPa]})}, one per library table.
-_PSAT_RANGES: dict[int, tuple[pd.DataFrame, dict]] = {}
+#: {carbon number: P^sat range [kPa]} per library components table.
+_PSAT_RANGES = ObjectMemo()
 
 
 def _psat_ranges(library) -> dict:
     """Range (max - min) of P^sat at 37.8 °C over the library's components of each carbon
     number (None when fewer than two), computed once per library table."""
+    return _PSAT_RANGES.get(library.components, lambda: _build_psat_ranges(library))
+
+
+def _build_psat_ranges(library) -> dict:
     comps = library.components
-    cached = _PSAT_RANGES.get(id(comps))
-    if cached is not None and cached[0] is comps:
-        return cached[1]
     ps = library.psat_kpa(T_DVPE_K)
     cn = comps["carbon_number"].reindex(ps.index)
     table = {}
     for n in pd.unique(cn.dropna()):
         values = ps[(cn == n).to_numpy()].dropna()
         table[n] = float(values.max() - values.min()) if len(values) >= 2 else None
-    if len(_PSAT_RANGES) > 8:
-        _PSAT_RANGES.clear()
-    _PSAT_RANGES[id(comps)] = (comps, table)
     return table
 
 

@@ -646,10 +646,30 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         if s.get("adapt_tolerance", True) and len(todo) >= 8:
             # the run's own spread and drift (:func:`_index_model`), then one alignment
             tau = _offset_spread(library, lib_names[pool], lib_kind[pool])
+            # markers from another injection (the lab's standard in the settings): the two
+            # runs' times drift apart; model that drift in time (:func:`_time_drift_basis`)
+            # with a prior, and let the sample's own n-alkanes show it
+            other_run = scale is not None and how == "identify.markers" \
+                and not from_export[todo].any()
+            basis = _time_drift_basis(scale, rt[todo]) if other_run else None
+            anchors = None
+            if basis is not None and len(anchor_rows):
+                # peaks whose component is known (the markers' n-alkanes in the sample, named
+                # peaks) show the drift directly
+                a_rows = anchor_rows[np.isfinite(peak_ri[anchor_rows])]
+                a_names = comp[a_rows].astype(object)
+                a_exact = np.isin(a_names, list(_index_for(library).n_alkanes.values()))
+                a_basis = _time_drift_basis(scale, rt[a_rows], t_end=float(np.nanmax(rt[todo])))
+                if a_basis is not None and len(a_rows):
+                    anchors = (peak_ri[a_rows], lib_ri[[lib_pos[c] for c in a_names]],
+                               np.where(a_exact, ALKANE_SD, sigma), a_basis)
             shift, s_hat, end, spread_post = _index_model(
                 peak_ri[todo], rt[todo], size[todo], pool_lo, pool_hi,
                 bonus * MODEL_PRIOR_SCALE, sd0=sigma, estimated=lib_kind[pool] != "learnt",
-                tau=tau, **caps)
+                tau=tau, basis=basis, anchors=anchors,
+                drift_prior_sd=DRIFT_PRIOR_SD if basis is not None else None,
+                exact=np.isin(lib_names[pool], list(_index_for(library).n_alkanes.values())),
+                **caps)
             if np.isfinite(s_hat) and tau > 0:
                 # estimated entries are wider than the learnt ones by the column's offsets
                 caps["lib_sd_ratio"] = np.where(lib_kind[pool] != "learnt",
@@ -1380,12 +1400,57 @@ SPREAD_PRIOR_WIDTH = math.log(1.5)
 MODEL_PRIOR_SCALE = 0.5
 
 
+#: Prior sd of each of the two parameters of the drift between the marker injection and the
+#: sample's [index units at the run's end] (common practice, no source: a few tenths of a %
+#: of the time, a few units at the end; 1.5, 2.5 and 4 gave the same on seeds 2040-2041).
+DRIFT_PRIOR_SD = 2.5
+
+#: Spread of an n-alkane's index in a run [index units]: 100 x carbon number by definition
+#: (Kovats), so only the apex time's scatter, about a tenth of a 0.02-0.05 min peak width in a
+#: 2-3 min bracket (common practice, no source; set beforehand, not tuned).
+ALKANE_SD = 0.3
+
+
+def _time_drift_basis(scale: Any, rt: np.ndarray, t_end: float | None = None
+                      ) -> np.ndarray | None:
+    """The two shapes of a slow retention-time drift, in index units (2, P).
+
+    The markers come from another injection; between the two the times drift apart, most
+    simply in proportion to the time (a carrier-gas flow change) and in proportion to its
+    square (a drift that grows along the run): ``t' = t (1 + a + b t / t_end)``. Seen through
+    the index scale a relative time change ``e`` moves a peak's index by ``e dI/dln t``, much
+    more in the hold (Kovats indices on adjusted times) than after it. Rows: ``dI/dln t x
+    t / t_end`` and ``dI/dln t``, each divided by its value at the last peak (so the drift's
+    parameters are index units at the end, as for ``x^2, x``); the end is ``t_end`` [min]
+    (default: the last of ``rt``). None when the scale gives no usable slope. First-order in
+    the drift (a few tenths of a % of the time).
+    """
+    t = np.asarray(rt, float)
+    ok = np.isfinite(t) & (t > 0)
+    if not ok.any():
+        return None
+    end = float(np.max(t[ok])) if t_end is None else float(t_end)
+    eps = 1e-3
+
+    def slope(x: np.ndarray) -> np.ndarray:
+        return (scale.index(x * (1.0 + eps)) - scale.index(x * (1.0 - eps))) / (2.0 * eps)
+
+    g_end = float(slope(np.array([end]))[0])
+    if not np.isfinite(g_end) or g_end <= 0:
+        return None
+    g = np.where(ok, slope(np.where(ok, t, end)), 0.0)
+    g = np.where(np.isfinite(g), g, 0.0) / g_end
+    return np.vstack([g * np.where(ok, t / end, 0.0), g])
+
+
 def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: np.ndarray,
                  lib_hi: np.ndarray, bonus: np.ndarray, peak_share: np.ndarray | None = None,
                  lib_cap: np.ndarray | None = None, cap_penalty: float = 0.0,
                  peak_bonus: np.ndarray | None = None, sd0: float = 1.5,
                  estimated: np.ndarray | None = None, tau: float = 0.0,
-                 lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0
+                 lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0,
+                 basis: np.ndarray | None = None, exact: np.ndarray | None = None,
+                 anchors: tuple | None = None, drift_prior_sd: float | None = None
                  ) -> tuple[np.ndarray, float, float]:
     """The run's index spread and slow drift, by maximum marginal likelihood.
 
@@ -1408,6 +1473,21 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
     one the lab learnt on its column) the estimated entries have the spread
     ``sqrt(s^2 + tau^2)`` (:func:`_offset_spread`).
 
+    ``basis`` (2, P) replaces ``x^2, x`` as the drift's two shapes (index units per unit of
+    ``A`` and ``B``; 1 at the run's end): :func:`_time_drift_basis` when the indices come from
+    n-alkane markers (a drift of the retention times, seen through the index scale).
+
+    ``exact`` (per entry: True for the n-alkanes) gives those entries the spread
+    :data:`ALKANE_SD` whatever ``s``: their index is 100 x carbon number by definition on any
+    column, so a sample's own n-alkane peaks show the drift against the markers directly.
+
+    ``drift_prior_sd`` [index units]: instead of the information criterion, ``A`` and ``B``
+    each get a Gaussian prior of this sd and the drift of the highest posterior is kept (for
+    markers from another injection, where a drift is expected, not an exception).
+    ``anchors`` = (observed index, library index, sd, basis (2, m)) of peaks whose component is
+    known (named, or the markers' own n-alkanes in the sample): each adds its Gaussian
+    log-likelihood at the drift to the drift's fit and to its test.
+
     Returns (drift at each peak [index units], spread s [index units], drift at the end,
     (spread grid, posterior weights) at that drift or None).
     """
@@ -1419,7 +1499,11 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
         return zero, float("nan"), 0.0, None
     p = peak_ri[ok]
     t_end = float(np.nanmax(rt)) if np.isfinite(rt).any() else 1.0
-    x = np.clip(rt[ok] / max(t_end, 1e-9), 0.0, 1.0)
+    xa = np.clip(rt / max(t_end, 1e-9), 0.0, 1.0)
+    if basis is None:
+        basis = np.vstack([xa ** 2, xa])
+    basis = np.where(np.isfinite(basis), basis, 0.0)
+    u2, u1 = basis[0][ok], basis[1][ok]
     # every peak counts alike: the spread and drift are the column's and the run's, and one
     # dominant peak must not set them
     run_hi = np.maximum.accumulate(lib_hi)
@@ -1459,6 +1543,8 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
         qq = q[:, rep]
         d = np.maximum(np.maximum(lib_lo[js] - qq, qq - lib_hi[js]), 0.0)
         sdv = np.sqrt(sd[:, None] ** 2 + (tau * tau) * est[js][None, :])
+        if exact is not None:
+            sdv = np.where(exact[js][None, :], ALKANE_SD, sdv)
         term = lp - 0.5 * (d / sdv) ** 2 - np.log(sdv * math.sqrt(2 * math.pi))
         mx = np.max(term, axis=1, keepdims=True)
         ex = np.exp(term - mx)
@@ -1481,12 +1567,26 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
     table_ll = loglik(p[None, :] - grid[:, None], np.full(len(grid), sd0))     # (shifts, n)
     cols = np.arange(len(p))
 
+    def drift_lp(AA: np.ndarray, BB: np.ndarray) -> np.ndarray:
+        if drift_prior_sd is None:
+            return np.zeros(len(AA))
+        return -0.5 * (AA * AA + BB * BB) / drift_prior_sd ** 2
+
+    def anchor_ll(AA: np.ndarray, BB: np.ndarray) -> np.ndarray:
+        if anchors is None or len(anchors[0]) == 0:
+            return np.zeros(len(AA))
+        a_obs, a_lib, a_sd, a_basis = anchors
+        r = (a_obs[None, :] - AA[:, None] * a_basis[0][None, :]
+             - BB[:, None] * a_basis[1][None, :] - a_lib[None, :]) / a_sd[None, :]
+        return -0.5 * (r * r).sum(axis=1)
+
     def curve_ll(AA: np.ndarray, BB: np.ndarray) -> np.ndarray:
-        sh = AA[:, None] * x ** 2 + BB[:, None] * x                            # (G, n)
+        sh = AA[:, None] * u2 + BB[:, None] * u1                            # (G, n)
         f = np.clip((sh - grid[0]) / step, 0.0, len(grid) - 1.000001)
         i0 = f.astype(int)
         t = f - i0
-        return ((1.0 - t) * table_ll[i0, cols] + t * table_ll[i0 + 1, cols]).sum(axis=1)
+        return ((1.0 - t) * table_ll[i0, cols] + t * table_ll[i0 + 1, cols]).sum(axis=1) \
+            + anchor_ll(AA, BB)
 
     def best_drift(A0: float, B0: float, coarse: bool) -> tuple[float, float]:
         """Drift (A, B) of the highest likelihood at sd0, on the grid or around A0, B0."""
@@ -1498,19 +1598,19 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
         AA, BB = AA.ravel(), BB.ravel()
         keep = np.abs(AA) + np.abs(BB) <= max_drift + 1e-9
         AA, BB = AA[keep], BB[keep]
-        k = int(np.argmax(curve_ll(AA, BB)))
+        k = int(np.argmax(curve_ll(AA, BB) + drift_lp(AA, BB)))
         return float(AA[k]), float(BB[k])
 
     post: dict = {}
 
     def best_spread(A: float, B: float) -> tuple[float, float]:
         """Spread of the highest posterior at drift (A, B), and that log posterior."""
-        q = np.repeat((p - (A * x ** 2 + B * x))[None, :], len(sds), axis=0)
+        q = np.repeat((p - (A * u2 + B * u1))[None, :], len(sds), axis=0)
         ll = loglik(q, sds).sum(axis=1) + log_prior_sd
         k = int(np.argmax(ll))
         wts = np.exp(ll - ll[k])
         post[(A, B)] = (sds.copy(), wts / wts.sum())
-        return float(sds[k]), float(ll[k])
+        return float(sds[k]), float(ll[k] + anchor_ll(np.array([A]), np.array([B]))[0])
 
     # drift at the expected spread (coarse grid, then quarters; refitting it at a smaller
     # fitted spread overfits runs of few peaks), the spread at that drift; the drift is kept
@@ -1519,13 +1619,17 @@ def _index_model(peak_ri: np.ndarray, rt: np.ndarray, size: np.ndarray, lib_lo: 
     A, B = best_drift(A, B, False)
     s_d, ll_d = best_spread(A, B)
     s_0, ll_0 = best_spread(0.0, 0.0)
-    if ll_d - ll_0 > math.log(len(p)):
+    gain = ll_d - ll_0
+    if drift_prior_sd is None:
+        keep = gain > math.log(len(p))
+    else:
+        keep = gain + float(drift_lp(np.array([A]), np.array([B]))[0]) > 0.0
+    if keep:
         s_hat = s_d
     else:
         A = B = 0.0
         s_hat = s_0
-    xa = np.clip(rt / max(t_end, 1e-9), 0.0, 1.0)
-    shift = np.where(np.isfinite(xa), A * xa ** 2 + B * xa, 0.0)
+    shift = A * basis[0] + B * basis[1]
     return shift, s_hat, A + B, post.get((A, B))
 
 

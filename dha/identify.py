@@ -876,9 +876,7 @@ def size_limits(library: Any, names: np.ndarray, s: dict[str, Any] | None = None
     exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
     stated = tuple(sorted(expected_oxygenates(library, s))) if s.get("expected_oxygenates") \
         else ()
-    key = (id(library), getattr(library, "sha256", None), exclude, stated)
-    hit = _SIZE_CACHE.get(key)
-    if hit is None:
+    def build() -> pd.Series:
         from dha.fuel_data import real_fuels
         f = real_fuels(library)
         f = f[f["component"].notna() & ~f["family"].isin(list(exclude))]
@@ -888,14 +886,13 @@ def size_limits(library: Any, names: np.ndarray, s: dict[str, Any] | None = None
         for n in UNCAPPED_OXYGENATES + stated:
             if n in lim.index:
                 lim[n] = np.inf
-        hit = lim
-        if len(_SIZE_CACHE) > 16:
-            _SIZE_CACHE.clear()
-        _SIZE_CACHE[key] = hit
+        return lim
+
+    hit = _SIZE_LIMITS.get(library, build, tag=(getattr(library, "sha256", None), exclude, stated))
     return hit.reindex(pd.Index(names, dtype=object)).fillna(SIZE_FLOOR_PCT).to_numpy(dtype=float)
 
 
-_SIZE_CACHE: dict = {}
+_SIZE_LIMITS = ObjectMemo(size=16)
 
 
 def share_caps(library: Any, names: np.ndarray, s: dict[str, Any] | None = None) -> np.ndarray:
@@ -944,26 +941,22 @@ def _oxygenates_in_data(library: Any, s: dict[str, Any]) -> dict[str, float]:
     from dha.fuel_data import real_fuels
 
     exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
-    key = (id(library), getattr(library, "sha256", None), exclude)
-    hit = _OXY_DATA_CACHE.get(key)
-    if hit is not None:
-        return hit
-    f = real_fuels(library)
-    f = f[f["component"].notna() & ~f["family"].isin(list(exclude))]
-    grp = f["component"].map(library.components["group"])
-    oxy = f[grp == "oxygenates"]
-    fuels = f[["mixture_id", "family"]].drop_duplicates("mixture_id").set_index("mixture_id")
-    tab = oxy.pivot_table(index="mixture_id", columns="component", values="mass_pct",
-                          aggfunc="sum").reindex(fuels.index).fillna(0.0)
-    out = {str(k): float(v) for k, v in
-           tab.groupby(fuels["family"]).mean().mean().items() if v > 0}
-    if len(_OXY_DATA_CACHE) > 16:
-        _OXY_DATA_CACHE.clear()
-    _OXY_DATA_CACHE[key] = out
-    return out
+
+    def build() -> dict[str, float]:
+        f = real_fuels(library)
+        f = f[f["component"].notna() & ~f["family"].isin(list(exclude))]
+        grp = f["component"].map(library.components["group"])
+        oxy = f[grp == "oxygenates"]
+        fuels = f[["mixture_id", "family"]].drop_duplicates("mixture_id").set_index("mixture_id")
+        tab = oxy.pivot_table(index="mixture_id", columns="component", values="mass_pct",
+                              aggfunc="sum").reindex(fuels.index).fillna(0.0)
+        return {str(k): float(v) for k, v in
+                tab.groupby(fuels["family"]).mean().mean().items() if v > 0}
+
+    return _OXY_IN_DATA.get(library, build, tag=(getattr(library, "sha256", None), exclude))
 
 
-_OXY_DATA_CACHE: dict = {}
+_OXY_IN_DATA = ObjectMemo(size=16)
 
 
 def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarray,
@@ -1153,19 +1146,11 @@ def expected_oxygenates(library: Any, s: dict[str, Any]) -> frozenset[str]:
         A listed name is not an oxygenate of the library.
     """
     listed = tuple(str(x) for x in (s.get("expected_oxygenates") or []))
-    key = (id(library), listed)
-    sha = getattr(library, "sha256", None)
-    hit = _OXY_CACHE.get(key)
-    if hit is not None and hit[0] is library and hit[1] == sha:
-        return hit[2]
-    out = _expected_oxygenates(library, listed)
-    if len(_OXY_CACHE) > 16:
-        _OXY_CACHE.clear()
-    _OXY_CACHE[key] = (library, sha, out)
-    return out
+    return _EXPECTED_OXY.get(library, lambda: _expected_oxygenates(library, listed),
+                             tag=(getattr(library, "sha256", None), listed))
 
 
-_OXY_CACHE: dict[tuple, tuple] = {}
+_EXPECTED_OXY = ObjectMemo(size=16)
 
 
 def _expected_oxygenates(library: Any, listed: tuple[str, ...]) -> frozenset[str]:
@@ -1237,7 +1222,7 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
     return scale * table.reindex(pd.Index(names, dtype=object)).fillna(0.0).to_numpy(dtype=float)
 
 
-_PRIOR_CACHE: dict[tuple, tuple] = {}
+_PRIORS = ObjectMemo(size=32)
 
 #: Mass share [%] given to every (group, carbon number) cell of the library on top of the
 #: data's, so a cell the 40 fuels lack is unlikely, not impossible (common practice, no source:
@@ -1323,11 +1308,14 @@ def _prior_table(library: Any, by_carbon: bool, expected: frozenset = frozenset(
                  odds: float = 1.0, exclude: tuple = (), by_component: bool = True) -> pd.Series:
     """Unscaled log prior odds of every library entry (see :func:`_group_prior`), cached per
     library object and content checksum."""
-    key = (id(library), by_carbon, expected, odds, exclude, by_component)
-    sha = getattr(library, "sha256", None)
-    hit = _PRIOR_CACHE.get(key)
-    if hit is not None and hit[0] is library and hit[1] == sha:
-        return hit[2]
+    return _PRIORS.get(library, lambda: _build_prior_table(library, by_carbon, expected, odds,
+                                                           exclude, by_component),
+                       tag=(getattr(library, "sha256", None), by_carbon, expected, odds,
+                            exclude, by_component))
+
+
+def _build_prior_table(library: Any, by_carbon: bool, expected: frozenset, odds: float,
+                       exclude: tuple, by_component: bool) -> pd.Series:
     comps = library.components
     groups = comps["group"]
     carbon = pd.to_numeric(comps.get("carbon_number"), errors="coerce")
@@ -1353,11 +1341,7 @@ def _prior_table(library: Any, by_carbon: bool, expected: frozenset = frozenset(
         else:
             vals.append(np.log(max(g_share.get(g, PRIOR_FLOOR_PCT), 1e-9) / 100.0
                                / counts.get(g, 1)) - uniform)
-    table = pd.Series(vals, index=comps.index, dtype=float)
-    if len(_PRIOR_CACHE) > 32:
-        _PRIOR_CACHE.clear()
-    _PRIOR_CACHE[key] = (library, sha, table)
-    return table
+    return pd.Series(vals, index=comps.index, dtype=float)
 
 
 #: Grids of the run's index model (:func:`_index_model`): spreads [index units], drift at

@@ -6,7 +6,8 @@
    of N, with the n-alkane markers given in the settings, on a fully named export, and with the
    automatic marker search (hold given, and hold left for the search to find); the search
    alone (``dha.retention.find_markers``) is timed too.
-   Targets: identification <= 50 ms, marker search <= 100 ms.
+   Targets: identification <= 50 ms with markers given, <= 150 ms with automatic markers
+   (issue 13); marker search <= 100 ms.
 2. Accuracy on unnamed runs of REAL compositions (``dha.fuel_data``: the 40 fuels of
    Kuzhagaliyeva et al. 2022 whose components the library holds; ``dha.synthetic`` only places
    the peaks), seeds 7001-7003 (never used while choosing the methods), priors refitted without
@@ -87,7 +88,9 @@ def speed(lib, n):
                             ("auto, hold not set", peaks, no_hold)):
         t, out = best_of(lambda: identify(table, lib, s), n)
         acc = identification_accuracy(out, truth)
-        flag = "ok" if t <= 0.050 else "SLOWER than the 50 ms target"
+        # issue 13: 50 ms with the markers given (or names), 150 ms with automatic markers
+        limit = 0.150 if label.startswith("auto") else 0.050
+        flag = "ok" if t <= limit else f"SLOWER than the {1000 * limit:.0f} ms target"
         print(f"  identify, {label:19s} {1000 * t:7.1f} ms  ({flag})  mass identified "
               f"correctly {100 * acc:6.2f} %")
     lib_tab = _library_indices(lib)

@@ -1033,10 +1033,15 @@ def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarra
     return conf, rival
 
 
-#: Thresholds of the identification check [-] (common practice, no source: a run whose
-#: expected share of the mass identified right is below 0.95 is worth a look, below 0.85 it is
-#: not a composition to certify).
-QUALITY_PASS = 0.95
+#: Thresholds of the identification check [-] on the run's expected share of the mass
+#: identified right (size-weighted mean confidence). Pass: the lowest value at which no run
+#: with less than 90 % of the mass right passed, one step of 0.01 above it for margin, on the
+#: tuning seeds 2040-2041 (320 unnamed runs of the 40 real fuels, index sd 0.5 and 1.5 + drift,
+#: priors without the fuel's family): at 0.92 the worst passing run had 95.4 % right, at 0.91
+#: three runs below 90 % passed. (It was 0.95, set without data: that flagged 42 of the 80 runs
+#: with >= 97 % right at sd 0.5.) Below 0.85 it is not a composition to certify (common
+#: practice, no source).
+QUALITY_PASS = 0.93
 QUALITY_FAIL = 0.85
 #: Fewer peaks than this make the automatic marker search a guess (issue 13; petrol DHA runs
 #: show 200-500 peaks, common practice, no source).

@@ -657,8 +657,9 @@ def test_learnt_overlay_carries_its_spread_to_a_different_fuel(lib, tmp_path):
             learnt.append(identification_accuracy(identify(run, lab, s), truth))
             plain.append(identification_accuracy(identify(run, lib, s), truth))
     assert 2.0 < np.median(taus) < 4.0, taus       # the column's sd 3 (measured 1.8-3.1)
-    # measured: learnt 0.867 (0.767-0.989), plain 0.827 (0.682-0.943) over the 12 runs; issue
-    # 13's >= 0.95 is NOT met: an offset of one component says nothing of another's
+    # measured: learnt 0.879 (0.781-0.989), plain 0.857 (0.711-0.939) over the 12 runs (before
+    # the marker-injection drift was fitted in time: 0.867 and 0.827); issue 13's >= 0.95 is
+    # NOT met: an offset of one component says nothing of another's
     assert np.mean(learnt) >= np.mean(plain) + 0.02, (learnt, plain)
 
 

@@ -652,13 +652,14 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             other_run = scale is not None and how == "identify.markers" \
                 and not from_export[todo].any()
             basis = _time_drift_basis(scale, rt[todo]) if other_run else None
+            alkane_names = list(_index_for(library).n_alkanes.values())
             anchors = None
             if basis is not None and len(anchor_rows):
                 # peaks whose component is known (the markers' n-alkanes in the sample, named
                 # peaks) show the drift directly
                 a_rows = anchor_rows[np.isfinite(peak_ri[anchor_rows])]
                 a_names = comp[a_rows].astype(object)
-                a_exact = np.isin(a_names, list(_index_for(library).n_alkanes.values()))
+                a_exact = np.isin(a_names, alkane_names)
                 a_basis = _time_drift_basis(scale, rt[a_rows], t_end=float(np.nanmax(rt[todo])))
                 if a_basis is not None and len(a_rows):
                     anchors = (peak_ri[a_rows], lib_ri[[lib_pos[c] for c in a_names]],
@@ -668,7 +669,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
                 bonus * MODEL_PRIOR_SCALE, sd0=sigma, estimated=lib_kind[pool] != "learnt",
                 tau=tau, basis=basis, anchors=anchors,
                 drift_prior_sd=DRIFT_PRIOR_SD if basis is not None else None,
-                exact=np.isin(lib_names[pool], list(_index_for(library).n_alkanes.values())),
+                exact=np.isin(lib_names[pool], alkane_names),
                 **caps)
             if np.isfinite(s_hat) and tau > 0:
                 # estimated entries are wider than the learnt ones by the column's offsets

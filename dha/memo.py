@@ -39,6 +39,3 @@ class ObjectMemo:
             self._entries.clear()
         self._entries[key] = (obj, value)
         return value
-
-    def clear(self) -> None:
-        self._entries.clear()

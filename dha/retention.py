@@ -772,6 +772,29 @@ def _bracket_scores(rt: np.ndarray, tc: np.ndarray, jj: np.ndarray, ii: np.ndarr
     return out
 
 
+def _chain_triples(tc: np.ndarray, s_cache: dict | None, key: tuple
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Candidate triples (h, a, b), h < a < b, whose spacing ratio passes the loosest rule.
+
+    ``q = ln((t_b - t_a) / (t_a - t_h))`` within ``[ln 0.6, ln 4]``; ordered by (a, b, h),
+    so the steps into one pair (a, b) are contiguous and in increasing h. They depend on the
+    candidates only, not on the hold, and are kept in ``s_cache`` between hypotheses.
+    """
+    if s_cache is not None and key in s_cache:
+        return s_cache[key]
+    D = tc[None, :] - tc[:, None]                               # D[a, b] = t_b - t_a
+    with np.errstate(divide="ignore", invalid="ignore"):
+        lnD = np.where(D > 0, np.log(np.where(D > 0, D, 1.0)), np.nan)
+    fin = np.isfinite(lnD)
+    a, b, h = np.nonzero(fin[:, :, None] & fin.T[:, None, :])     # [a, b, h]: t_h < t_a < t_b
+    q = lnD[a, b] - lnD[h, a]
+    keep = (q >= np.log(0.6)) & (q <= np.log(4.0))
+    out = (h[keep], a[keep], b[keep], q[keep])
+    if s_cache is not None:
+        s_cache[key] = out
+    return out
+
+
 def _chain_dp(rt: np.ndarray, cand: np.ndarray, w_all: np.ndarray, look: _Lookup,
               carbons: list[int], iso: float, tm: float, n_final: int,
               rise: float = 0.08, hold_dev: float = 0.05, prog_range=(0.7, 1.02),
@@ -779,101 +802,28 @@ def _chain_dp(rt: np.ndarray, cand: np.ndarray, w_all: np.ndarray, look: _Lookup
               geometric_check: bool = False, beta_range=(1.5, 4.0),
               smooth_weight: float = 20.0, s_cache: dict | None = None
               ) -> list[dict[int, float]]:
-    """The best labelled n-alkane chains among the candidate peaks (see :func:`find_markers`)."""
+    """The best labelled n-alkane chains among the candidate peaks (see :func:`find_markers`).
+
+    The programme's tables depend on the hold setting only, not on ``n_final``: with
+    ``s_cache`` they are kept, so the full search of the chosen hold reuses those of its quick
+    comparison.
+    """
     k = len(cand)
     n_lab = len(carbons)
     if k < 3 or n_lab < 3:
         return []
     tc = rt[cand]
-    # bracket scores S[li, a, b]: peaks strictly between candidates a < b indexed as (n, n+1);
-    # the linear ones do not depend on the hold and are kept in s_cache between calls
+    rules = (rise, hold_dev, prog_range, prog_drop, settled, after_hold_max, geometric_check,
+             beta_range, smooth_weight)
     key = (cand.tobytes(), len(rt))
-    if s_cache is not None and key in s_cache:
-        S = s_cache[key].copy()
-        if iso > 0 and tm > 0:
-            jj, ii = np.triu_indices(k, 1)
-            hold = tc[ii] <= iso
-            jj, ii = jj[hold], ii[hold]
-            S[:, jj, ii] = _bracket_scores(rt, tc, jj, ii, w_all, look, carbons, iso, tm)
+    dp_key = ("dp", key, iso, tm, rules)
+    if s_cache is not None and dp_key in s_cache:
+        V, B, L = s_cache[dp_key]
     else:
-        jj, ii = np.triu_indices(k, 1)
-        S = np.full((n_lab, k, k), -np.inf)
-        S[:, jj, ii] = _bracket_scores(rt, tc, jj, ii, w_all, look, carbons, 0.0, 0.0)
+        V, B, L = _chain_tables(rt, tc, w_all[cand], w_all, look, carbons, iso, tm, key,
+                                rules, s_cache)
         if s_cache is not None:
-            s_cache[key] = S.copy()
-        if iso > 0 and tm > 0:
-            hold = tc[ii] <= iso
-            S[:, jj[hold], ii[hold]] = _bracket_scores(rt, tc, jj[hold], ii[hold], w_all, look,
-                                                       carbons, iso, tm)
-    own = 0.5 * w_all[cand]
-    D = tc[None, :] - tc[:, None]                               # D[a, b] = t_b - t_a
-    with np.errstate(divide="ignore", invalid="ignore"):
-        lnD = np.where(D > 0, np.log(np.where(D > 0, D, 1.0)), np.nan)
-    q = lnD[None, :, :] - lnD[:, :, None]                         # q[h, a, b]
-    q = np.where(np.isfinite(q), q, np.nan)
-    th, ta, tb = tc[:, None, None], tc[None, :, None], tc[None, None, :]
-    with np.errstate(invalid="ignore"):
-        ok = (q >= np.log(0.6)) & (q <= np.log(4.0))
-        if iso > 0:
-            in_hold = tb <= iso
-            programmed = th >= iso
-            ok &= ~in_hold | (q >= np.log(1.3))
-            ok &= ~programmed | ((q >= np.log(prog_range[0])) & (q <= np.log(prog_range[1])))
-            # the middle alkane after the hold: the next spacing is programmed, not longer
-            ok &= ~(ta >= iso) | (q <= np.log(after_hold_max))
-            tm_known = geometric_check and tm > 0
-            if tm_known:
-                # in the hold t'_(n+1) / t'_n = spacing ratio (both the same constant)
-                with np.errstate(divide="ignore"):
-                    qt = np.log((tb - tm) / (ta - tm))
-                ok &= ~in_hold | (np.abs(q - qt) <= hold_dev)
-            # ratio of adjusted times per CH2 in the hold between 1.5 and 4 (from memory: about
-            # 2.5-3 for n-alkanes on methylsilicone near 35 degC)
-            pair_hold = (tc[None, :] <= iso) & (tc[:, None] > tm)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                beta = (tc[None, :] - tm) / (tc[:, None] - tm)
-            pair_ok = ~pair_hold | ((beta >= beta_range[0]) & (beta <= beta_range[1]))
-            if tm_known:
-                ok &= pair_ok[None, :, :] & pair_ok[:, :, None]
-        else:
-            in_hold = np.zeros((1, 1, 1), dtype=bool)
-            programmed = np.zeros((1, 1, 1), dtype=bool)
-    V = np.full((n_lab, k, k), -np.inf)        # V[li, a, b]: b is n-alkane carbons[li]
-    R = np.full((n_lab, k, k), np.nan)         # q of the last step of the best path
-    B = np.full((n_lab, k, k), -1, dtype=int)
-    L = np.zeros((n_lab, k, k), dtype=int)
-    upper = np.triu(np.ones((k, k), dtype=bool), 1)
-    for li in range(1, n_lab):
-        start = np.where(upper, own[:, None] + own[None, :] + S[li - 1], -np.inf)
-        V[li], L[li] = start, np.where(upper, 2, 0)
-        if li < 2 or carbons[li] != carbons[li - 1] + 1 or carbons[li - 1] != carbons[li - 2] + 1:
-            continue
-        prev_v = V[li - 1]                                       # [h, a]
-        prev_q = R[li - 1][:, :, None]                           # [h, a, 1]
-        with np.errstate(invalid="ignore"):
-            allowed = ok & np.isfinite(prev_v)[:, :, None]
-            has_q = np.isfinite(prev_q)
-            dq = q - prev_q
-            allowed &= ~has_q | (dq <= rise)
-            if iso > 0:
-                allowed &= ~(has_q & in_hold) | (np.abs(dq) <= hold_dev)
-                allowed &= ~(has_q & programmed & (prev_q < 0)) | (dq >= -prog_drop)
-            else:
-                allowed &= ~(has_q & (prev_q < 0)) | (dq >= -prog_drop)
-            settled_ok = (dq >= settled[0]) & (dq <= settled[1])
-            allowed &= ~(has_q & (prev_q < 0)) | settled_ok
-            pen = np.where(has_q & ~in_hold & (prev_q < 0.3), smooth_weight * dq * dq, 0.0)
-        tot = np.where(allowed, prev_v[:, :, None] - pen, -np.inf)
-        h_best = np.argmax(tot, axis=0)                          # [a, b]
-        best = np.take_along_axis(tot, h_best[None], 0)[0]
-        cont = np.isfinite(best) & upper
-        val = best + S[li - 1] + own[None, :]
-        better = cont & (val > V[li])
-        V[li] = np.where(better, val, V[li])
-        a_idx = np.arange(k)[:, None]
-        R[li] = np.where(better, q[h_best, a_idx, np.arange(k)[None, :]], np.nan)
-        B[li] = np.where(better, h_best, -1)
-        L[li] = np.where(better, L[li - 1][h_best, a_idx] + 1, L[li])
+            s_cache[dp_key] = (V, B, L)
     # the best distinct chains of at least three markers
     flat = np.argsort(-np.where(L >= 3, V, -np.inf), axis=None)
     chains: list[dict[int, float]] = []
@@ -896,6 +846,118 @@ def _chain_dp(rt: np.ndarray, cand: np.ndarray, w_all: np.ndarray, look: _Lookup
         if len(chains) >= n_final:
             break
     return chains
+
+
+def _chain_tables(rt: np.ndarray, tc: np.ndarray, w_cand: np.ndarray, w_all: np.ndarray,
+                  look: _Lookup, carbons: list[int], iso: float, tm: float, key: tuple,
+                  rules: tuple, s_cache: dict | None
+                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The dynamic programme of :func:`_chain_dp`: best value V, back-pointer B, length L.
+
+    ``V[li, a, b]``: best chain ending with candidates a, b as n-alkanes ``carbons[li - 1]``,
+    ``carbons[li]``. Only the triples that pass the spacing rules of the hold are visited (a
+    few thousand of the k^3); the best predecessor of each pair is the first (smallest h) of
+    the highest, as a dense argmax over h would pick.
+    """
+    (rise, hold_dev, prog_range, prog_drop, settled, after_hold_max, geometric_check,
+     beta_range, smooth_weight) = rules
+    k = len(tc)
+    n_lab = len(carbons)
+    # bracket scores S[li, a, b]: peaks strictly between candidates a < b indexed as (n, n+1);
+    # the linear ones do not depend on the hold and are kept in s_cache between calls
+    if s_cache is not None and key in s_cache:
+        S = s_cache[key].copy()
+        if iso > 0 and tm > 0:
+            jj, ii = np.triu_indices(k, 1)
+            hold = tc[ii] <= iso
+            jj, ii = jj[hold], ii[hold]
+            S[:, jj, ii] = _bracket_scores(rt, tc, jj, ii, w_all, look, carbons, iso, tm)
+    else:
+        jj, ii = np.triu_indices(k, 1)
+        S = np.full((n_lab, k, k), -np.inf)
+        S[:, jj, ii] = _bracket_scores(rt, tc, jj, ii, w_all, look, carbons, 0.0, 0.0)
+        if s_cache is not None:
+            s_cache[key] = S.copy()
+        if iso > 0 and tm > 0:
+            hold = tc[ii] <= iso
+            S[:, jj[hold], ii[hold]] = _bracket_scores(rt, tc, jj[hold], ii[hold], w_all, look,
+                                                       carbons, iso, tm)
+    own = 0.5 * w_cand
+    h, a, b, q = _chain_triples(tc, s_cache, ("triples",) + key)
+    th, ta, tb = tc[h], tc[a], tc[b]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if iso > 0:
+            in_hold = tb <= iso
+            programmed = th >= iso
+            ok = ~in_hold | (q >= np.log(1.3))
+            ok &= ~programmed | ((q >= np.log(prog_range[0])) & (q <= np.log(prog_range[1])))
+            # the middle alkane after the hold: the next spacing is programmed, not longer
+            ok &= ~(ta >= iso) | (q <= np.log(after_hold_max))
+            tm_known = geometric_check and tm > 0
+            if tm_known:
+                # in the hold t'_(n+1) / t'_n = spacing ratio (both the same constant)
+                qt = np.log((tc[None, :] - tm) / (tc[:, None] - tm))      # qt[a, b]
+                ok &= ~in_hold | (np.abs(q - qt[a, b]) <= hold_dev)
+                # ratio of adjusted times per CH2 in the hold between 1.5 and 4 (from memory:
+                # about 2.5-3 for n-alkanes on methylsilicone near 35 degC)
+                pair_hold = (tc[None, :] <= iso) & (tc[:, None] > tm)
+                beta = (tc[None, :] - tm) / (tc[:, None] - tm)
+                pair_ok = ~pair_hold | ((beta >= beta_range[0]) & (beta <= beta_range[1]))
+                ok &= pair_ok[a, b] & pair_ok[h, a]
+        else:
+            ok = np.ones(len(q), dtype=bool)
+            in_hold = np.zeros(len(q), dtype=bool)
+            programmed = in_hold
+    h, a, b, q, in_hold, programmed = (x[ok] for x in (h, a, b, q, in_hold, programmed))
+    V = np.full((n_lab, k, k), -np.inf)        # V[li, a, b]: b is n-alkane carbons[li]
+    R = np.full((n_lab, k, k), np.nan)         # q of the last step of the best path
+    B = np.full((n_lab, k, k), -1, dtype=int)
+    L = np.zeros((n_lab, k, k), dtype=int)
+    upper = np.triu(np.ones((k, k), dtype=bool), 1)
+    for li in range(1, n_lab):
+        start = np.where(upper, own[:, None] + own[None, :] + S[li - 1], -np.inf)
+        V[li], L[li] = start, np.where(upper, 2, 0)
+        if li < 2 or carbons[li] != carbons[li - 1] + 1 or carbons[li - 1] != carbons[li - 2] + 1:
+            continue
+        prev_v = V[li - 1][h, a]
+        live = np.isfinite(prev_v)
+        prev_v, prev_q = prev_v[live], R[li - 1][h[live], a[live]]
+        q_l, hold_l, prog_l = q[live], in_hold[live], programmed[live]
+        with np.errstate(invalid="ignore"):
+            has_q = np.isfinite(prev_q)
+            dq = q_l - prev_q
+            allowed = ~has_q | (dq <= rise)
+            if iso > 0:
+                allowed &= ~(has_q & hold_l) | (np.abs(dq) <= hold_dev)
+                allowed &= ~(has_q & prog_l & (prev_q < 0)) | (dq >= -prog_drop)
+            else:
+                allowed &= ~(has_q & (prev_q < 0)) | (dq >= -prog_drop)
+            settled_ok = (dq >= settled[0]) & (dq <= settled[1])
+            allowed &= ~(has_q & (prev_q < 0)) | settled_ok
+            pen = np.where(has_q & ~hold_l & (prev_q < 0.3), smooth_weight * dq * dq, 0.0)
+        use = np.flatnonzero(live)[allowed]
+        if len(use) == 0:
+            continue
+        tot = (prev_v - pen)[allowed]
+        pair = a[use] * k + b[use]
+        new = np.ones(len(use), dtype=bool)
+        new[1:] = pair[1:] != pair[:-1]
+        starts = np.flatnonzero(new)
+        grp = np.cumsum(new) - 1
+        best = np.maximum.reduceat(tot, starts)
+        at_best = np.flatnonzero(tot == best[grp])
+        first = np.ones(len(at_best), dtype=bool)
+        first[1:] = grp[at_best[1:]] != grp[at_best[:-1]]
+        pick = use[at_best[first]]                  # the first h of each pair's best
+        pa, pb, ph = a[pick], b[pick], h[pick]
+        val = best + S[li - 1][pa, pb] + own[pb]
+        better = val > V[li][pa, pb]
+        pa, pb, ph = pa[better], pb[better], ph[better]
+        V[li][pa, pb] = val[better]
+        R[li][pa, pb] = q[pick[better]]
+        B[li][pa, pb] = ph
+        L[li][pa, pb] = L[li - 1][ph, pa] + 1
+    return V, B, L
 
 
 def _extend_chain(markers: dict[int, float], score: float, rt: np.ndarray, size: np.ndarray,

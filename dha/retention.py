@@ -307,8 +307,8 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
                   peak_share: np.ndarray | None = None, lib_cap: np.ndarray | None = None,
                   cap_penalty: float = 0.0, peak_bonus: np.ndarray | None = None,
                   lib_sd_ratio: np.ndarray | None = None,
-                  lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0
-                  ) -> tuple[np.ndarray, float]:
+                  lib_size_limit: np.ndarray | None = None, size_slope: float = 0.0,
+                  score_only: bool = False) -> tuple[np.ndarray, float]:
     """Order-preserving one-to-one assignment of peaks to library entries by their indices.
 
     Parameters
@@ -349,6 +349,10 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         largest share real fuels hold of it): a larger peak loses ``size_slope * ln(share /
         limit)`` on that entry, less the least such loss among the peak's candidates (the size
         ranks the candidates; needs ``peak_share``).
+    score_only : bool
+        Only the score is wanted (the marker search compares many scales): one row of the
+        programme is kept and no assignment is traced back; ``assign`` is then all -1. The
+        score is the same as with the full table.
 
     Returns
     -------
@@ -422,6 +426,18 @@ def align_indices(peak_index: np.ndarray, lib_index: np.ndarray, tolerance: floa
         low[nz] = np.minimum.reduceat(pen, offs[:-1][nz])
         g_all = g_all - (pen - low[rep])
     g_all = np.where(inside, w[rep] * g_all, -np.inf)
+    if score_only:
+        # the same recurrence in place: row[a:b] still holds the previous peak's values when
+        # the candidate gains are added; peaks without a window entry leave the row as it is
+        row = np.zeros(n_c + 1)
+        nz = np.flatnonzero(count)
+        for a, b, o_a, o_b in zip(left[nz].tolist(), right[nz].tolist(), offs[nz].tolist(),
+                                  offs[nz + 1].tolist()):
+            seg = row[a + 1:b + 1]
+            np.maximum(seg, row[a:b] + g_all[o_a:o_b], out=seg)
+            tail = row[a + 1:]
+            np.maximum.accumulate(tail, out=tail)
+        return assign, float(row[n_c])
     g_rows = np.empty((n_p + 1, n_c + 1))
     g_rows[0] = 0.0
     for p in range(n_p):
@@ -674,7 +690,10 @@ def _search_one(s: Mapping[str, Any], rt: np.ndarray, sz: np.ndarray, first: flo
     """
     iso = float(s.get("isothermal_until_min", 0.0) or 0.0)
     tm_set = float(s.get("holdup_time_min", 0.0) or 0.0)
-    cache: dict[tuple, float] = {}
+    # a marker set's score depends on the setting through the hold and hold-up time only
+    # (make_scale): the full search of the chosen hold reuses its quick comparison's scores
+    cache: dict[tuple, float] = {} if s_cache is None else s_cache.setdefault(
+        ("full", iso, tm_set), {})
 
     def full(m: Mapping[int, float], part: tuple[float, float] | None = None) -> float:
         key = (tuple(sorted(m.items())), part)
@@ -684,7 +703,7 @@ def _search_one(s: Mapping[str, Any], rt: np.ndarray, sz: np.ndarray, first: flo
         try:
             scale = make_scale(m, s, first)
             sc = align_indices(scale.index(t_top[sel]), lib, tolerance, weight=w_top[sel],
-                               lib_bonus=bonus)[1]
+                               lib_bonus=bonus, score_only=True)[1]
         except SettingsError:
             sc = -np.inf
         cache[key] = sc

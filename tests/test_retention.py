@@ -106,6 +106,44 @@ def test_alignment_interval_entry_and_prior():
                          lib_bonus=np.array([1.0, 0.0]))[0].tolist() == [0]
 
 
+
+def test_alignment_score_only_gives_the_same_score():
+    # the marker search asks for the score alone (one row kept): it must equal the full table's
+    rng = np.random.default_rng(5)
+    lib = np.sort(rng.uniform(300.0, 1300.0, 400))
+    for _ in range(20):
+        peaks = np.sort(rng.uniform(280.0, 1320.0, 150))
+        peaks[rng.integers(0, 150, 3)] = np.nan
+        kw = dict(weight=rng.uniform(0.5, 3.0, 150), lib_bonus=rng.normal(0.0, 1.0, 400))
+        a, full = align_indices(peaks, lib, 3.0, **kw)
+        a_only, only = align_indices(peaks, lib, 3.0, score_only=True, **kw)
+        assert only == full
+        assert (a_only == -1).all()
+
+
+def test_marker_chains_the_same_with_the_shared_tables():
+    # the chain programme keeps its tables per hold setting (s_cache): reusing them, for
+    # another hold or another number of chains, gives the chains computed afresh
+    from dha.retention import _chain_dp, _Lookup
+    rng = np.random.default_rng(11)
+    alk = 4.0 + np.array([0.4, 1.0, 2.5, 6.3, 12.0, 19.0, 25.5, 31.5, 37.0, 42.0, 46.6])
+    rt = np.sort(np.concatenate([alk, rng.uniform(4.2, 48.0, 150)]))
+    size = np.where(np.isin(rt, alk), 50.0, rng.lognormal(0.0, 1.0, len(rt)))
+    cand = np.sort(np.argsort(-size, kind="stable")[:40])
+    w = np.log1p(size / np.median(size))
+    lib = np.sort(np.concatenate([100.0 * np.arange(3, 14), rng.uniform(300.0, 1300.0, 300)]))
+    look = _Lookup(lib, 3.0, 200.0, 1500.0)
+    carbons = list(range(3, 14))
+    shared: dict = {}
+    for iso, tm, n_final, geo in ((0.0, 4.0, 2, False), (12.5, 4.0, 2, False),
+                                  (12.5, 3.6, 6, True), (0.0, 4.0, 6, False),
+                                  (12.5, 4.0, 6, False), (19.5, 3.9, 4, True)):
+        fresh = _chain_dp(rt, cand, w, look, carbons, iso, tm, n_final, geometric_check=geo)
+        again = _chain_dp(rt, cand, w, look, carbons, iso, tm, n_final, geometric_check=geo,
+                          s_cache=shared)
+        assert fresh == again
+        assert fresh and all(len(c) >= 3 for c in fresh)
+
 # --------------------------------------------------------------------------------------------
 # Issue 13: learning that carries over (dha.retention.recalibrate_neighbours)
 # --------------------------------------------------------------------------------------------

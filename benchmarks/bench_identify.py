@@ -106,7 +106,7 @@ def speed(lib, n):
 
 def real_accuracy(lib, seeds, auto=True):
     """Accuracy on unnamed runs of the real fuels (dha.fuel_data), held out by family."""
-    from dha.fuel_data import composition, fuel_table
+    from dha.fuel_data import blended_components, composition, fuel_table
     from dha.synthetic import lab_standard, real_fuel_run
 
     fuels = fuel_table(lib)
@@ -117,13 +117,16 @@ def real_accuracy(lib, seeds, auto=True):
           f"renormalised), seeds {seeds}; priors refitted without the fuel's family (HELD-OUT)")
     print("  std = the alkane standard C3-C13 as markers; stated = std, and the lab lists the "
           "sample's oxygenates ([identify] expected_oxygenates: what a blending study knows it "
-          "blended); auto = markers found; ceiling = told the components; flagged = "
+          "blended); blend = stated, and the lab also lists what it blended into the base fuel "
+          "([identify] blend_components: dha.fuel_data.blended_components, e.g. diisobutylene); "
+          "auto = markers found; ceiling = told the components; flagged = "
           "identification check not 'pass'")
     for sd, drift, target, near in ((0.5, 0.0, 0.97, 0.01), (1.5, 0.5, 0.90, 0.02)):
         rows = []
         for r in usable.itertuples():
             oxy = sorted(c for c, m in composition(lib, r.mixture_id).items()
                          if m > 0 and comps.at[c, "group"] == "oxygenates")
+            blend = blended_components(lib, r.mixture_id)
             for seed in seeds:
                 peaks, truth = real_fuel_run(lib, r.mixture_id, seed=seed, index_noise_sd=sd,
                                              drift_pct=drift)
@@ -131,8 +134,13 @@ def real_accuracy(lib, seeds, auto=True):
                        "ceiling": identification_ceiling(peaks, truth, lib)}
                 for key, kw in (("std", dict(markers=lab_standard())),
                                 ("stated", dict(markers=lab_standard(), expected_oxygenates=oxy)),
+                                ("blend", dict(markers=lab_standard(), expected_oxygenates=oxy,
+                                               blend_components=blend)),
                                 ("auto", {})):
                     if key == "auto" and not auto:
+                        continue
+                    if key == "blend" and not blend:
+                        row[key], row[key + "_flag"] = row["stated"], row["stated_flag"]
                         continue
                     if key == "stated" and not oxy:
                         row[key], row[key + "_flag"] = row["std"], row["std_flag"]
@@ -145,7 +153,7 @@ def real_accuracy(lib, seeds, auto=True):
         d = pd.DataFrame(rows)
         print(f"  index noise sd {sd}, drift {drift} %: target mean >= {target:.2f} (every run "
               f">= 0.93 at sd 0.5) or within {near:.2f} of the ceiling")
-        for key in ("std", "stated", "auto"):
+        for key in ("std", "stated", "blend", "auto"):
             if key not in d:
                 continue
             gap = d["ceiling"].mean() - d[key].mean()
@@ -154,13 +162,16 @@ def real_accuracy(lib, seeds, auto=True):
                   f"{d['ceiling'].mean():.4f} min {d['ceiling'].min():.4f} | gap {gap:+.4f} | "
                   f"flagged {int(d[key + '_flag'].sum())}/{len(d)}, runs < 0.90 without a flag "
                   f"{unflagged_bad}")
-        d["blend"] = np.where(d["label"].str.contains("prenol"), "prenol/isoprenol blends",
-                              "base fuels and ethanol blends")
-        keys = [k for k in ("std", "stated", "auto") if k in d]
+        d["kind"] = np.where(d["label"].str.contains("prenol"), "prenol/isoprenol blends",
+                             "base fuels and ethanol blends")
+        keys = [k for k in ("std", "stated", "blend", "auto") if k in d]
+        per_fam = d.groupby(["family", "kind"])[keys + ["ceiling"]].mean()
+        print("    averaged per family group (each of the groups below once): " + ", ".join(
+            f"{k} {per_fam[k].mean():.4f}" for k in keys + ["ceiling"]))
         print("    per family, mean (min), held out:")
         print("      " + f"{'family':22s} {'runs':>4s} " + " ".join(f"{k:>15s}" for k in keys)
               + f" {'ceiling':>15s}")
-        for (fam, blend), g in d.groupby(["family", "blend"]):
+        for (fam, blend), g in d.groupby(["family", "kind"]):
             name = fam if blend.startswith("base") else f"{fam} {blend.split()[0]}"
             print("      " + f"{name[:22]:22s} {len(g):4d} " + " ".join(
                 f"{g[k].mean():7.4f} ({g[k].min():.3f})" for k in keys + ["ceiling"]))

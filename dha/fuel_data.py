@@ -124,3 +124,29 @@ def composition(library: Any, mixture_id: str) -> dict[str, float]:
         raise InputError(f"real fuels: no mixture {mixture_id!r}")
     m = f.groupby("component", sort=True)["mass_pct"].sum()
     return (100.0 * m / m.sum()).to_dict()
+
+
+#: A component is a blend component of a family member when its mass share exceeds the base
+#: fuel's by at least this many points [%] (what a blending study added; common practice,
+#: no source).
+BLEND_MIN_PCT = 5.0
+
+
+def blended_components(library: Any, mixture_id: str) -> list[str]:
+    """Library names of what was blended into a base fuel to make this fuel: the components
+    whose mass share exceeds the family base's (the member labelled by the family name alone)
+    by :data:`BLEND_MIN_PCT` points or more. Empty for a base fuel or a family without one.
+    What a blending study states as ``identify.blend_components`` (for evaluations)."""
+    f = real_fuels(library)
+    f = f[f["component"].notna()]
+    me = f[f["mixture_id"] == mixture_id]
+    if me.empty:
+        from dha.errors import InputError
+        raise InputError(f"real fuels: no mixture {mixture_id!r}")
+    family = me["family"].iat[0]
+    base_id = f.loc[(f["family"] == family) & (f["label"].str.strip() == family), "mixture_id"]
+    if base_id.empty or base_id.iat[0] == mixture_id:
+        return []
+    mine = pd.Series(composition(library, mixture_id))
+    base = pd.Series(composition(library, base_id.iat[0])).reindex(mine.index).fillna(0.0)
+    return sorted(mine.index[(mine - base) >= BLEND_MIN_PCT])

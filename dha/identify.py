@@ -729,13 +729,15 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             is_oxy = library.components["group"].reindex(chosen_names).astype(str).to_numpy() \
                 == "oxygenates"
             if s.get("expected_oxygenates"):
-                blended = np.isin(chosen_names, list(expected_oxygenates(library, s)))
+                blended = np.isin(chosen_names, list(_stated(library, s)))
             else:
                 seen = _oxygenates_in_data(library, s)
                 blended = np.isin(chosen_names, list(seen))
                 expect = np.where(is_oxy, [seen.get(n, PRIOR_FLOOR_PCT) for n in chosen_names],
                                   expect)
             blended &= (sub != "ether") | (share <= EN228_MAX_ETHERS_PCT)
+            # what the lab states it blended in may be any size
+            blended |= np.isin(chosen_names, list(blend_components(library, s)))
             odd = (share > LARGE_PEAK_PCT) & (share > RARE_FACTOR * expect) & ~blended
             if odd.any():
                 rows_odd = todo[got][odd]
@@ -875,8 +877,8 @@ def size_limits(library: Any, names: np.ndarray, s: dict[str, Any] | None = None
     """
     s = s or {}
     exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
-    stated = tuple(sorted(expected_oxygenates(library, s))) if s.get("expected_oxygenates") \
-        else ()
+    stated = tuple(sorted(_stated(library, s)))
+
     def build() -> pd.Series:
         from dha.fuel_data import real_fuels
         f = real_fuels(library)
@@ -907,7 +909,7 @@ def share_caps(library: Any, names: np.ndarray, s: dict[str, Any] | None = None)
     Hydrocarbons, methanol and ethanol: no limit; nor the oxygenates the lab lists in
     ``identify.expected_oxygenates`` (a blending study states what it blended).
     """
-    stated = expected_oxygenates(library, s) if s and s.get("expected_oxygenates") else ()
+    stated = _stated(library, s)
     comps = library.components
     group = comps["group"].reindex(names).astype(str).to_numpy()
     sub = comps["subgroup"].reindex(names).astype(str).to_numpy() if "subgroup" in comps \
@@ -931,7 +933,7 @@ def _prior_mass_pct(library: Any, s: dict[str, Any], names: np.ndarray) -> np.nd
     exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
     table = _prior_table(library, bool(s.get("carbon_prior", True)),
                          expected_oxygenates(library, s), odds, exclude,
-                         bool(s.get("component_prior", True)))
+                         bool(s.get("component_prior", True)), blend_components(library, s))
     vals = table.reindex(pd.Index(names, dtype=object)).fillna(0.0).to_numpy(dtype=float)
     return 100.0 * np.exp(vals) / len(library.components)
 
@@ -1152,8 +1154,66 @@ def expected_oxygenates(library: Any, s: dict[str, Any]) -> frozenset[str]:
         A listed name is not an oxygenate of the library.
     """
     listed = tuple(str(x) for x in (s.get("expected_oxygenates") or []))
-    return _EXPECTED_OXY.get(library, lambda: _expected_oxygenates(library, listed),
+    base = _EXPECTED_OXY.get(library, lambda: _expected_oxygenates(library, listed),
                              tag=(getattr(library, "sha256", None), listed))
+    blend = blend_components(library, s)
+    if not blend:
+        return base
+    oxy = library.components["group"].reindex(sorted(blend)).astype(str) == "oxygenates"
+    return base | frozenset(oxy.index[oxy.to_numpy()])
+
+
+#: Mass share [%] the prior expects of a component the lab states it blended into the sample
+#: (``identify.blend_components``): blendstocks of a blending study are added at 5-90 % v/v,
+#: so about 10 % (common practice, no source; set beforehand, not tuned).
+BLEND_COMPONENT_PCT = 10.0
+
+
+def blend_components(library: Any, s: dict[str, Any] | None) -> frozenset[str]:
+    """Library names of the components the lab states it blended into the samples
+    (``identify.blend_components``: names, synonyms or CAS numbers; any group).
+
+    A blending study knows its blendstocks (an oxygenate, diisobutylene, toluene ...): such a
+    component may hold any share of the area (no size limit, no EN 228 cap), the prior expects
+    it at :data:`BLEND_COMPONENT_PCT` at least, and an oxygenate among them counts as an
+    expected oxygenate.
+
+    Raises
+    ------
+    SettingsError
+        A listed name is not in the library.
+    """
+    listed = tuple(str(x) for x in ((s or {}).get("blend_components") or []))
+    if not listed:
+        return frozenset()
+    return _BLEND.get(library, lambda: _blend_components(library, listed),
+                      tag=(getattr(library, "sha256", None), listed))
+
+
+_BLEND = ObjectMemo(size=16)
+
+
+def _blend_components(library: Any, listed: tuple[str, ...]) -> frozenset[str]:
+    index = _index_for(library)
+    out = set()
+    for text in listed:
+        hit, _ = index.match(text)
+        if hit is None:
+            raise SettingsError(
+                f"[identify] blend_components: {text!r} is not a component of the library "
+                "(give a library name, synonym or CAS number; `dha library` lists them)")
+        out.add(hit)
+    return frozenset(out)
+
+
+def _stated(library: Any, s: dict[str, Any] | None) -> frozenset[str]:
+    """Entries the lab states the sample holds in any amount: the oxygenates it lists in
+    ``identify.expected_oxygenates`` and its ``identify.blend_components``."""
+    s = s or {}
+    out = blend_components(library, s)
+    if s.get("expected_oxygenates"):
+        out = out | expected_oxygenates(library, s)
+    return out
 
 
 _EXPECTED_OXY = ObjectMemo(size=16)
@@ -1202,8 +1262,10 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
     The shares come from real fuels, not from invented profiles: the group and, for
     hydrocarbons, (group, carbon number) mass shares of the detailed compositions of
     :mod:`dha.fuel_data` (Kuzhagaliyeva et al. 2022, CC BY 4.0; see :func:`prior_shares`).
-    A unit of petrol mass belongs to a cell with its share there; within a cell to any of the
-    library's entries alike. So an entry of a crowded cell with little mass (the many C10-C12
+    A unit of petrol mass belongs to a cell with its share there; within a cell to an entry
+    with the part of the cell the fuels give it (:func:`within_cell_shares`, smoothed: an
+    entry the data lack keeps some chance, less where its cell is rich and well sampled;
+    ``identify.component_prior = false``: every entry of a cell alike). So an entry of a crowded cell with little mass (the many C10-C12
     aromatics, C6-C7 olefins) is a priori less likely than one of a rich, sparse cell (the C8
     aromatics). Oxygenates are there because they were blended in: the share of the group goes
     to the expected oxygenates (:func:`expected_oxygenates`) alike, each other oxygenate
@@ -1211,7 +1273,8 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
     says nothing of their share; 0 takes them out of index matching altogether).
     ``identify.group_prior`` scales it (0 = off: every entry alike); ``identify.carbon_prior
     = false`` uses the group shares alone; ``identify.prior_exclude_families`` leaves fuel
-    families of the data out (for held-out evaluation).
+    families of the data out (for held-out evaluation). A component the lab states it blended
+    in (:func:`blend_components`) is expected at :data:`BLEND_COMPONENT_PCT` at least.
     """
     scale = float(s.get("group_prior", 1.0))
     if scale == 0 or len(names) == 0:
@@ -1224,7 +1287,7 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
     exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
     table = _prior_table(library, bool(s.get("carbon_prior", True)),
                          expected_oxygenates(library, s), odds, exclude,
-                         bool(s.get("component_prior", True)))
+                         bool(s.get("component_prior", True)), blend_components(library, s))
     return scale * table.reindex(pd.Index(names, dtype=object)).fillna(0.0).to_numpy(dtype=float)
 
 
@@ -1235,9 +1298,10 @@ _PRIORS = ObjectMemo(size=32)
 #: additive smoothing; about the size of the smallest components the data report).
 PRIOR_FLOOR_PCT = 0.05
 
-#: Weight of a cell's average share per entry beside a component's own share in the data,
-#: in the component prior (a half: chosen beforehand, not tuned; common practice, no source).
-PRIOR_CELL_WEIGHT = 0.5
+#: Pseudo-families of the within-cell smoothing (:func:`within_cell_shares`): one family
+#: spread evenly over a cell's entries (add-one smoothing, common practice, no source; 3 was
+#: tried on the tuning seeds and was worse at both noise levels).
+WITHIN_CELL_PSEUDO = 1.0
 
 #: Oxygen limit [% m/m] of EN 228 petrol (E10 grade); fuels of the data above it (the 25-90 %
 #: blends of a blending study) are left out of the oxygenate share.
@@ -1310,22 +1374,68 @@ def prior_shares(library: Any, exclude_families: tuple = ()) -> tuple[dict, dict
     return groups, cells, components
 
 
+def within_cell_shares(library: Any, exclude_families: tuple = ()) -> dict[str, float]:
+    """Expected fraction of its (group, carbon number) cell each hydrocarbon entry holds [-].
+
+    Dirichlet-smoothed over the families of :func:`dha.fuel_data.real_fuels` (each family
+    once, its members averaged): ``(sum_f phi_fj + a / n) / (N + a)``, with ``phi_fj`` the
+    share of the cell entry j holds in family f, ``N`` the families that hold the cell
+    (a family counts by the share of its members that hold it), ``n`` the cell's library
+    entries and ``a`` = :data:`WITHIN_CELL_PSEUDO` pseudo-families spread evenly over the cell. An entry absent from a cell that many families hold
+    is a minor isomer; in a cell the data barely hold every entry stays near ``1 / n``.
+    """
+    from dha.fuel_data import real_fuels
+
+    comps = library.components
+    f = real_fuels(library)
+    f = f[f["component"].notna() & ~f["family"].isin(list(exclude_families))].copy()
+    f["group"] = f["component"].map(comps["group"])
+    f = f[f["group"] != "oxygenates"]
+    f["carbon"] = f["component"].map(pd.to_numeric(comps["carbon_number"], errors="coerce"))
+    f = f.groupby(["family", "mixture_id", "group", "carbon", "component"],
+                  as_index=False)["mass_pct"].sum()
+    f["phi"] = f["mass_pct"] / f.groupby(["mixture_id", "group", "carbon"])["mass_pct"].transform("sum")
+    members = f.groupby("family")["mixture_id"].nunique()
+    # per family: the mean over its members (a member without the cell counts as 0 there,
+    # so a family counts by the share of its members that hold the cell)
+    fam = f.groupby(["family", "group", "carbon", "component"])["phi"].sum() / \
+        f.groupby(["family", "group", "carbon", "component"])["phi"].sum().index.get_level_values(
+            "family").map(members).to_numpy()
+    held = fam.groupby(["family", "group", "carbon"]).sum().groupby(["group", "carbon"]).sum()
+    phi_sum = fam.groupby(["group", "carbon", "component"]).sum()
+    carbon = pd.to_numeric(comps["carbon_number"], errors="coerce")
+    hc = comps[comps["group"] != "oxygenates"]
+    n_cell = pd.DataFrame({"g": hc["group"], "c": carbon[hc.index]}).groupby(["g", "c"]).size()
+    out = {}
+    for name, g, c in zip(hc.index, hc["group"], carbon[hc.index]):
+        if pd.isna(c):
+            continue
+        n = int(n_cell.get((g, c), 1))
+        big_n = float(held.get((g, c), 0.0))
+        out[name] = (float(phi_sum.get((g, c, name), 0.0)) + WITHIN_CELL_PSEUDO / n) \
+            / (big_n + WITHIN_CELL_PSEUDO)
+    return out
+
+
 def _prior_table(library: Any, by_carbon: bool, expected: frozenset = frozenset(),
-                 odds: float = 1.0, exclude: tuple = (), by_component: bool = True) -> pd.Series:
+                 odds: float = 1.0, exclude: tuple = (), by_component: bool = True,
+                 blend: frozenset = frozenset()) -> pd.Series:
     """Unscaled log prior odds of every library entry (see :func:`_group_prior`), cached per
     library object and content checksum."""
     return _PRIORS.get(library, lambda: _build_prior_table(library, by_carbon, expected, odds,
-                                                           exclude, by_component),
+                                                           exclude, by_component, blend),
                        tag=(getattr(library, "sha256", None), by_carbon, expected, odds,
-                            exclude, by_component))
+                            exclude, by_component, blend))
 
 
 def _build_prior_table(library: Any, by_carbon: bool, expected: frozenset, odds: float,
-                       exclude: tuple, by_component: bool) -> pd.Series:
+                       exclude: tuple, by_component: bool,
+                       blend: frozenset = frozenset()) -> pd.Series:
     comps = library.components
     groups = comps["group"]
     carbon = pd.to_numeric(comps.get("carbon_number"), errors="coerce")
-    g_share, c_share, comp_share = prior_shares(library, exclude)
+    g_share, c_share, _ = prior_shares(library, exclude)
+    within = within_cell_shares(library, exclude) if by_component else {}
     counts = groups.value_counts()
     cell_n = pd.DataFrame({"g": groups, "c": carbon}).groupby(["g", "c"]).size()
     uniform = np.log(1.0 / len(comps))
@@ -1337,17 +1447,19 @@ def _build_prior_table(library: Any, by_carbon: bool, expected: frozenset, odds:
         if g == "oxygenates":
             vals.append(np.log(one_oxy * (1.0 if name in expected else odds)) - uniform)
         elif by_carbon and pd.notna(n) and (g, n) in c_share:
-            # the component's own mean share in the data, plus a part of its cell's
-            # average share per entry (PRIOR_CELL_WEIGHT), so an entry the data lack keeps
-            # a cell-sized chance
-            own = comp_share.get(name, 0.0) if by_component else 0.0
-            w_cell = PRIOR_CELL_WEIGHT if by_component else 1.0
-            vals.append(np.log((own + w_cell * c_share[(g, n)] / cell_n[(g, n)]) / 100.0)
-                        - uniform)
+            # the cell's share times the entry's expected part of it (smoothed over the
+            # families: an entry absent where its cell is rich is a minor isomer)
+            part = within.get(name, 1.0 / cell_n[(g, n)])
+            vals.append(np.log(c_share[(g, n)] * part / 100.0) - uniform)
         else:
             vals.append(np.log(max(g_share.get(g, PRIOR_FLOOR_PCT), 1e-9) / 100.0
                                / counts.get(g, 1)) - uniform)
-    return pd.Series(vals, index=comps.index, dtype=float)
+    out = pd.Series(vals, index=comps.index, dtype=float)
+    if blend:
+        # a stated blend component is expected at BLEND_COMPONENT_PCT at least
+        names = [n for n in sorted(blend) if n in out.index]
+        out[names] = np.maximum(out[names], np.log(BLEND_COMPONENT_PCT / 100.0) - uniform)
+    return out
 
 
 #: Grids of the run's index model (:func:`_index_model`): spreads [index units], drift at

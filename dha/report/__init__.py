@@ -454,6 +454,7 @@ _SETTING_WORDS = {
     "holdup_time_min": "the hold-up time",
     "markers": "the n-alkane marker times",
     "expected_oxygenates": "the list of oxygenates the samples may hold",
+    "blend_components": "the list of components blended into the samples",
     "ri_tolerance": "the retention-index window",
     "other_oxygenate_odds": "the weight given to unexpected oxygenates",
     "split_named_coelutions": "the co-elution rule",

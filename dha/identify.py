@@ -1201,7 +1201,7 @@ def _blend_components(library: Any, listed: tuple[str, ...]) -> frozenset[str]:
         if hit is None:
             raise SettingsError(
                 f"[identify] blend_components: {text!r} is not a component of the library "
-                "(give a library name, synonym or CAS number; `dha library` lists them)")
+                "(give a library name, synonym or CAS number; `dha library export` lists them)")
         out.add(hit)
     return frozenset(out)
 

@@ -729,7 +729,7 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             is_oxy = library.components["group"].reindex(chosen_names).astype(str).to_numpy() \
                 == "oxygenates"
             if s.get("expected_oxygenates"):
-                blended = np.isin(chosen_names, list(_stated(library, s)))
+                blended = np.isin(chosen_names, list(expected_oxygenates(library, s)))
             else:
                 seen = _oxygenates_in_data(library, s)
                 blended = np.isin(chosen_names, list(seen))
@@ -870,9 +870,10 @@ def size_limits(library: Any, names: np.ndarray, s: dict[str, Any] | None = None
 
     ``max(SIZE_FACTOR x the largest mass share any fuel of the prior data holds of it,
     SIZE_FLOOR_PCT)`` (:mod:`dha.fuel_data`, ``identify.prior_exclude_families`` left out);
-    no limit for methanol, ethanol and the oxygenates the lab lists in
-    ``identify.expected_oxygenates``. A 30 % peak is rarely a component real petrol holds at
-    1 %: a blend component (prenol a lab blended, diisobutylene) is likelier. The alignment
+    no limit for methanol, ethanol, the oxygenates the lab lists in
+    ``identify.expected_oxygenates`` and its ``identify.blend_components``. A 30 % peak is
+    rarely a component real petrol holds at 1 %: a blend component (prenol a lab blended,
+    diisobutylene) is likelier. The alignment
     takes ``SIZE_SLOPE ln(share / limit)`` off a larger peak's match.
     """
     s = s or {}
@@ -907,7 +908,8 @@ def share_caps(library: Any, names: np.ndarray, s: dict[str, Any] | None = None)
     diisobutylene, 0.8 units from tert-amyl ethyl ether). Area share stands in for % v/v: an
     oxygenate gives less FID area than its mass, so the limit errs on the lenient side.
     Hydrocarbons, methanol and ethanol: no limit; nor the oxygenates the lab lists in
-    ``identify.expected_oxygenates`` (a blending study states what it blended).
+    ``identify.expected_oxygenates`` or ``identify.blend_components`` (a blending study
+    states what it blended).
     """
     stated = _stated(library, s)
     comps = library.components
@@ -1265,8 +1267,8 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
     A unit of petrol mass belongs to a cell with its share there; within a cell to an entry
     with the part of the cell the fuels give it (:func:`within_cell_shares`, smoothed: an
     entry the data lack keeps some chance, less where its cell is rich and well sampled;
-    ``identify.component_prior = false``: every entry of a cell alike). So an entry of a crowded cell with little mass (the many C10-C12
-    aromatics, C6-C7 olefins) is a priori less likely than one of a rich, sparse cell (the C8
+    ``identify.component_prior = false``: every entry of a cell alike). So an entry of a
+    crowded cell with little mass (the many C10-C12 aromatics, C6-C7 olefins) is a priori less likely than one of a rich, sparse cell (the C8
     aromatics). Oxygenates are there because they were blended in: the share of the group goes
     to the expected oxygenates (:func:`expected_oxygenates`) alike, each other oxygenate
     getting ``identify.other_oxygenate_odds`` times an expected one's (their carbon number
@@ -1381,8 +1383,9 @@ def within_cell_shares(library: Any, exclude_families: tuple = ()) -> dict[str, 
     once, its members averaged): ``(sum_f phi_fj + a / n) / (N + a)``, with ``phi_fj`` the
     share of the cell entry j holds in family f, ``N`` the families that hold the cell
     (a family counts by the share of its members that hold it), ``n`` the cell's library
-    entries and ``a`` = :data:`WITHIN_CELL_PSEUDO` pseudo-families spread evenly over the cell. An entry absent from a cell that many families hold
-    is a minor isomer; in a cell the data barely hold every entry stays near ``1 / n``.
+    entries and ``a`` = :data:`WITHIN_CELL_PSEUDO` pseudo-families spread evenly over the
+    cell. An entry absent from a cell that many families hold is a minor isomer; in a cell the
+    data barely hold every entry stays near ``1 / n``.
     """
     from dha.fuel_data import real_fuels
 
@@ -1394,13 +1397,13 @@ def within_cell_shares(library: Any, exclude_families: tuple = ()) -> dict[str, 
     f["carbon"] = f["component"].map(pd.to_numeric(comps["carbon_number"], errors="coerce"))
     f = f.groupby(["family", "mixture_id", "group", "carbon", "component"],
                   as_index=False)["mass_pct"].sum()
-    f["phi"] = f["mass_pct"] / f.groupby(["mixture_id", "group", "carbon"])["mass_pct"].transform("sum")
+    f["phi"] = f["mass_pct"] / f.groupby(["mixture_id", "group", "carbon"])[
+        "mass_pct"].transform("sum")
     members = f.groupby("family")["mixture_id"].nunique()
     # per family: the mean over its members (a member without the cell counts as 0 there,
     # so a family counts by the share of its members that hold the cell)
-    fam = f.groupby(["family", "group", "carbon", "component"])["phi"].sum() / \
-        f.groupby(["family", "group", "carbon", "component"])["phi"].sum().index.get_level_values(
-            "family").map(members).to_numpy()
+    fam = f.groupby(["family", "group", "carbon", "component"])["phi"].sum()
+    fam = fam / fam.index.get_level_values("family").map(members).to_numpy()
     held = fam.groupby(["family", "group", "carbon"]).sum().groupby(["group", "carbon"]).sum()
     phi_sum = fam.groupby(["group", "carbon", "component"]).sum()
     carbon = pd.to_numeric(comps["carbon_number"], errors="coerce")

@@ -801,9 +801,13 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
                        s, library)
     if large_rare:
         shown = ", ".join(f"{comp[i]} at {rt[i]:.2f} min" for i in large_rare[:3])
+        hint = _blendstock_hint(library, lib, [(rt[i], peak_ri[i], comp[i])
+                                               for i in large_rare[:3]], tol)
         quality["reasons"].append(
             f"large peak(s) matched by index to a component real fuels hold only in traces "
-            f"({shown}); it may be a blend component the library or the prior data lack")
+            f"({shown}); it may be a blend component the library or the prior data lack"
+            f"{hint}; if the sample was blended with a component, list it in [identify] "
+            "blend_components")
         if quality["verdict"] == "pass":
             quality["verdict"] = "marginal"
     if drift_max >= DRIFT_FLAG:
@@ -1117,6 +1121,24 @@ def _quality(table: pd.DataFrame, markers: dict, how: str, search: dict | None,
             "markers": {int(c): round(float(t), 4) for c, t in sorted(markers.items())},
             "marker_score": (round(float(search["score"]), 4) if auto and search else None),
             "runner_up": runner, "peaks": n_peaks}
+
+
+def _blendstock_hint(library: Any, lib: pd.DataFrame, peaks: list[tuple[float, float, Any]],
+                     tol: float) -> str:
+    """", an oxygenate elutes there too: NAME (index I) at T min" for large peaks with an
+    oxygenate of the library within the window (the nearest one), else ""."""
+    ri = lib["retention_index"].to_numpy(dtype=float)
+    names = lib["name"].to_numpy(dtype=object)
+    oxy = library.components["group"].reindex(names).astype(str).to_numpy() == "oxygenates"
+    found = []
+    for t, p, chosen in peaks:
+        if not np.isfinite(p):
+            continue
+        d = np.where(oxy & (names != chosen), np.abs(ri - p), np.inf)
+        j = int(np.argmin(d)) if len(d) else -1
+        if j >= 0 and d[j] <= tol:
+            found.append(f"{names[j]} (index {ri[j]:.1f}) at {t:.2f} min")
+    return (", an oxygenate elutes there too: " + ", ".join(found)) if found else ""
 
 
 def _marker_text(m: dict | None) -> str:

@@ -704,6 +704,9 @@ def test_a_stated_blend_component_is_found_and_an_unstated_one_is_flagged(lib):
     plain = identify(peaks, lib, _settings(**base))
     if identification_accuracy(plain, truth) < 0.9:
         assert plain.attrs["quality"]["verdict"] != "pass"
+    # the check names the oxygenate that elutes there and what to set
+    assert any("3-methyl-2-buten-1-ol" in r and "blend_components" in r
+               for r in plain.attrs["quality"]["reasons"]), plain.attrs["quality"]["reasons"]
 
 
 def test_a_stated_hydrocarbon_blendstock_is_found_and_an_unstated_one_is_flagged(lib):

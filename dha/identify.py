@@ -810,6 +810,17 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             "blend_components")
         if quality["verdict"] == "pass":
             quality["verdict"] = "marginal"
+    lone = _lone_isomers(table, library, s, skip={comp[i] for i in large_rare})
+    if lone:
+        quality["reasons"].append(
+            "large peak(s) matched by index to a component that holds most of its group and "
+            "carbon number in this run, far more than in any reference fuel ("
+            + "; ".join(lone[:3]) + "): refinery streams make isomers together, so a lone "
+            "large isomer may be a blend component the library or the prior data lack"
+            + ("; if the sample was blended with a component, list it in [identify] "
+               "blend_components"))
+        if quality["verdict"] == "pass":
+            quality["verdict"] = "marginal"
     if drift_max >= DRIFT_FLAG:
         quality["reasons"].append(
             f"the retention indices needed a drift correction of up to {drift_max:.1f} index "
@@ -1139,6 +1150,71 @@ def _blendstock_hint(library: Any, lib: pd.DataFrame, peaks: list[tuple[float, f
         if j >= 0 and d[j] <= tol:
             found.append(f"{names[j]} (index {ri[j]:.1f}) at {t:.2f} min")
     return (", an oxygenate elutes there too: " + ", ".join(found)) if found else ""
+
+
+#: A peak of at least LARGE_PEAK_PCT of the area matched by index to a hydrocarbon that holds
+#: more than LONE_SHARE of its (group, carbon number) in the run and more than LONE_FACTOR x
+#: the largest part of that cell it holds in any fuel of the prior data is a "lone isomer"
+#: (common practice, no source: refinery processes make isomers together; set beforehand).
+LONE_SHARE = 0.5
+LONE_FACTOR = 2.0
+
+
+def max_cell_parts(library: Any, exclude_families: tuple = ()) -> dict[str, float]:
+    """Largest part of its (group, carbon number) cell each hydrocarbon holds in any fuel of
+    :func:`dha.fuel_data.real_fuels` (families in ``exclude_families`` left out) [-]."""
+    def build() -> dict[str, float]:
+        from dha.fuel_data import real_fuels
+        comps = library.components
+        f = real_fuels(library)
+        f = f[f["component"].notna() & ~f["family"].isin(list(exclude_families))].copy()
+        f["group"] = f["component"].map(comps["group"])
+        f = f[f["group"] != "oxygenates"]
+        f["carbon"] = f["component"].map(pd.to_numeric(comps["carbon_number"], errors="coerce"))
+        f = f.groupby(["mixture_id", "group", "carbon", "component"], as_index=False)[
+            "mass_pct"].sum()
+        f["part"] = f["mass_pct"] / f.groupby(["mixture_id", "group", "carbon"])[
+            "mass_pct"].transform("sum")
+        return {str(k): float(v) for k, v in f.groupby("component")["part"].max().items()}
+
+    return _CELL_PARTS.get(library, build,
+                           tag=(getattr(library, "sha256", None), tuple(exclude_families)))
+
+
+_CELL_PARTS = ObjectMemo(size=16)
+
+
+def _lone_isomers(table: pd.DataFrame, library: Any, s: dict[str, Any],
+                  skip: set) -> list[str]:
+    """Large peaks matched by index to a hydrocarbon that dominates its cell in this run far
+    beyond any reference fuel (see :data:`LONE_SHARE`): "name at t min (x % of the area, y of
+    its cell; at most z in the reference fuels)"."""
+    if float(s.get("group_prior", 1.0)) == 0 or not len(table):
+        return []
+    comps = library.components
+    size = _peak_size(table)
+    share = 100.0 * size / max(float(size.sum()), 1e-300)
+    names = table["component"].to_numpy(dtype=object)
+    known = pd.notna(names)
+    group = comps["group"].reindex(names[known]).astype(str).to_numpy()
+    carbon = pd.to_numeric(comps["carbon_number"], errors="coerce").reindex(names[known])
+    cell = pd.Series(share[known]).groupby([group, carbon.to_numpy()]).sum()
+    exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
+    parts = max_cell_parts(library, exclude)
+    stated = _stated(library, s)
+    out = []
+    for k, i in enumerate(np.flatnonzero(known)):
+        c = names[i]
+        if (table["match"].iat[i] != "retention_index" or share[i] < LARGE_PEAK_PCT
+                or c in skip or c in stated or group[k] == "oxygenates"
+                or not np.isfinite(carbon.iat[k])):
+            continue
+        part = share[i] / max(float(cell.get((group[k], carbon.iat[k]), share[i])), 1e-300)
+        seen = parts.get(c, 0.0)
+        if part > LONE_SHARE and part > LONE_FACTOR * seen:
+            out.append(f"{c} at {table['rt_min'].iat[i]:.2f} min ({share[i]:.1f} % of the area, "
+                       f"{part:.2f} of its cell; at most {seen:.2f} in the reference fuels)")
+    return out
 
 
 def _marker_text(m: dict | None) -> str:

@@ -738,7 +738,10 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             blended &= (sub != "ether") | (share <= EN228_MAX_ETHERS_PCT)
             # what the lab states it blended in may be any size
             blended |= np.isin(chosen_names, list(blend_components(library, s)))
-            odd = (share > LARGE_PEAK_PCT) & (share > RARE_FACTOR * expect) & ~blended
+            # oxygenates only: a hydrocarbon's size is judged against its isomers
+            # (:func:`_lone_isomers`), which a rare-but-normal component (methylcyclopentane
+            # at 6-9 % in a fuel unlike the prior data) passes
+            odd = (share > LARGE_PEAK_PCT) & (share > RARE_FACTOR * expect) & ~blended & is_oxy
             if odd.any():
                 rows_odd = todo[got][odd]
                 conf[rows_odd] = np.minimum(conf[rows_odd], 0.5)
@@ -810,15 +813,19 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
             "blend_components")
         if quality["verdict"] == "pass":
             quality["verdict"] = "marginal"
-    lone = _lone_isomers(table, library, s, skip={comp[i] for i in large_rare})
+    lone = _lone_isomers(table, library, s)
     if lone:
+        shown = "; ".join(text for _, text in lone[:3])
+        where = table["retention_index"].to_numpy(dtype=float)
+        hint = _blendstock_hint(library, lib, [(table["rt_min"].iat[i], where[i],
+                                                table["component"].iat[i]) for i, _ in lone[:3]],
+                                tol)
         quality["reasons"].append(
             "large peak(s) matched by index to a component that holds most of its group and "
-            "carbon number in this run, far more than in any reference fuel ("
-            + "; ".join(lone[:3]) + "): refinery streams make isomers together, so a lone "
-            "large isomer may be a blend component the library or the prior data lack"
-            + ("; if the sample was blended with a component, list it in [identify] "
-               "blend_components"))
+            f"carbon number in this run, far more than in any reference fuel ({shown}): "
+            "refinery streams make isomers together, so a lone large isomer may be a blend "
+            f"component the library or the prior data lack{hint}; if the sample was blended "
+            "with a component, list it in [identify] blend_components")
         if quality["verdict"] == "pass":
             quality["verdict"] = "marginal"
     if drift_max >= DRIFT_FLAG:
@@ -1184,11 +1191,11 @@ def max_cell_parts(library: Any, exclude_families: tuple = ()) -> dict[str, floa
 _CELL_PARTS = ObjectMemo(size=16)
 
 
-def _lone_isomers(table: pd.DataFrame, library: Any, s: dict[str, Any],
-                  skip: set) -> list[str]:
+def _lone_isomers(table: pd.DataFrame, library: Any, s: dict[str, Any]
+                  ) -> list[tuple[int, str]]:
     """Large peaks matched by index to a hydrocarbon that dominates its cell in this run far
-    beyond any reference fuel (see :data:`LONE_SHARE`): "name at t min (x % of the area, y of
-    its cell; at most z in the reference fuels)"."""
+    beyond any reference fuel (see :data:`LONE_SHARE`): (position in the table, "name at t
+    min (x % of the area, y of its cell; at most z in the reference fuels)")."""
     if float(s.get("group_prior", 1.0)) == 0 or not len(table):
         return []
     comps = library.components
@@ -1206,14 +1213,15 @@ def _lone_isomers(table: pd.DataFrame, library: Any, s: dict[str, Any],
     for k, i in enumerate(np.flatnonzero(known)):
         c = names[i]
         if (table["match"].iat[i] != "retention_index" or share[i] < LARGE_PEAK_PCT
-                or c in skip or c in stated or group[k] == "oxygenates"
+                or c in stated or group[k] == "oxygenates"
                 or not np.isfinite(carbon.iat[k])):
             continue
         part = share[i] / max(float(cell.get((group[k], carbon.iat[k]), share[i])), 1e-300)
         seen = parts.get(c, 0.0)
         if part > LONE_SHARE and part > LONE_FACTOR * seen:
-            out.append(f"{c} at {table['rt_min'].iat[i]:.2f} min ({share[i]:.1f} % of the area, "
-                       f"{part:.2f} of its cell; at most {seen:.2f} in the reference fuels)")
+            out.append((int(i), f"{c} at {table['rt_min'].iat[i]:.2f} min ({share[i]:.1f} % of "
+                               f"the area, {part:.2f} of its cell; at most {seen:.2f} in the "
+                               "reference fuels)"))
     return out
 
 

@@ -1198,25 +1198,29 @@ def _lone_isomers(table: pd.DataFrame, library: Any, s: dict[str, Any]
     min (x % of the area, y of its cell; at most z in the reference fuels)")."""
     if float(s.get("group_prior", 1.0)) == 0 or not len(table):
         return []
-    comps = library.components
     size = _peak_size(table)
     share = 100.0 * size / max(float(size.sum()), 1e-300)
+    # only large peaks matched by index can be lone isomers (none in a named export)
+    big = np.flatnonzero((share >= LARGE_PEAK_PCT)
+                         & (table["match"].to_numpy() == "retention_index"))
+    if not len(big):
+        return []
+    comps = library.components
     names = table["component"].to_numpy(dtype=object)
     known = pd.notna(names)
-    group = comps["group"].reindex(names[known]).astype(str).to_numpy()
-    carbon = pd.to_numeric(comps["carbon_number"], errors="coerce").reindex(names[known])
-    cell = pd.Series(share[known]).groupby([group, carbon.to_numpy()]).sum()
+    cell_of = comps["group"].astype(str) + " " + comps["carbon_number"].astype(str)
+    cells = cell_of.reindex(names[known]).to_numpy(dtype=object)
+    cell = pd.Series(share[known]).groupby(cells).sum()
     exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
     parts = max_cell_parts(library, exclude)
     stated = _stated(library, s)
     out = []
-    for k, i in enumerate(np.flatnonzero(known)):
+    for i in big:
         c = names[i]
-        if (table["match"].iat[i] != "retention_index" or share[i] < LARGE_PEAK_PCT
-                or c in stated or group[k] == "oxygenates"
-                or not np.isfinite(carbon.iat[k])):
+        if c in stated or comps.at[c, "group"] == "oxygenates" \
+                or not np.isfinite(pd.to_numeric(comps.at[c, "carbon_number"], errors="coerce")):
             continue
-        part = share[i] / max(float(cell.get((group[k], carbon.iat[k]), share[i])), 1e-300)
+        part = share[i] / max(float(cell.get(cell_of[c], share[i])), 1e-300)
         seen = parts.get(c, 0.0)
         if part > LONE_SHARE and part > LONE_FACTOR * seen:
             out.append((int(i), f"{c} at {table['rt_min'].iat[i]:.2f} min ({share[i]:.1f} % of "

@@ -1171,17 +1171,7 @@ def max_cell_parts(library: Any, exclude_families: tuple = ()) -> dict[str, floa
     """Largest part of its (group, carbon number) cell each hydrocarbon holds in any fuel of
     :func:`dha.fuel_data.real_fuels` (families in ``exclude_families`` left out) [-]."""
     def build() -> dict[str, float]:
-        from dha.fuel_data import real_fuels
-        comps = library.components
-        f = real_fuels(library)
-        f = f[f["component"].notna() & ~f["family"].isin(list(exclude_families))].copy()
-        f["group"] = f["component"].map(comps["group"])
-        f = f[f["group"] != "oxygenates"]
-        f["carbon"] = f["component"].map(pd.to_numeric(comps["carbon_number"], errors="coerce"))
-        f = f.groupby(["mixture_id", "group", "carbon", "component"], as_index=False)[
-            "mass_pct"].sum()
-        f["part"] = f["mass_pct"] / f.groupby(["mixture_id", "group", "carbon"])[
-            "mass_pct"].transform("sum")
+        f = _cell_parts(library, exclude_families)
         return {str(k): float(v) for k, v in f.groupby("component")["part"].max().items()}
 
     return _CELL_PARTS.get(library, build,
@@ -1486,6 +1476,25 @@ def prior_shares(library: Any, exclude_families: tuple = ()) -> tuple[dict, dict
     return groups, cells, components
 
 
+def _cell_parts(library: Any, exclude_families: tuple) -> pd.DataFrame:
+    """Hydrocarbons of the real fuels (:func:`dha.fuel_data.real_fuels`, families left out):
+    ``family, mixture_id, group, carbon, component, mass_pct`` and ``part``, the component's
+    part of its (group, carbon number) cell in that fuel [-]."""
+    from dha.fuel_data import real_fuels
+
+    comps = library.components
+    f = real_fuels(library)
+    f = f[f["component"].notna() & ~f["family"].isin(list(exclude_families))].copy()
+    f["group"] = f["component"].map(comps["group"])
+    f = f[f["group"] != "oxygenates"]
+    f["carbon"] = f["component"].map(pd.to_numeric(comps["carbon_number"], errors="coerce"))
+    f = f.groupby(["family", "mixture_id", "group", "carbon", "component"],
+                  as_index=False)["mass_pct"].sum()
+    f["part"] = f["mass_pct"] / f.groupby(["mixture_id", "group", "carbon"])[
+        "mass_pct"].transform("sum")
+    return f
+
+
 def within_cell_shares(library: Any, exclude_families: tuple = ()) -> dict[str, float]:
     """Expected fraction of its (group, carbon number) cell each hydrocarbon entry holds [-].
 
@@ -1497,18 +1506,8 @@ def within_cell_shares(library: Any, exclude_families: tuple = ()) -> dict[str, 
     cell. An entry absent from a cell that many families hold is a minor isomer; in a cell the
     data barely hold every entry stays near ``1 / n``.
     """
-    from dha.fuel_data import real_fuels
-
     comps = library.components
-    f = real_fuels(library)
-    f = f[f["component"].notna() & ~f["family"].isin(list(exclude_families))].copy()
-    f["group"] = f["component"].map(comps["group"])
-    f = f[f["group"] != "oxygenates"]
-    f["carbon"] = f["component"].map(pd.to_numeric(comps["carbon_number"], errors="coerce"))
-    f = f.groupby(["family", "mixture_id", "group", "carbon", "component"],
-                  as_index=False)["mass_pct"].sum()
-    f["phi"] = f["mass_pct"] / f.groupby(["mixture_id", "group", "carbon"])[
-        "mass_pct"].transform("sum")
+    f = _cell_parts(library, exclude_families).rename(columns={"part": "phi"})
     members = f.groupby("family")["mixture_id"].nunique()
     # per family: the mean over its members (a member without the cell counts as 0 there,
     # so a family counts by the share of its members that hold the cell)

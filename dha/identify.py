@@ -802,32 +802,29 @@ def identify(peaks: pd.DataFrame, library: Any, settings: Any = None) -> pd.Data
         log.warning(w)
     quality = _quality(table, markers, how if need.any() else "export indices", search,
                        s, library)
-    if large_rare:
-        shown = ", ".join(f"{comp[i]} at {rt[i]:.2f} min" for i in large_rare[:3])
-        hint = _blendstock_hint(library, lib, [(rt[i], peak_ri[i], comp[i])
-                                               for i in large_rare[:3]], tol)
+    def large_peak_flag(what: str, peaks: list[tuple[float, float, Any]]) -> None:
+        # a large peak the data do not explain: at best marginal; name an oxygenate eluting
+        # there and the setting that states a blend component
+        hint = _blendstock_hint(library, lib, peaks, tol)
         quality["reasons"].append(
-            f"large peak(s) matched by index to a component real fuels hold only in traces "
-            f"({shown}); it may be a blend component the library or the prior data lack"
-            f"{hint}; if the sample was blended with a component, list it in [identify] "
-            "blend_components")
+            f"large peak(s) matched by index to {what}: it may be a blend component the library "
+            f"or the prior data lack{hint}; if the sample was blended with a component, list it "
+            "in [identify] blend_components")
         if quality["verdict"] == "pass":
             quality["verdict"] = "marginal"
+
+    if large_rare:
+        shown = ", ".join(f"{comp[i]} at {rt[i]:.2f} min" for i in large_rare[:3])
+        large_peak_flag(f"a component real fuels hold only in traces ({shown})",
+                        [(rt[i], peak_ri[i], comp[i]) for i in large_rare[:3]])
     lone = _lone_isomers(table, library, s)
     if lone:
         shown = "; ".join(text for _, text in lone[:3])
         where = table["retention_index"].to_numpy(dtype=float)
-        hint = _blendstock_hint(library, lib, [(table["rt_min"].iat[i], where[i],
-                                                table["component"].iat[i]) for i, _ in lone[:3]],
-                                tol)
-        quality["reasons"].append(
-            "large peak(s) matched by index to a component that holds most of its group and "
-            f"carbon number in this run, far more than in any reference fuel ({shown}): "
-            "refinery streams make isomers together, so a lone large isomer may be a blend "
-            f"component the library or the prior data lack{hint}; if the sample was blended "
-            "with a component, list it in [identify] blend_components")
-        if quality["verdict"] == "pass":
-            quality["verdict"] = "marginal"
+        large_peak_flag(
+            "a component that holds most of its group and carbon number in this run, far more "
+            f"than in any reference fuel ({shown}; refinery streams make isomers together)",
+            [(table["rt_min"].iat[i], where[i], table["component"].iat[i]) for i, _ in lone[:3]])
     if drift_max >= DRIFT_FLAG:
         quality["reasons"].append(
             f"the retention indices needed a drift correction of up to {drift_max:.1f} index "
@@ -895,8 +892,8 @@ def size_limits(library: Any, names: np.ndarray, s: dict[str, Any] | None = None
     no limit for methanol, ethanol, the oxygenates the lab lists in
     ``identify.expected_oxygenates`` and its ``identify.blend_components``. A 30 % peak is
     rarely a component real petrol holds at 1 %: a blend component (prenol a lab blended,
-    diisobutylene) is likelier. The alignment
-    takes ``SIZE_SLOPE ln(share / limit)`` off a larger peak's match.
+    diisobutylene) is likelier. The alignment takes ``SIZE_SLOPE ln(share / limit)`` off a
+    larger peak's match.
     """
     s = s or {}
     exclude = tuple(sorted(str(x) for x in (s.get("prior_exclude_families") or [])))
@@ -1368,8 +1365,8 @@ def _group_prior(library: Any, names: np.ndarray, s: dict[str, Any]) -> np.ndarr
     with the part of the cell the fuels give it (:func:`within_cell_shares`, smoothed: an
     entry the data lack keeps some chance, less where its cell is rich and well sampled;
     ``identify.component_prior = false``: every entry of a cell alike). So an entry of a
-    crowded cell with little mass (the many C10-C12 aromatics, C6-C7 olefins) is a priori less likely than one of a rich, sparse cell (the C8
-    aromatics). Oxygenates are there because they were blended in: the share of the group goes
+    crowded cell with little mass (the many C10-C12 aromatics, C6-C7 olefins) is a priori
+    less likely than one of a rich, sparse cell (the C8 aromatics). Oxygenates are there because they were blended in: the share of the group goes
     to the expected oxygenates (:func:`expected_oxygenates`) alike, each other oxygenate
     getting ``identify.other_oxygenate_odds`` times an expected one's (their carbon number
     says nothing of their share; 0 takes them out of index matching altogether).

@@ -118,7 +118,7 @@ def real_accuracy(lib, seeds, auto=True):
     print("  std = the alkane standard C3-C13 as markers; stated = std, and the lab lists the "
           "sample's oxygenates ([identify] expected_oxygenates: what a blending study knows it "
           "blended); blend = stated, and the lab also lists what it blended into the base fuel "
-          "([identify] blend_components: dha.fuel_data.blended_components, e.g. diisobutylene); "
+          "([identify] blend_components: dha.fuel_data.blended_components, e.g. isoprenol); "
           "auto = markers found; ceiling = told the components; flagged = "
           "identification check not 'pass'")
     for sd, drift, target, near in ((0.5, 0.0, 0.97, 0.01), (1.5, 0.5, 0.90, 0.02)):

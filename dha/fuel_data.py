@@ -1,9 +1,11 @@
 """Detailed compositions of real gasoline-like fuels, mapped onto the component library.
 
 The data: ``dha/properties/octane_data/gasolines_mon_training.csv``, 40 fuels with detailed
-DHA-type compositions (mole fractions, CAS numbers by structure): three research gasolines
-(FACE A, C, G) neat and with 10-60 % v/v ethanol, an RBOB-type blendstock neat and with
-ethanol, prenol or isoprenol, an alkylate and an aromatic certification-type fuel.
+DHA-type compositions (CAS numbers by structure): three research gasolines (FACE A, C, G)
+neat and with 10-60 % v/v ethanol, an RBOB-type blendstock neat and with ethanol, prenol or
+isoprenol, an alkylate and an aromatic certification-type fuel. How the table is read (the
+fraction of an additive a label names is its volume fraction, the base fuel's components are
+its mole fractions; "isoprenol" by the label, not the listed CAS number): :func:`real_fuels`.
 Source: Kuzhagaliyeva, Horvath, Williams, Nicolle, Sarathy, "Artificial intelligence-driven
 design of fuel mixtures", Communications Chemistry 5, 111 (2022); CC BY 4.0 (see that folder's
 PROVENANCE.md).
@@ -31,6 +33,38 @@ from dha.memo import ObjectMemo
 DATA_FILE = Path(__file__).parent / "properties" / "octane_data" / "gasolines_mon_training.csv"
 SOURCE = ("KUZ2022_MON: Kuzhagaliyeva et al., Commun. Chem. 5, 111 (2022), CC BY 4.0; "
           "40 real gasoline-like fuels with detailed compositions")
+
+
+#: Additives named in the gasoline labels ("FACE_A+E25", "RBOB5 + 10 vol% ethanol + 20 vol%
+#: prenol") and their CAS numbers. The source lists the "isoprenol" blends under the CAS number
+#: and SMILES of diisobutylene (107-39-1), the same mismatch as its pure-component entry named
+#: "isoprenol" (MON 83.3): we read the label, i.e. 3-methyl-3-buten-1-ol (763-32-6).
+GASOLINE_ADDITIVES = {"ethanol": "64-17-5", "prenol": "556-82-1", "isoprenol": "763-32-6"}
+ISOPRENOL_DATA_CAS = "107-39-1"
+
+
+def gasoline_additives(label: str) -> dict[str, float]:
+    """Additives and their nominal % v/v from a gasoline label.
+
+    >>> gasoline_additives("FACE_A+E25")
+    {'ethanol': 25.0}
+    >>> gasoline_additives("RBOB5 + 10 vol%  ethanol + 20 vol% prenol")
+    {'ethanol': 10.0, 'prenol': 20.0}
+    """
+    lab = " ".join(label.split())
+    out = {}
+    m = re.search(r"\+E(\d+)$", lab)
+    if m:
+        out["ethanol"] = float(m.group(1))
+    for v, name in re.findall(r"(\d+) vol% (\w+)", lab):
+        out[name] = float(v)
+    return out
+
+
+def blended_volume_pct(label: str) -> float:
+    """What a label says was blended into its base fuel in all [% v/v] ("RBOB5 + 10 vol%
+    ethanol + 20 vol% prenol" -> 30; a base fuel -> 0)."""
+    return float(sum(gasoline_additives(label).values()))
 
 
 def family_of(label: str) -> str:
@@ -63,10 +97,14 @@ def real_fuels(library: Any) -> pd.DataFrame:
     """The 40 fuels' compositions on the library, one row per (fuel, component).
 
     Columns: ``mixture_id``, ``label``, ``family``, ``component`` (library name, None when the
-    library lacks it), ``source_name``, ``mass_pct`` (of the whole fuel, from the mole
-    fractions with molar masses from the library, or from ``mixture_components.csv`` beside the
-    data for a component the library lacks; rows without either are left out of the mass
-    conversion and counted in ``unmatched_mass_pct`` by :func:`fuel_table`).
+    library lacks it), ``source_name``, ``mass_pct`` (of the whole fuel). The reading is the
+    octane fit's (:func:`gasoline_additives`): the fraction of an additive the label names is
+    its volume fraction (an E10 is 10 % v/v ethanol, about 11 % m/m, not 10 % mol), the base fuel's
+    components are its mole fractions, turned into masses with molar masses and into the
+    volume the additive leaves with densities (the library's, or ``mixture_components.csv``
+    beside the data for a component the library lacks; a base component without a density
+    takes the base's mass-weighted mean). Rows without a molar mass are left out of the mass
+    conversion and counted in ``unmatched_mass_pct`` by :func:`fuel_table`.
     Components are matched by CAS number first, then by name (:func:`dha.identify.match_name`).
     """
     return _FUELS.get(library, lambda: _real_fuels(library),
@@ -80,21 +118,38 @@ def _real_fuels(library: Any) -> pd.DataFrame:
     from dha.identify import match_name
 
     d = _raw().copy()
+    iso = (d["component_cas"] == ISOPRENOL_DATA_CAS) & d["mixture_label"].str.contains("isoprenol")
+    d.loc[iso, "component_cas"] = GASOLINE_ADDITIVES["isoprenol"]
+    d.loc[iso, "component_name"] = "isoprenol"
     comp = [match_name(c, library) if isinstance(c, str) else None for c in d["component_cas"]]
     by_name = [match_name(n, library) for n in d["component_name"]]
     d["component"] = [a or b for a, b in zip(comp, by_name)]
-    mm = pd.to_numeric(library.components["molar_mass_g_mol"], errors="coerce")
-    d["molar_mass"] = d["component"].map(mm)
+    comps = library.components
+    d["molar_mass"] = d["component"].map(pd.to_numeric(comps["molar_mass_g_mol"], errors="coerce"))
+    d["density"] = d["component"].map(pd.to_numeric(comps["density_15c_kg_m3"], errors="coerce"))
     extra = Path(__file__).parent / "properties" / "octane_data" / "mixture_components.csv"
-    if extra.exists() and d["molar_mass"].isna().any():
-        mc = pd.read_csv(extra)
-        col = next((c for c in mc.columns if "molar" in c), None)
-        key = next((c for c in mc.columns if c in ("cas", "component_cas")), None)
-        if col and key:
-            d["molar_mass"] = d["molar_mass"].fillna(
-                d["component_cas"].map(dict(zip(mc[key].astype(str), mc[col]))))
+    if extra.exists():
+        mc = pd.read_csv(extra, dtype={"cas": str}).drop_duplicates("cas").set_index("cas")
+        for col, src in (("molar_mass", "molar_mass_g_mol"), ("density", "density_15c_kg_m3")):
+            d[col] = d[col].fillna(d["component_cas"].map(mc[src]))
     d = d[d["molar_mass"].notna()].copy()
     d["mass"] = d["fraction"] * d["molar_mass"]
+    # the additives a label names: their fractions are volume fractions (gasoline_additives);
+    # the base's mole fractions become masses, scaled to the volume the additives leave
+    named = {lab: {GASOLINE_ADDITIVES[a] for a in gasoline_additives(lab)}
+             for lab in d["mixture_label"].unique()}
+    for _, g in d.groupby("mixture_id", sort=False):
+        is_add = g["component_cas"].isin(list(named[g["mixture_label"].iloc[0]])).to_numpy()
+        if not is_add.any():
+            continue
+        base, added = g[~is_add], g[is_add]
+        known = base["density"].notna()
+        rho = base["density"].fillna((base["mass"] * base["density"]).sum()
+                                     / base.loc[known, "mass"].sum())
+        volume = float((base["mass"] / rho).sum())
+        left = max(1.0 - float(added["fraction"].sum()), 0.0)
+        d.loc[base.index, "mass"] = base["mass"] * left / volume
+        d.loc[added.index, "mass"] = added["fraction"] * added["density"]
     d["mass_pct"] = 100.0 * d["mass"] / d.groupby("mixture_id")["mass"].transform("sum")
     d["family"] = d["mixture_label"].map(family_of)
     out = d.rename(columns={"mixture_label": "label", "component_name": "source_name"})

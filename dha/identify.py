@@ -1402,9 +1402,11 @@ PRIOR_FLOOR_PCT = 0.05
 #: tried on the tuning seeds and was worse at both noise levels).
 WITHIN_CELL_PSEUDO = 1.0
 
-#: Oxygen limit [% m/m] of EN 228 petrol (E10 grade); fuels of the data above it (the 25-90 %
-#: blends of a blending study) are left out of the oxygenate share.
-EN228_MAX_OXYGEN_PCT = 3.7
+#: Most a market petrol blends in [% v/v]: EN 228's E10 grade allows ethanol up to 10 % v/v
+#: (oxygen up to 3.7 % m/m). Fuels of the data with more blended in (the 20-90 % blends of a
+#: blending study) are left out of the oxygenate share. By volume, as the data's labels state
+#: it: the light research gasolines with 10 % v/v ethanol hold 3.9-4.1 % m/m oxygen.
+EN228_MAX_BLENDED_VOL_PCT = 10.0
 
 
 def prior_shares(library: Any, exclude_families: tuple = ()) -> tuple[dict, dict]:
@@ -1412,8 +1414,9 @@ def prior_shares(library: Any, exclude_families: tuple = ()) -> tuple[dict, dict
 
     From :func:`dha.fuel_data.real_fuels`: each family (a base fuel and its blends) counts
     once, its members averaged. Hydrocarbon cells: the share of the hydrocarbon mass;
-    the oxygenate share: mean oxygenate mass % of the family members within EN 228's oxygen
-    limit (:data:`EN228_MAX_OXYGEN_PCT`). Every library cell gets :data:`PRIOR_FLOOR_PCT` on top.
+    the oxygenate share: mean oxygenate mass % of the family members with no more blended in
+    than an E10 grade petrol (:data:`EN228_MAX_BLENDED_VOL_PCT`). Every library cell gets
+    :data:`PRIOR_FLOOR_PCT` on top.
 
     Returns
     -------
@@ -1426,7 +1429,7 @@ def prior_shares(library: Any, exclude_families: tuple = ()) -> tuple[dict, dict
         hydrocarbon library name -> mean mass % in the data (on the same scale as ``cells``,
         without the floor; components the data lack are absent).
     """
-    from dha.fuel_data import real_fuels
+    from dha.fuel_data import blended_volume_pct, real_fuels
 
     comps = library.components
     f = real_fuels(library)
@@ -1435,11 +1438,6 @@ def prior_shares(library: Any, exclude_families: tuple = ()) -> tuple[dict, dict
         raise SettingsError("[identify] prior_exclude_families leaves no fuel for the priors")
     f["group"] = f["component"].map(comps["group"])
     f["carbon"] = f["component"].map(pd.to_numeric(comps["carbon_number"], errors="coerce"))
-    formula = comps["formula"].astype(str) if "formula" in comps else pd.Series("", index=comps.index)
-    n_o = formula.str.extract(r"O(\d*)")[0].map(lambda x: np.nan if pd.isna(x) else
-                                                   (int(x) if x else 1))
-    o_frac = (15.999 * n_o.fillna(0) / pd.to_numeric(comps["molar_mass_g_mol"], errors="coerce")).fillna(0)
-    f["oxygen"] = f["mass_pct"] * f["component"].map(o_frac).fillna(0)
     fam_oxy, fam_cells, fam_comps = [], [], []
     for _, fam in f.groupby("family", sort=True):
         per, per_c = [], []
@@ -1449,7 +1447,7 @@ def prior_shares(library: Any, exclude_families: tuple = ()) -> tuple[dict, dict
             per.append(cell / cell.sum())
             one = hc.groupby("component")["mass_pct"].sum()
             per_c.append(one / one.sum())
-            if fuel["oxygen"].sum() <= EN228_MAX_OXYGEN_PCT:
+            if blended_volume_pct(fuel["label"].iat[0]) <= EN228_MAX_BLENDED_VOL_PCT:
                 fam_oxy.append((fam["family"].iat[0], fuel.loc[fuel["group"] == "oxygenates",
                                                                "mass_pct"].sum()))
         fam_cells.append(pd.concat(per, axis=1).fillna(0.0).mean(axis=1))
@@ -1477,7 +1475,7 @@ def _cell_parts(library: Any, exclude_families: tuple) -> pd.DataFrame:
     """Hydrocarbons of the real fuels (:func:`dha.fuel_data.real_fuels`, families left out):
     ``family, mixture_id, group, carbon, component, mass_pct`` and ``part``, the component's
     part of its (group, carbon number) cell in that fuel [-]."""
-    from dha.fuel_data import real_fuels
+    from dha.fuel_data import blended_volume_pct, real_fuels
 
     comps = library.components
     f = real_fuels(library)

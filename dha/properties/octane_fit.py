@@ -48,6 +48,9 @@ import pandas as pd
 from scipy.optimize import least_squares
 
 from dha.errors import CalibrationError, InputError, LibraryError
+# the labels of the real gasolines are read in dha.fuel_data, for this fit and the
+# identification alike
+from dha.fuel_data import GASOLINE_ADDITIVES, ISOPRENOL_DATA_CAS, gasoline_additives
 from dha.properties import octane as oc
 
 log = logging.getLogger("dha.octane_fit")
@@ -268,14 +271,6 @@ def data_components(components: pd.DataFrame) -> pd.DataFrame:
 # The real gasolines (KUZ2022_MON, 40 fuels in 6 families)
 # --------------------------------------------------------------------------------------------
 
-#: Additives named in the gasoline labels ("FACE_A+E25", "RBOB5 + 10 vol% ethanol + 20 vol%
-#: prenol") and their CAS numbers. The source lists the "isoprenol" blends under the CAS number
-#: and SMILES of diisobutylene (107-39-1), the same mismatch as its pure-component entry named
-#: "isoprenol" (MON 83.3): we read the label, i.e. 3-methyl-3-buten-1-ol (763-32-6).
-GASOLINE_ADDITIVES = {"ethanol": "64-17-5", "prenol": "556-82-1", "isoprenol": "763-32-6"}
-ISOPRENOL_DATA_CAS = "107-39-1"
-
-
 def gasoline_family(label: str) -> str:
     """The family of a gasoline label: the base fuel (a base and all its blends are one family).
 
@@ -287,24 +282,6 @@ def gasoline_family(label: str) -> str:
     lab = " ".join(label.split())
     m = re.match(r"(FACE_[A-Z]|RBOB\d+)", lab)
     return m.group(1) if m else lab
-
-
-def gasoline_additives(label: str) -> dict[str, float]:
-    """Additives and their nominal % v/v from a gasoline label.
-
-    >>> gasoline_additives("FACE_A+E25")
-    {'ethanol': 25.0}
-    >>> gasoline_additives("RBOB5 + 10 vol%  ethanol + 20 vol% prenol")
-    {'ethanol': 10.0, 'prenol': 20.0}
-    """
-    lab = " ".join(label.split())
-    out = {}
-    m = re.search(r"\+E(\d+)$", lab)
-    if m:
-        out["ethanol"] = float(m.group(1))
-    for v, name in re.findall(r"(\d+) vol% (\w+)", lab):
-        out[name] = float(v)
-    return out
 
 
 @lru_cache(maxsize=1)

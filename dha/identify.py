@@ -1063,8 +1063,12 @@ def _match_confidence(peak_ri: np.ndarray, lib_lo: np.ndarray, lib_hi: np.ndarra
 #: tuning seeds 2040-2041 (320 unnamed runs of the 40 real fuels, index sd 0.5 and 1.5 + drift,
 #: priors without the fuel's family): at 0.92 the worst passing run had 95.4 % right, at 0.91
 #: three runs below 90 % passed. (It was 0.95, set without data: that flagged 42 of the 80 runs
-#: with >= 97 % right at sd 0.5.) Below 0.85 it is not a composition to certify (common
-#: practice, no source).
+#: with >= 97 % right at sd 0.5.) Re-checked after the real fuels were read by volume (the
+#: "isoprenol" blends by their label): by that rule 0.88 now (the large-peak rules catch the
+#: runs the score let through; at 0.87 none below 90 % passes, at 0.86 one), kept at 0.93 so a
+#: run whose own expected share right is under 93 % is reviewed (90 of the 296 tuning runs with
+#: >= 97 % right flagged at 0.93, 43 at 0.88). Below 0.85 it is not a composition to certify
+#: (common practice, no source).
 QUALITY_PASS = 0.93
 QUALITY_FAIL = 0.85
 #: Fewer peaks than this make the automatic marker search a guess (issue 13; petrol DHA runs

@@ -158,10 +158,12 @@ def real_accuracy(lib, seeds, auto=True):
                 continue
             gap = d["ceiling"].mean() - d[key].mean()
             unflagged_bad = int(((d[key] < 0.90) & ~d[key + "_flag"]).sum())
+            # a run is short when below both 0.93 and its own ceiling less the allowance
+            short = int((d[key] < np.minimum(0.93, d["ceiling"] - near)).sum())
             print(f"    {key:6s} mean {d[key].mean():.4f} min {d[key].min():.4f} | ceiling mean "
                   f"{d['ceiling'].mean():.4f} min {d['ceiling'].min():.4f} | gap {gap:+.4f} | "
                   f"flagged {int(d[key + '_flag'].sum())}/{len(d)}, runs < 0.90 without a flag "
-                  f"{unflagged_bad}")
+                  f"{unflagged_bad}, runs < min(0.93, own ceiling - {near:.2f}) {short}")
         d["kind"] = np.where(d["label"].str.contains("prenol"), "prenol/isoprenol blends",
                              "base fuels and ethanol blends")
         keys = [k for k in ("std", "stated", "blend", "auto") if k in d]

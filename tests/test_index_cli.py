@@ -1,6 +1,8 @@
 """`dha index learn`: a library overlay from named reference runs, used with --library."""
 from __future__ import annotations
 
+import re
+
 import pandas as pd
 import pytest
 from click.testing import CliRunner
@@ -39,6 +41,20 @@ def test_learn_writes_a_checked_overlay_and_later_runs_use_it(lib, tmp_path):
                                  "--settings", str(settings)])
     assert r.exit_code == 0, r.output
     assert "learnt" in r.output
+    # how much of a typical petrol the table covers (the 40 real fuels of Kuzhagaliyeva et
+    # al. 2022): an alkylate's components are not a reformate's
+    cover = re.search(r"make up (\d+) % of the hydrocarbon mass of a typical petrol", r.output)
+    assert cover and 0 < int(cover.group(1)) <= 100, r.output
+    assert ("learn from several different petrols" in r.output) == (int(cover.group(1)) < 90)
+    # one real research gasoline (FACE A, 28 components) covers far less: the hint appears
+    from dha.synthetic import real_fuel_run
+    peaks, _ = real_fuel_run(lib, "KUZ-0628", seed=1, names=True, column_sd=1.0, column_seed=3)
+    _write_export(peaks, tmp_path / "face_a.csv", "REF-A")
+    r = CliRunner().invoke(cli, ["index", "learn", str(tmp_path / "face_a.csv"), "-o",
+                                 str(tmp_path / "lab_a"), "--settings", str(settings)])
+    assert r.exit_code == 0, r.output
+    cover = re.search(r"make up (\d+) % of the hydrocarbon mass of a typical petrol", r.output)
+    assert cover and int(cover.group(1)) < 90 and "several different petrols" in r.output, r.output
     learnt = pd.read_csv(out / "learnt_indices.csv")
     assert (learnt["n_runs"] == 2).sum() > 0.8 * len(learnt)
     # two runs of one column differ by run-to-run noise only (sd 0.1): spread stays small

@@ -164,6 +164,13 @@ def real_accuracy(lib, seeds, auto=True):
                   f"{d['ceiling'].mean():.4f} min {d['ceiling'].min():.4f} | gap {gap:+.4f} | "
                   f"flagged {int(d[key + '_flag'].sum())}/{len(d)}, runs < 0.90 without a flag "
                   f"{unflagged_bad}, runs < min(0.93, own ceiling - {near:.2f}) {short}")
+        for key in ("stated", "blend"):
+            short = d[d[key] < np.minimum(0.93, d["ceiling"] - near)]
+            if len(short):
+                print(f"    short runs ({key}): " + "; ".join(
+                    f"{r.label} seed {r.seed} {r[key]:.3f} (ceiling {r.ceiling:.3f}"
+                    f"{', flagged' if r[key + '_flag'] else ', NOT flagged'})"
+                    for r in (row for _, row in short.iterrows())))
         d["kind"] = np.where(d["label"].str.contains("prenol"), "prenol/isoprenol blends",
                              "base fuels and ethanol blends")
         keys = [k for k in ("std", "stated", "blend", "auto") if k in d]

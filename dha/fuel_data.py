@@ -98,13 +98,15 @@ def real_fuels(library: Any) -> pd.DataFrame:
 
     Columns: ``mixture_id``, ``label``, ``family``, ``component`` (library name, None when the
     library lacks it), ``source_name``, ``mass_pct`` (of the whole fuel). The reading is the
-    octane fit's (:func:`gasoline_additives`): the fraction of an additive the label names is
-    its volume fraction (an E10 is 10 % v/v ethanol, about 11 % m/m, not 10 % mol), the base fuel's
-    components are its mole fractions, turned into masses with molar masses and into the
-    volume the additive leaves with densities (the library's, or ``mixture_components.csv``
-    beside the data for a component the library lacks; a base component without a density
-    takes the base's mass-weighted mean). Rows without a molar mass are left out of the mass
-    conversion and counted in ``unmatched_mass_pct`` by :func:`fuel_table`.
+    octane fit's (``octane_fit.gasoline_volume_fractions``, which works in volumes; a test
+    checks the two agree): the fraction of an additive the label names
+    (:func:`gasoline_additives`) is its volume fraction (an E10 is 10 % v/v ethanol, about
+    11 % m/m, not 10 % mol), the base fuel's components are its mole fractions, turned into
+    masses with molar masses and into the volume the additive leaves with densities (the
+    library's, or ``mixture_components.csv`` beside the data for a component the library
+    lacks; a base component without a density takes the base's mass-weighted mean). Rows
+    without a molar mass are left out of the mass conversion and counted in
+    ``unmatched_mass_pct`` by :func:`fuel_table`.
     Components are matched by CAS number first, then by name (:func:`dha.identify.match_name`).
     """
     return _FUELS.get(library, lambda: _real_fuels(library),

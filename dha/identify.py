@@ -1479,7 +1479,7 @@ def _cell_parts(library: Any, exclude_families: tuple) -> pd.DataFrame:
     """Hydrocarbons of the real fuels (:func:`dha.fuel_data.real_fuels`, families left out):
     ``family, mixture_id, group, carbon, component, mass_pct`` and ``part``, the component's
     part of its (group, carbon number) cell in that fuel [-]."""
-    from dha.fuel_data import blended_volume_pct, real_fuels
+    from dha.fuel_data import real_fuels
 
     comps = library.components
     f = real_fuels(library)

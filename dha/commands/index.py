@@ -4,7 +4,6 @@ from __future__ import annotations
 from pathlib import Path
 
 import click
-import pandas as pd
 
 from dha.commands.options import library_option, settings_option, out_option
 
@@ -72,8 +71,8 @@ def learn_command(refruns, out_dir, library_dir, settings_file, overwrite, recal
     # how much of a typical petrol the learnt entries cover: the others keep their estimates
     from dha.identify import prior_shares
     typical = prior_shares(library)[2]
-    learnt = set(table.loc[table.get("index_kind", pd.Series("learnt", index=table.index))
-                           == "learnt", "name"])
+    learnt = set(table["name"][table["index_kind"] == "learnt"]) if "index_kind" in table \
+        else set(table["name"])
     cover = round(100.0 * sum(v for k, v in typical.items() if k in learnt)
                   / sum(typical.values()))
     click.echo(f"the learnt components make up {cover} % of the hydrocarbon mass of a typical "

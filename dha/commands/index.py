@@ -15,6 +15,11 @@ def index_group() -> None:
     """The lab's own retention-index table, learnt from named reference runs."""
 
 
+#: Share of a typical petrol's hydrocarbon mass [%] below which `index learn` advises more
+#: reference petrols: most of the mass should be on learnt indices (common practice, no source).
+GOOD_COVER_PCT = 90
+
+
 @index_group.command("learn")
 @click.argument("refruns", nargs=-1, required=True,
                 type=click.Path(exists=True, dir_okay=False, path_type=Path))
@@ -78,7 +83,8 @@ def learn_command(refruns, out_dir, library_dir, settings_file, overwrite, recal
     click.echo(f"the learnt components make up {cover} % of the hydrocarbon mass of a typical "
                "petrol (mean of 40 real fuels, Kuzhagaliyeva et al. 2022); the others keep their "
                "estimated index"
-               + ("; learn from several different petrols to cover more" if cover < 90 else ""))
+               + ("; learn from several different petrols to cover more"
+                  if cover < GOOD_COVER_PCT else ""))
     click.echo(f"use it with: --library {out}")
 
 
